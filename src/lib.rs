@@ -1,0 +1,4 @@
+//! Neighbour-coupled phase alignment for microcontroller nodes.
+#![cfg_attr(not(feature = "std"), no_std)]
+#![forbid(unsafe_code)]
+#![deny(missing_docs)]

@@ -101,6 +101,7 @@ struct Entry {
 /// assert!(report.correction > 0); // pulled forward, toward the neighbour
 /// ```
 #[derive(Clone, Debug)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Node<const N: usize> {
     config: Config,
     /// Phase in Q32.32 counts.

@@ -48,7 +48,7 @@ impl Coupling for Sine {
 /// Error at most [`SINE_MAX_ERROR`] counts anywhere on the circle. Odd by construction
 /// (computed on `|diff|`, then the sign is restored). For `|diff| < 2^22` counts
 /// (1/1024 turn) the result is exactly `diff`, and the polynomial is skipped: near lock the
-/// sine law is the linear law, bit for bit and nearly at its cost. Otherwise five 32-bit
+/// sine law is the linear law, bit for bit and nearly at its cost. Otherwise six 32-bit
 /// multiplies and no 64-bit product, so it is cheap on a Cortex-M0.
 #[must_use]
 #[inline]

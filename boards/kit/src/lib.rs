@@ -1,0 +1,15 @@
+//! Shared helpers for the entrain board firmware.
+//!
+//! Everything here is `no_std` and allocation-free. The target-independent parts
+//! ([`vectors`]) are plain code; the rest touches Cortex-M core
+//! peripherals ([`icount`]) or semihosting ([`host`]).
+#![no_std]
+#![deny(missing_docs)]
+
+pub mod cost;
+pub mod host;
+pub mod icount;
+pub mod vectors;
+
+/// The vectors written by the root crate's `bitexact_vectors` example.
+pub static NODE_LAW_VECTORS: &[u8] = include_bytes!("../../vectors/node_law.bin");

@@ -85,10 +85,13 @@ mod flags;
 mod frame;
 #[cfg(feature = "mac")]
 mod mac;
+mod peers;
+mod reject;
 mod window;
 
 pub use flags::Flags;
 pub use frame::{DecodeError, EncodeError, FRAME_LEN, Frame, HEADER_LEN, TAG_LEN, VERSION};
 #[cfg(feature = "mac")]
 pub use mac::NetworkKey;
+pub use reject::{RejectCounts, RejectKind};
 pub use window::{Accepted, SeqWindow, WINDOW_LEN, WindowReject};

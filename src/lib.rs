@@ -1,7 +1,29 @@
-//! Neighbour-coupled phase alignment for microcontroller nodes.
+#![doc = include_str!("../README.md")]
 #![cfg_attr(not(feature = "std"), no_std)]
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
+#![cfg_attr(
+    not(test),
+    deny(
+        clippy::unwrap_used,
+        clippy::expect_used,
+        clippy::panic,
+        clippy::indexing_slicing
+    )
+)]
 
 #[cfg(feature = "beacon")]
 pub mod beacon;
+mod config;
+mod gain;
+pub mod law;
+mod node;
+mod phase;
+#[cfg(feature = "hal")]
+pub mod pulse;
+
+pub use config::{Config, ConfigBuilder, ConfigError, MAX_TRIM_LIMIT_PPB};
+pub use gain::{GAIN_FRAC_BITS, Gain};
+pub use law::Law;
+pub use node::{Node, NodeId, Observation, TableFull, UpdateReport};
+pub use phase::Phase;

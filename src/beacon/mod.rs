@@ -4,7 +4,9 @@
 //! sender's id, a sequence number, its phase at the instant the frame leaves, its current
 //! rate trim and a few flags. With feature `mac` the frame also carries a SipHash-2-4 tag
 //! under a pre-shared network key, so a transmitter without the key cannot move anyone's
-//! phase.
+//! phase. [`BeaconPort`] joins the frame to a [`Node`](crate::Node): its receive path
+//! turns checked frame bytes into observations, its send path fills frames from the
+//! node's phase, and it counts what it refuses, by [`RejectKind`].
 //!
 //! # Layout (version 1, [`FRAME_LEN`] = 28 bytes)
 //!
@@ -50,7 +52,7 @@
 //! the next frame. Because a window cannot tell a rebooted sender from a replay, a sender
 //! that uses authentication must not restart its sequence at the same value after a
 //! reset: start it from a boot counter kept in non-volatile memory (for example
-//! `boot_count << 16`), or have receivers call `forget` for it.
+//! `boot_count << 16`), or have receivers call [`BeaconPort::forget`] for it.
 //!
 //! # Authentication (feature `mac`)
 //!
@@ -59,7 +61,7 @@
 //! probability 2^-64; at 10 000 forged frames per second it expects to need about 58
 //! million years for one success. Replayed genuine frames carry a valid tag and are caught
 //! by the sequence window instead. The key is shared by the whole network, so it stops
-//! outsiders, not a node that holds it: see the fault bound in the port's documentation.
+//! outsiders, not a node that holds it: see the fault bound on [`BeaconPort`].
 //!
 //! # Example
 //!
@@ -86,6 +88,7 @@ mod frame;
 #[cfg(feature = "mac")]
 mod mac;
 mod peers;
+mod port;
 mod reject;
 mod window;
 
@@ -93,5 +96,6 @@ pub use flags::Flags;
 pub use frame::{DecodeError, EncodeError, FRAME_LEN, Frame, HEADER_LEN, TAG_LEN, VERSION};
 #[cfg(feature = "mac")]
 pub use mac::NetworkKey;
+pub use port::{BeaconPort, Received};
 pub use reject::{RejectCounts, RejectKind};
 pub use window::{Accepted, SeqWindow, WINDOW_LEN, WindowReject};

@@ -1,0 +1,543 @@
+//! One node: its local clock, its neighbour table and the PI update law.
+
+use crate::law::{Coupling, Linear, Sine};
+use crate::{Config, Law, Phase};
+use core::fmt;
+use heapless::Vec;
+
+/// A node's identity on the network.
+pub type NodeId = u16;
+
+/// One neighbour phase observation, as a node's receive path hands it over.
+#[derive(Clone, Copy, PartialEq, Eq, Hash, Debug)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Observation {
+    /// The neighbour's id.
+    pub from: NodeId,
+    /// The neighbour's phase at the instant it sent.
+    pub phase: Phase,
+    /// This node's timer, in ticks, when the message arrived (wrapping).
+    pub rx_ticks: u32,
+    /// The known link delay from the sender's send instant to `rx_ticks`, in this node's
+    /// timer ticks.
+    pub delay_ticks: u32,
+}
+
+/// The neighbour table is full: the rejected observation is handed back.
+#[derive(Clone, Copy, PartialEq, Eq, Hash, Debug)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct TableFull(pub Observation);
+
+impl fmt::Display for TableFull {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(
+            f,
+            "neighbour table full: observation from node {} rejected",
+            self.0.from
+        )
+    }
+}
+
+impl core::error::Error for TableFull {}
+
+/// What one update did.
+#[derive(Clone, Copy, PartialEq, Eq, Hash, Debug, Default)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct UpdateReport {
+    /// The phase step applied, counts (after the slew limit).
+    pub correction: i32,
+    /// True when the slew limit cut the step (the integral term then holds still).
+    pub slew_limited: bool,
+    /// Neighbours that pulled.
+    pub used: u8,
+    /// Neighbours dropped this update for silence longer than the timeout.
+    pub evicted: u8,
+    /// The largest |Δ| to a neighbour before the step, counts.
+    pub largest_diff: u32,
+}
+
+/// One neighbour-table entry.
+#[derive(Clone, Copy, PartialEq, Eq, Debug)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+struct Entry {
+    id: NodeId,
+    /// Estimated Δ (neighbour − self) at the node's current instant, plus the
+    /// node's cumulative correction then: Δ now = offset − corrections.
+    offset: u32,
+    /// Local ticks when last heard.
+    heard: u32,
+}
+
+/// One node's phase state, its neighbour table of capacity `N`, and the PI law.
+///
+/// The local clock advances the phase from the node's own timer ticks: a Q32.32
+/// accumulator gains `rate_nominal + trim` per tick, so a trim of 0.01 ppm is about
+/// 184,000 units of 2^-32 count per tick at a 1 MHz timer and 1 s period, and nothing
+/// is lost to rounding over days (the per-tick rounding of the nominal rate is below
+/// 2^-32 count, a relative 5·10⁻¹⁴ at that rate).
+///
+/// Each [`update`](Node::update) applies
+/// `phase += clamp(kp · Σ pull(Δ_j), ±slew_limit)` and
+/// `trim += ki · Σ pull(Δ_j) / update_ticks` (not while slew-limited; clamped to the trim
+/// range), where `Δ_j` is neighbour j's phase, extrapolated from its observation to now,
+/// minus this node's. One neighbour, however it lies, moves the node at most
+/// `slew_limit` counts per update.
+///
+/// The node never allocates and never panics. All arithmetic wraps or saturates
+/// explicitly, so the integer laws give the same bits on every target.
+///
+/// ```
+/// use entrain::{Config, Node, Observation, Phase};
+/// let config = Config::builder(1_000_000, 100_000).build().unwrap();
+/// let mut node: Node<2> = Node::new(config, Phase::ZERO, 0);
+/// // A neighbour a hundredth of a turn ahead, heard just now over a 50-tick link.
+/// let ahead = Phase::from_turns(0.01);
+/// node.observe(Observation { from: 7, phase: ahead, rx_ticks: 0, delay_ticks: 50 }).unwrap();
+/// let report = node.update(0);
+/// assert_eq!(report.used, 1);
+/// assert!(report.correction > 0); // pulled forward, toward the neighbour
+/// ```
+#[derive(Clone, Debug)]
+pub struct Node<const N: usize> {
+    config: Config,
+    /// Phase in Q32.32 counts.
+    acc: u64,
+    /// Rate trim, Q32.32 counts per tick.
+    trim: i64,
+    /// Local timer at the last advance.
+    now: u32,
+    /// Sum of all corrections applied (wrapping), the reference of `Entry::offset`.
+    corrections: u32,
+    /// Completed turns, net of corrections stepping back across zero.
+    cycles: u32,
+    table: Vec<Entry, N>,
+}
+
+impl<const N: usize> Node<N> {
+    const CAPACITY_OK: () = assert!(N >= 1 && N <= 255, "a node holds 1 to 255 neighbours");
+
+    /// A node starting at `phase` with its timer reading `now_ticks`, no neighbours, and
+    /// zero trim.
+    #[must_use]
+    pub const fn new(config: Config, phase: Phase, now_ticks: u32) -> Self {
+        let () = Self::CAPACITY_OK;
+        Node {
+            config,
+            acc: (phase.counts() as u64) << 32,
+            trim: 0,
+            now: now_ticks,
+            corrections: 0,
+            cycles: 0,
+            table: Vec::new(),
+        }
+    }
+
+    /// The configuration this node runs.
+    #[must_use]
+    pub const fn config(&self) -> &Config {
+        &self.config
+    }
+
+    /// The phase at the last advance.
+    #[must_use]
+    pub const fn phase(&self) -> Phase {
+        Phase::from_counts((self.acc >> 32) as u32)
+    }
+
+    /// The local timer at the last advance.
+    #[must_use]
+    pub const fn now_ticks(&self) -> u32 {
+        self.now
+    }
+
+    /// Completed turns since start (wrapping), net of corrections that stepped back
+    /// across zero: it rises by exactly one per period, which is what a sync-pulse
+    /// output keys on.
+    #[must_use]
+    pub const fn cycles(&self) -> u32 {
+        self.cycles
+    }
+
+    /// Neighbours in the table (fresh or not yet evicted).
+    #[must_use]
+    pub fn neighbour_count(&self) -> usize {
+        self.table.len()
+    }
+
+    /// Ids of the neighbours in the table.
+    pub fn neighbours(&self) -> impl Iterator<Item = NodeId> + '_ {
+        self.table.iter().map(|e| e.id)
+    }
+
+    /// Rate per tick, Q32.32 counts: nominal plus trim.
+    const fn rate(&self) -> u64 {
+        self.config.rate_nominal().wrapping_add(self.trim as u64)
+    }
+
+    /// The phase at local time `now_ticks`, extrapolated at the current rate without
+    /// changing any state. `now_ticks` may be up to 2^31 ticks either side of
+    /// [`now_ticks`](Node::now_ticks).
+    #[must_use]
+    pub const fn phase_at(&self, now_ticks: u32) -> Phase {
+        let span = now_ticks.wrapping_sub(self.now) as i32 as i64 as u64;
+        Phase::from_counts((self.acc.wrapping_add(span.wrapping_mul(self.rate())) >> 32) as u32)
+    }
+
+    /// The current rate trim in Q32.32 counts per tick.
+    #[must_use]
+    pub const fn trim_raw(&self) -> i64 {
+        self.trim
+    }
+
+    /// The current rate trim, parts per billion of the nominal rate (rounded toward zero).
+    #[must_use]
+    pub const fn trim_ppb(&self) -> i32 {
+        let ppb = self.trim as i128 * 1_000_000_000 / self.config.rate_nominal() as i128;
+        // |trim| ≤ 10 % of the nominal rate, so |ppb| ≤ 10⁸.
+        ppb as i32
+    }
+
+    /// Set the rate trim (for example from a value saved before a reboot), clamped to the
+    /// configured range.
+    pub const fn set_trim_ppb(&mut self, ppb: i32) {
+        let raw = self.config.rate_nominal() as i128 * ppb as i128 / 1_000_000_000;
+        self.trim = clamp_i128(raw, self.config.trim_limit_raw());
+    }
+
+    /// Run the local clock to `now_ticks` (which must be within 2^31 ticks after the
+    /// last advance; an earlier time changes nothing). Returns the forward turns
+    /// completed through zero. A silence longer than the timeout empties the neighbour
+    /// table, so a timer wrap can never make a stale neighbour look fresh.
+    pub fn advance_to(&mut self, now_ticks: u32) -> u32 {
+        let elapsed = now_ticks.wrapping_sub(self.now);
+        if elapsed == 0 || elapsed > i32::MAX as u32 {
+            return 0;
+        }
+        self.now = now_ticks;
+        if elapsed > self.config.timeout_ticks() {
+            self.table.clear();
+        }
+        let sum = u128::from(self.acc) + u128::from(elapsed) * u128::from(self.rate());
+        self.acc = sum as u64;
+        // elapsed < 2^31 and rate < 2^64, so the turn count is below 2^31.
+        let turns = (sum >> 64) as u32;
+        self.cycles = self.cycles.wrapping_add(turns);
+        turns
+    }
+
+    /// Take one neighbour observation. The neighbour's phase is extrapolated from its
+    /// send instant (`rx_ticks − delay_ticks`) to the node's current instant at the
+    /// node's own rate. An entry for the same neighbour is replaced, unless the held one
+    /// is newer (then it is kept: it is the fresher estimate).
+    ///
+    /// # Errors
+    /// [`TableFull`] with the observation, when it comes from a new neighbour and all `N`
+    /// entries are taken.
+    pub fn observe(&mut self, obs: Observation) -> Result<(), TableFull> {
+        let age = self.now.wrapping_sub(obs.rx_ticks) as i32;
+        let span = i64::from(obs.delay_ticks).wrapping_add(i64::from(age));
+        let neighbour = (u64::from(obs.phase.counts()) << 32)
+            .wrapping_add((span as u64).wrapping_mul(self.rate()));
+        // Round to the nearest count.
+        let diff = (neighbour.wrapping_sub(self.acc).wrapping_add(1 << 31) >> 32) as u32;
+        let entry = Entry {
+            id: obs.from,
+            offset: diff.wrapping_add(self.corrections),
+            heard: obs.rx_ticks,
+        };
+        if let Some(held) = self.table.iter_mut().find(|e| e.id == obs.from) {
+            if (entry.heard.wrapping_sub(held.heard) as i32) >= 0 {
+                *held = entry;
+            }
+            return Ok(());
+        }
+        self.table.push(entry).map_err(|_| TableFull(obs))
+    }
+
+    /// Drop a neighbour from the table; true if it was there.
+    pub fn forget(&mut self, id: NodeId) -> bool {
+        match self.table.iter().position(|e| e.id == id) {
+            Some(i) => {
+                self.table.swap_remove(i);
+                true
+            }
+            None => false,
+        }
+    }
+
+    /// Advance to `now_ticks`, drop neighbours silent longer than the timeout, and apply
+    /// one step of the PI law with the configured coupling.
+    pub fn update(&mut self, now_ticks: u32) -> UpdateReport {
+        self.advance_to(now_ticks);
+        match self.config.law() {
+            Law::Linear => self.step::<Linear>(),
+            Law::Sine => self.step::<Sine>(),
+            #[cfg(feature = "libm")]
+            Law::SineLibm => self.step::<crate::law::SineLibm>(),
+            #[cfg(feature = "micromath")]
+            Law::SineMicromath => self.step::<crate::law::SineMicromath>(),
+        }
+    }
+
+    /// One step of the law, monomorphised per coupling so the neighbour loop has no
+    /// dispatch in it.
+    fn step<L: Coupling>(&mut self) -> UpdateReport {
+        let now = self.now;
+        let corrections = self.corrections;
+        let timeout = self.config.timeout_ticks();
+        let mut sum: i64 = 0;
+        let mut used: u8 = 0;
+        let mut largest: u32 = 0;
+        let before = self.table.len();
+        self.table.retain(|e| {
+            let age = now.wrapping_sub(e.heard) as i32;
+            if age > timeout as i32 {
+                return false;
+            }
+            let diff = e.offset.wrapping_sub(corrections) as i32;
+            largest = largest.max(diff.unsigned_abs());
+            sum = sum.wrapping_add(i64::from(L::pull(diff)));
+            used = used.wrapping_add(1);
+            true
+        });
+        // The table holds at most 255 entries (checked at compile time).
+        let evicted = before.wrapping_sub(self.table.len()) as u8;
+        let mut report = UpdateReport {
+            used,
+            evicted,
+            largest_diff: largest,
+            ..UpdateReport::default()
+        };
+        if used == 0 {
+            return report;
+        }
+        let raw = self.config.kp().apply(sum);
+        let limit = i64::from(self.config.slew_limit());
+        let step = raw.clamp(-limit, limit);
+        report.slew_limited = step != raw;
+        // |step| ≤ slew_limit ≤ i32::MAX.
+        report.correction = step as i32;
+        self.apply_step(report.correction);
+        if !report.slew_limited {
+            let delta = mul_q16_sym(sum, self.config.ki_tick());
+            let limit = self.config.trim_limit_raw();
+            self.trim = self.trim.saturating_add(delta).clamp(-limit, limit);
+        }
+        report
+    }
+
+    /// Step the phase by `counts`, keeping the cycle count true across zero.
+    fn apply_step(&mut self, counts: i32) {
+        let before = self.phase().counts();
+        self.acc = self.acc.wrapping_add((i64::from(counts) as u64) << 32);
+        self.corrections = self.corrections.wrapping_add(counts as u32);
+        let after = self.phase().counts();
+        if counts > 0 && after < before {
+            self.cycles = self.cycles.wrapping_add(1);
+        } else if counts < 0 && after > before {
+            self.cycles = self.cycles.wrapping_sub(1);
+        }
+    }
+}
+
+/// `round(x · k / 2^16)`, ties away from zero (odd in `x`), saturating.
+const fn mul_q16_sym(x: i64, k: i64) -> i64 {
+    let mag = (x.unsigned_abs() as u128 * k.unsigned_abs() as u128 + (1 << 15)) >> 16;
+    let mag = if mag > i64::MAX as u128 {
+        i64::MAX
+    } else {
+        mag as i64
+    };
+    if (x < 0) != (k < 0) { -mag } else { mag }
+}
+
+const fn clamp_i128(x: i128, limit: i64) -> i64 {
+    if x > limit as i128 {
+        limit
+    } else if x < -(limit as i128) {
+        -limit
+    } else {
+        x as i64
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::Gain;
+
+    fn config(law: Law, kp: u32, ki: u32) -> Config {
+        Config::builder(1_000_000, 100_000)
+            .law(law)
+            .kp(Gain::from_q16(kp))
+            .ki(Gain::from_q16(ki))
+            .slew_limit(i32::MAX as u32)
+            .build()
+            .unwrap()
+    }
+
+    fn obs(from: NodeId, phase: u32, rx: u32) -> Observation {
+        Observation {
+            from,
+            phase: Phase::from_counts(phase),
+            rx_ticks: rx,
+            delay_ticks: 0,
+        }
+    }
+
+    #[test]
+    fn clock_advances_one_turn_per_period() {
+        let mut n: Node<1> = Node::new(config(Law::Linear, 1000, 0), Phase::ZERO, 0);
+        let mut wraps = 0;
+        for k in 1..=40u32 {
+            wraps += n.advance_to(k * 250_000);
+        }
+        assert_eq!(wraps, 10);
+        assert_eq!(n.cycles(), 10);
+        // 2^64/10^6 is rounded up by 0.45 units of 2^-32 count per tick, so after 10^7
+        // ticks the phase leads by about 1/1000 count: exactly zero counts.
+        assert_eq!(n.phase().counts(), 0);
+    }
+
+    #[test]
+    fn timer_wrap_is_harmless() {
+        let mut n: Node<1> = Node::new(config(Law::Linear, 1000, 0), Phase::ZERO, u32::MAX - 99);
+        n.advance_to(150); // 250 ticks across the timer wrap
+        assert_eq!(
+            n.phase().counts(),
+            (250u64 * (1u64 << 32) / 1_000_000) as u32
+        );
+        n.advance_to(100); // earlier: no change
+        assert_eq!(n.now_ticks(), 150);
+    }
+
+    #[test]
+    fn trim_of_a_hundredth_ppm_is_representable_and_accumulates() {
+        let mut n: Node<1> = Node::new(config(Law::Linear, 1000, 0), Phase::ZERO, 0);
+        n.set_trim_ppb(10);
+        assert_eq!(n.trim_ppb(), 9); // rounded toward zero from 9.99999...
+        assert!(n.trim_raw() > 0);
+        // One day at 1 MHz: 8.64e10 ticks, 86,400 turns; 10 ppb of that is 864 µs, i.e.
+        // 864e-6 turn = 3,710,851 counts. Trim quantisation (2^-32 count per tick) and the
+        // nominal rate's rounding together must cost less than 10 ns a day (43 counts).
+        let mut t = 0u32;
+        for _ in 0..86_400 {
+            for _ in 0..4 {
+                t = t.wrapping_add(250_000);
+                n.advance_to(t);
+            }
+        }
+        let got = n.phase().counts();
+        let want = 3_710_851u32;
+        assert!(got.abs_diff(want) <= 43, "got {got}");
+    }
+
+    #[test]
+    fn trim_is_clamped() {
+        let mut n: Node<1> = Node::new(config(Law::Linear, 1000, 0), Phase::ZERO, 0);
+        n.set_trim_ppb(1_000_000);
+        assert_eq!(n.trim_ppb(), 199_999);
+        n.set_trim_ppb(-1_000_000);
+        assert_eq!(n.trim_ppb(), -199_999);
+    }
+
+    #[test]
+    fn full_table_hands_the_observation_back() {
+        let mut n: Node<2> = Node::new(config(Law::Linear, 1000, 0), Phase::ZERO, 0);
+        assert_eq!(n.observe(obs(1, 0, 0)), Ok(()));
+        assert_eq!(n.observe(obs(2, 0, 0)), Ok(()));
+        assert_eq!(n.observe(obs(1, 5, 0)), Ok(())); // same id: replaced
+        let third = obs(3, 0, 0);
+        assert_eq!(n.observe(third), Err(TableFull(third)));
+        assert!(n.forget(2));
+        assert!(!n.forget(2));
+        assert_eq!(n.observe(third), Ok(()));
+    }
+
+    #[test]
+    fn stale_neighbours_are_evicted() {
+        let c = Config::builder(1_000_000, 100_000)
+            .law(Law::Linear)
+            .timeout_ticks(300_000)
+            .build()
+            .unwrap();
+        let mut n: Node<2> = Node::new(c, Phase::ZERO, 0);
+        n.observe(obs(1, 1000, 0)).unwrap();
+        n.advance_to(200_000);
+        n.observe(obs(2, 1000, 200_000)).unwrap();
+        assert_eq!(n.update(300_000).used, 2);
+        let r = n.update(400_000);
+        assert_eq!((r.used, r.evicted), (1, 1));
+        assert_eq!(
+            n.neighbours().collect::<heapless::Vec<_, 2>>().as_slice(),
+            &[2]
+        );
+        // A silence longer than the timeout in one step clears the table.
+        n.advance_to(900_001);
+        assert_eq!(n.neighbour_count(), 0);
+        assert_eq!(n.update(900_002), UpdateReport::default());
+    }
+
+    #[test]
+    fn delay_is_compensated() {
+        // A neighbour in perfect step sends phase p at local time 1000; it arrives 400
+        // ticks later. Compensated, the difference is zero.
+        let mut n: Node<1> = Node::new(config(Law::Linear, 32_768, 0), Phase::ZERO, 0);
+        n.advance_to(1_400);
+        let sent = Phase::from_counts((1_000u64 * (1 << 32) / 1_000_000) as u32);
+        n.observe(Observation {
+            from: 1,
+            phase: sent,
+            rx_ticks: 1_400,
+            delay_ticks: 400,
+        })
+        .unwrap();
+        let r = n.update(1_400);
+        assert!(r.largest_diff <= 1, "{r:?}");
+    }
+
+    #[test]
+    fn old_observation_does_not_replace_a_newer_one() {
+        let mut n: Node<1> = Node::new(config(Law::Linear, 32_768, 0), Phase::ZERO, 0);
+        n.advance_to(1000);
+        n.observe(obs(1, 0, 1000)).unwrap();
+        n.observe(obs(1, 1 << 20, 900)).unwrap();
+        let r = n.update(1000);
+        // The held (newer) entry says the neighbour is 1000 ticks behind.
+        assert!(r.largest_diff > 4_000_000);
+    }
+
+    #[test]
+    fn slew_limit_bounds_the_step_and_freezes_the_integral() {
+        let c = Config::builder(1_000_000, 100_000)
+            .law(Law::Linear)
+            .kp(Gain::from_q16(32_768))
+            .ki(Gain::from_q16(1_000))
+            .slew_limit(1_000)
+            .build()
+            .unwrap();
+        let mut n: Node<1> = Node::new(c, Phase::ZERO, 0);
+        n.observe(obs(1, 1 << 30, 0)).unwrap();
+        let r = n.update(0);
+        assert_eq!(r.correction, 1_000);
+        assert!(r.slew_limited);
+        assert_eq!(n.trim_raw(), 0);
+    }
+
+    #[test]
+    fn backward_step_across_zero_keeps_one_pulse_per_turn() {
+        let mut n: Node<1> = Node::new(config(Law::Linear, 32_768, 0), Phase::from_counts(10), 0);
+        n.observe(obs(1, u32::MAX - 29, 0)).unwrap(); // 40 counts behind: a step of -20
+        n.update(0);
+        assert_eq!(n.cycles(), u32::MAX); // stepped back across zero
+        n.advance_to(10);
+        assert_eq!(n.cycles(), 0);
+    }
+
+    #[test]
+    fn mul_q16_sym_is_odd_and_rounds() {
+        assert_eq!(mul_q16_sym(3, 1 << 15), 2);
+        assert_eq!(mul_q16_sym(-3, 1 << 15), -2);
+        assert_eq!(mul_q16_sym(i64::MIN, i64::MAX), -i64::MAX);
+    }
+}

@@ -82,7 +82,10 @@ impl<const N: usize> PeerWindows<N> {
                 self.peers.get(i).map(|p| p.window).unwrap_or_default(),
             ),
             None if !self.peers.is_full() => (Slot::Push, SeqWindow::new()),
-            None => (Slot::At(self.stale_slot(rx_ticks, stale_ticks)?), SeqWindow::new()),
+            None => (
+                Slot::At(self.stale_slot(rx_ticks, stale_ticks)?),
+                SeqWindow::new(),
+            ),
         };
         let accepted = window.accept(seq)?;
         if let Accepted::Late { .. } = accepted {

@@ -1,9 +1,9 @@
 //! A node with its beacon state: the send and receive paths between frame bytes and the
 //! node law.
 
-use super::peers::PeerWindows;
 #[cfg(feature = "mac")]
 use super::NetworkKey;
+use super::peers::PeerWindows;
 use super::{Accepted, EncodeError, Flags, Frame, RejectCounts, RejectKind, SeqWindow};
 use crate::{Node, NodeId, Observation, Phase};
 

@@ -149,7 +149,10 @@ impl RejectCounts {
 
     /// `(kind, count)` for every kind, in the order of [`RejectKind::ALL`].
     pub fn iter(&self) -> impl Iterator<Item = (RejectKind, u32)> + '_ {
-        RejectKind::ALL.iter().zip(self.counts.iter()).map(|(&k, &c)| (k, c))
+        RejectKind::ALL
+            .iter()
+            .zip(self.counts.iter())
+            .map(|(&k, &c)| (k, c))
     }
 
     /// Sets every counter back to zero.

@@ -49,10 +49,15 @@
 //! Each receiver keeps one [`SeqWindow`] per sender: the newest sequence number accepted
 //! and a bitmap of the [`WINDOW_LEN`] numbers before it. Sequence numbers are compared with
 //! serial-number (wrapping) arithmetic, so a sender's counter passing `u32::MAX` is just
-//! the next frame. Because a window cannot tell a rebooted sender from a replay, a sender
-//! that uses authentication must not restart its sequence at the same value after a
-//! reset: start it from a boot counter kept in non-volatile memory (for example
-//! `boot_count << 16`), or have receivers call [`BeaconPort::forget`] for it.
+//! the next frame. The price of a 32-bit sequence is a replay horizon: once a sender has
+//! sent 2^31 further frames, a recording of one of its old frames reads as new again
+//! (at one beacon per 100 ms that takes 6.8 years, at 1 kHz 24.8 days). Change the
+//! network key well within that time.
+//!
+//! A window cannot tell a rebooted sender from a replay, so a sender that uses
+//! authentication must not restart its sequence at the same value after a reset: start
+//! it from a boot counter kept in non-volatile memory (for example `boot_count << 16`), or
+//! have receivers call [`BeaconPort::forget`] for it.
 //!
 //! # Authentication (feature `mac`)
 //!

@@ -14,7 +14,9 @@ pub const WINDOW_LEN: u32 = 64;
 /// from `u32::MAX` to `0` is one frame forward, and a sender may skip up to 2^31 − 1
 /// numbers (lost frames) and still be heard. Numbers 1..64 behind the newest are accepted
 /// once each (frames reordered on the way); anything further behind, and the one number
-/// exactly 2^31 away (neither newer nor older), is refused as too old.
+/// exactly 2^31 away (neither newer nor older), is refused as too old. After the newest
+/// has moved on by more than 2^31 in all, an old number reads as newer again: a window
+/// protects against replays within 2^31 frames of the original, not forever.
 ///
 /// ```
 /// use entrain::beacon::{Accepted, SeqWindow, WindowReject};

@@ -7,5 +7,9 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     println!("cargo:rustc-link-search={}", out.display());
     println!("cargo:rerun-if-changed=memory.x");
     println!("cargo:rustc-link-arg=-Tlink.x");
+    // Only the pulse demo logs with defmt.
+    if env::var_os("CARGO_FEATURE_PULSE").is_some() {
+        println!("cargo:rustc-link-arg-bin=pulse=-Tdefmt.x");
+    }
     Ok(())
 }

@@ -9,6 +9,11 @@
 pub mod cost;
 pub mod host;
 pub mod icount;
+#[cfg(feature = "pulse")]
+pub mod pin;
+#[cfg(feature = "pulse")]
+pub mod pulse;
+pub mod size;
 pub mod vectors;
 
 /// The vectors written by the root crate's `bitexact_vectors` example.

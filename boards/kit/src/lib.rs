@@ -1,14 +1,21 @@
 //! Shared helpers for the entrain board firmware.
 //!
 //! Everything here is `no_std` and allocation-free. The target-independent parts
-//! ([`vectors`]) are plain code; the rest touches Cortex-M core
+//! ([`vectors`], [`crystal`]) are plain code; the rest touches Cortex-M core
 //! peripherals ([`icount`]) or semihosting ([`host`]).
 #![no_std]
 #![deny(missing_docs)]
 
+#[cfg(feature = "chain")]
+pub mod chain;
+#[cfg(feature = "chain")]
+pub mod cmsdk_uart;
 pub mod cost;
+pub mod crystal;
 pub mod host;
 pub mod icount;
+#[cfg(feature = "chain")]
+pub mod link;
 #[cfg(feature = "pulse")]
 pub mod pin;
 #[cfg(feature = "pulse")]

@@ -33,7 +33,7 @@ impl Script {
     }
     /// Uniform-ish in `0..n` (n > 0).
     fn below(&mut self, n: u32) -> u32 {
-        ((self.next() >> 32) * u64::from(n) >> 32) as u32
+        (((self.next() >> 32) * u64::from(n)) >> 32) as u32
     }
     /// True with probability `percent / 100`.
     fn chance(&mut self, percent: u32) -> bool {
@@ -109,7 +109,10 @@ impl fmt::Display for GenError {
             GenError::Usage => f.write_str("usage: bitexact_vectors OUT_FILE"),
             GenError::Config(name, e) => write!(f, "scenario {name}: {e}"),
             GenError::Unsupported(name) => {
-                write!(f, "scenario {name}: capacity must be 1, 2 or 4 and the law integer")
+                write!(
+                    f,
+                    "scenario {name}: capacity must be 1, 2 or 4 and the law integer"
+                )
             }
             GenError::Write(path, e) => write!(f, "cannot write {path}: {e}"),
         }
@@ -281,7 +284,8 @@ fn script(s: &Scenario) -> Vec<Event> {
         let mut interval = u64::from(s.update_ticks);
         if rng.chance(s.jitter_percent) {
             let spread = u64::from(s.update_ticks / 5).max(1);
-            interval = interval - u64::from(s.update_ticks / 10) + u64::from(rng.below(spread as u32));
+            interval =
+                interval - u64::from(s.update_ticks / 10) + u64::from(rng.below(spread as u32));
         }
         let start = elapsed;
         let end = elapsed + interval;

@@ -83,10 +83,11 @@ fn true_us() -> u64 {
     loop {
         let n = SYSTICKS.load(Ordering::Acquire);
         let current = SYST::get_current();
-        // A wrap between the two reads shows as a changed count (or a pending
-        // exception that has not run yet, caught by COUNTFLAG-free retry below).
+        // A wrap between the reads shows as a changed count, or as a SysTick exception
+        // still pending: then read again.
         if SYSTICKS.load(Ordering::Acquire) == n && !SCB::is_pendst_pending() {
-            let into = TICKS_PER_SYSTICK.wrapping_sub(1).wrapping_sub(current) / (CORE_HZ / 1_000_000);
+            let into =
+                TICKS_PER_SYSTICK.wrapping_sub(1).wrapping_sub(current) / (CORE_HZ / 1_000_000);
             return u64::from(n) * u64::from(SYSTICK_MS * 1_000) + u64::from(into);
         }
     }
@@ -172,7 +173,11 @@ fn counts_to_us(counts: u32) -> u32 {
 
 fn signed_counts_to_us(counts: i64) -> i64 {
     let mag = counts_to_us(counts.unsigned_abs().min(u64::from(u32::MAX)) as u32);
-    if counts < 0 { -i64::from(mag) } else { i64::from(mag) }
+    if counts < 0 {
+        -i64::from(mag)
+    } else {
+        i64::from(mag)
+    }
 }
 
 /// Run one chain node; true when its verdict is a pass.
@@ -293,7 +298,9 @@ pub fn run(mut syst: SYST, mut nvic: NVIC) -> bool {
     let tol_counts = ((u64::from(a.tol_us) << 32) / u64::from(PERIOD_TICKS)) as u32;
     let mut pass = true;
     for (side, expected) in [(0usize, expect_left), (1, expect_right)] {
-        let Some(s) = seen.get_mut(side) else { continue };
+        let Some(s) = seen.get_mut(side) else {
+            continue;
+        };
         let name = if side == 0 { "left" } else { "right" };
         if !expected {
             continue;
@@ -302,7 +309,11 @@ pub fn run(mut syst: SYST, mut nvic: NVIC) -> bool {
         let p90 = s.percentile(90);
         let ok = s.frames > 0 && p90 <= tol_counts;
         pass &= ok;
-        let mean = if s.frames > 0 { s.sum / i64::from(s.frames) } else { 0 };
+        let mean = if s.frames > 0 {
+            s.sum / i64::from(s.frames)
+        } else {
+            0
+        };
         hprintln!(
             "node {}: {} neighbour {:?}: {} beacons judged, |diff| median {} us, 90th percentile {} us, largest {} us; mean diff {} us: {}",
             a.id,

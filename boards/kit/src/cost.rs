@@ -62,7 +62,12 @@ fn hand_over(node: &mut Node<4>, k: usize, i: u32, now: u32) {
 
 /// Ticks of `iterations` updates with `k` neighbours (loop with updates minus loop
 /// without).
-pub fn update_ticks(counter: &InstructionCounter, law: Law, k: usize, iterations: u32) -> Option<u32> {
+pub fn update_ticks(
+    counter: &InstructionCounter,
+    law: Law,
+    k: usize,
+    iterations: u32,
+) -> Option<u32> {
     let config = config(law)?;
     let step = config.update_ticks();
     let mut bare: Node<4> = Node::new(config, Phase::ZERO, 0);
@@ -137,9 +142,18 @@ pub fn print_table(counter: &mut InstructionCounter, core: &str, goal: u32) {
         cal,
         Tenths(i64::from(counter.per_tick_q16()))
     );
-    hprintln!("size_of::<Node<1>>() = {} bytes", core::mem::size_of::<Node<1>>());
-    hprintln!("size_of::<Node<2>>() = {} bytes", core::mem::size_of::<Node<2>>());
-    hprintln!("size_of::<Node<4>>() = {} bytes", core::mem::size_of::<Node<4>>());
+    hprintln!(
+        "size_of::<Node<1>>() = {} bytes",
+        core::mem::size_of::<Node<1>>()
+    );
+    hprintln!(
+        "size_of::<Node<2>>() = {} bytes",
+        core::mem::size_of::<Node<2>>()
+    );
+    hprintln!(
+        "size_of::<Node<4>>() = {} bytes",
+        core::mem::size_of::<Node<4>>()
+    );
     hprintln!(
         "instructions per Node::update, {} ({} updates per figure)",
         core,
@@ -185,5 +199,9 @@ pub fn print_table(counter: &mut InstructionCounter, core: &str, goal: u32) {
             verdict
         );
     }
-    hprintln!("goal for the integer sine law on {}: <= {} per neighbour", core, goal);
+    hprintln!(
+        "goal for the integer sine law on {}: <= {} per neighbour",
+        core,
+        goal
+    );
 }

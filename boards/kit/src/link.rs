@@ -56,9 +56,15 @@ impl FrameReceiver {
             *t = now_ticks;
             self.len += 1;
         }
-        if self.len == FRAME_LEN && self.bytes.first() == Some(&VERSION) && Frame::decode(&self.bytes).is_ok() {
+        if self.len == FRAME_LEN
+            && self.bytes.first() == Some(&VERSION)
+            && Frame::decode(&self.bytes).is_ok()
+        {
             self.len = 0;
-            return Some((self.bytes, self.stamps.first().copied().unwrap_or(now_ticks)));
+            return Some((
+                self.bytes,
+                self.stamps.first().copied().unwrap_or(now_ticks),
+            ));
         }
         None
     }

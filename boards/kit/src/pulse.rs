@@ -70,8 +70,8 @@ pub fn run<P: OutputPin + StatefulOutputPin + Clone>(mut pin: P, syst: SYST, cor
     let start = timer.now();
     let mut node: Node<1> = Node::new(config, Phase::ZERO, start);
     // The leader's clock in Q32.32 counts, 150 ppm fast.
-    let leader_rate = (u128::from(config.rate_nominal()) * (1_000_000 + LEADER_PPM) as u128
-        / 1_000_000) as u64;
+    let leader_rate =
+        (u128::from(config.rate_nominal()) * (1_000_000 + LEADER_PPM) as u128 / 1_000_000) as u64;
     let mut leader: u64 = (Phase::from_turns(0.3).counts() as u64) << 32;
     let mut leader_at = start;
     let mut probe = pin.clone();
@@ -89,7 +89,8 @@ pub fn run<P: OutputPin + StatefulOutputPin + Clone>(mut pin: P, syst: SYST, cor
     while updates < PERIODS * UPDATES_PER_PERIOD {
         let now = timer.now();
         // Both clocks run to `now`.
-        leader = leader.wrapping_add(u64::from(now.wrapping_sub(leader_at)).wrapping_mul(leader_rate));
+        leader =
+            leader.wrapping_add(u64::from(now.wrapping_sub(leader_at)).wrapping_mul(leader_rate));
         leader_at = now;
         if now.wrapping_sub(next) as i32 >= 0 {
             let obs = Observation {
@@ -103,7 +104,11 @@ pub fn run<P: OutputPin + StatefulOutputPin + Clone>(mut pin: P, syst: SYST, cor
             let report = node.update(now);
             last_diff = Phase::from_counts((leader >> 32) as u32).diff(node.phase());
             if report.slew_limited {
-                defmt::debug!("update {=u32}: slew limited step {=i32}", updates, report.correction);
+                defmt::debug!(
+                    "update {=u32}: slew limited step {=i32}",
+                    updates,
+                    report.correction
+                );
             }
             next = next.wrapping_add(step);
             updates = updates.wrapping_add(1);

@@ -182,7 +182,13 @@ struct Checker {
 }
 
 impl Checker {
-    fn check(&mut self, field: &'static str, expected: i64, got: i64, le: &[u8]) -> Result<(), Failure> {
+    fn check(
+        &mut self,
+        field: &'static str,
+        expected: i64,
+        got: i64,
+        le: &[u8],
+    ) -> Result<(), Failure> {
         self.digest.bytes(le);
         if expected == got {
             Ok(())

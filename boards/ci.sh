@@ -2,7 +2,8 @@
 # Everything the boards workspace proves, in one run (called by CI):
 #   1. QEMU and the Rust targets are there (installs only those, and only if missing);
 #   2. the committed bit-exactness vectors are what the host generates now;
-#   3. every board and every firmware builds, clippy-clean;
+#   3. the shared kit's unit tests pass on the host; every board and every firmware
+#      builds, clippy-clean;
 #   4. the vectors replay bit-exactly on the Cortex-M4F and the Cortex-M0;
 #   5. the size probe and the sync-pulse demo run (pulse logs decoded when defmt-print
 #      is installed);
@@ -31,6 +32,9 @@ fi
 
 step "bit-exactness vectors are fresh"
 "$here/check-vectors.sh"
+
+step "kit unit tests (host)"
+(cd "$here" && cargo test --quiet -p kit --all-features)
 
 step "build"
 for board in mps2-an386 microbit; do

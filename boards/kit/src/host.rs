@@ -57,3 +57,27 @@ pub fn parse_i32(text: &str) -> Option<i32> {
     }
     Some(if neg { -value } else { value })
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn command_line_words() {
+        let line = "chain.elf node=3 nodes=5 ppm=-45 delay=+12";
+        assert_eq!(arg(line, "node"), Some("3"));
+        assert_eq!(arg(line, "nodes"), Some("5"));
+        assert_eq!(arg(line, "ppm").and_then(parse_i32), Some(-45));
+        assert_eq!(arg(line, "delay").and_then(parse_i32), Some(12));
+        assert_eq!(arg(line, "tol_us"), None);
+    }
+
+    #[test]
+    fn integers_are_checked() {
+        assert_eq!(parse_i32("2147483647"), Some(i32::MAX));
+        assert_eq!(parse_i32("2147483648"), None);
+        assert_eq!(parse_i32("-"), None);
+        assert_eq!(parse_i32("12a"), None);
+        assert_eq!(parse_i32(""), None);
+    }
+}

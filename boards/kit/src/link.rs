@@ -69,3 +69,53 @@ impl FrameReceiver {
         None
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn frame(from: u16, seq: u32) -> [u8; FRAME_LEN] {
+        Frame {
+            from,
+            seq,
+            phase_counts: 0x4000_0000,
+            ..Frame::default()
+        }
+        .to_bytes()
+    }
+
+    fn feed(rx: &mut FrameReceiver, bytes: &[u8], t0: u32) -> Option<([u8; FRAME_LEN], u32)> {
+        let mut got = None;
+        for (k, &b) in bytes.iter().enumerate() {
+            if let Some(f) = rx.push(b, t0 + k as u32) {
+                assert!(got.is_none(), "two frames from one feed");
+                got = Some(f);
+            }
+        }
+        got
+    }
+
+    #[test]
+    fn back_to_back_frames_are_stamped_at_their_first_byte() {
+        let mut rx = FrameReceiver::new();
+        let a = frame(3, 1);
+        let b = frame(3, 2);
+        assert_eq!(feed(&mut rx, &a, 100), Some((a, 100)));
+        assert_eq!(feed(&mut rx, &b, 500), Some((b, 500)));
+        assert_eq!(rx.skipped(), 0);
+    }
+
+    #[test]
+    fn resynchronises_after_garbage_and_a_damaged_frame() {
+        let mut rx = FrameReceiver::new();
+        // A cut-off tail of some frame, including a stray version byte.
+        assert_eq!(feed(&mut rx, &[9, VERSION, 0xAA, 0x55, 7], 0), None);
+        let mut bad = frame(4, 1);
+        bad[10] ^= 0x01;
+        assert_eq!(feed(&mut rx, &bad, 10), None);
+        let good = frame(4, 2);
+        assert_eq!(feed(&mut rx, &good, 1_000), Some((good, 1_000)));
+        // Everything before the good frame was dropped, byte by byte.
+        assert_eq!(rx.skipped(), 5 + FRAME_LEN as u32);
+    }
+}

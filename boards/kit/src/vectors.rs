@@ -393,3 +393,113 @@ pub fn report(board: &str) -> bool {
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    extern crate std;
+    use super::*;
+    use std::vec::Vec;
+
+    /// One linear P scenario, capacity 1, no neighbours: a single update a quarter period
+    /// in. Expected by hand: the phase is a quarter turn (2^30 counts), nothing else moves.
+    fn quarter_turn_file() -> Vec<u8> {
+        let mut f = Vec::new();
+        f.extend_from_slice(MAGIC);
+        f.extend_from_slice(&1u16.to_le_bytes());
+        f.extend_from_slice(&[1, 0]); // capacity 1, linear
+        for v in [1_000u32, 100, 16_384, 0, 1 << 28, 200_000, 500, 0, 0] {
+            f.extend_from_slice(&v.to_le_bytes());
+        }
+        f.extend_from_slice(&0i32.to_le_bytes()); // initial trim
+        f.extend_from_slice(&1u32.to_le_bytes()); // one event
+        f.push(TAG_UPDATE);
+        f.extend_from_slice(&250u32.to_le_bytes());
+        f.extend_from_slice(&0i32.to_le_bytes()); // correction
+        f.extend_from_slice(&[0, 0, 0]); // slew limited, used, evicted
+        f.extend_from_slice(&0u32.to_le_bytes()); // largest diff
+        f.extend_from_slice(&(1u32 << 30).to_le_bytes()); // phase
+        f.extend_from_slice(&0i64.to_le_bytes()); // trim
+        f.extend_from_slice(&0u32.to_le_bytes()); // cycles
+        f
+    }
+
+    /// Offset of the expected phase in `quarter_turn_file`.
+    const PHASE_AT: usize = 8 + 2 + 2 + 9 * 4 + 4 + 4 + 1 + 4 + 4 + 3 + 4;
+
+    #[test]
+    fn a_hand_made_file_passes() {
+        let s = replay(&quarter_turn_file()).unwrap();
+        assert_eq!((s.scenarios, s.events, s.updates), (1, 1, 1));
+    }
+
+    #[test]
+    fn a_wrong_output_is_named_with_both_values() {
+        let mut f = quarter_turn_file();
+        f[PHASE_AT] = 1;
+        assert_eq!(
+            replay(&f),
+            Err(Failure::Mismatch {
+                scenario: 0,
+                event: 0,
+                field: "phase",
+                expected: (1 << 30) + 1,
+                got: 1 << 30,
+            })
+        );
+    }
+
+    #[test]
+    fn malformed_files_are_refused_with_the_offset() {
+        let f = quarter_turn_file();
+        assert!(matches!(
+            replay(&f[..f.len() - 1]),
+            Err(Failure::Malformed { what: "cycles", .. })
+        ));
+        let mut longer = f.clone();
+        longer.push(0);
+        assert_eq!(
+            replay(&longer),
+            Err(Failure::Malformed {
+                offset: f.len(),
+                what: "the end of the file"
+            })
+        );
+        let mut magic = f.clone();
+        magic[0] = b'X';
+        assert!(matches!(
+            replay(&magic),
+            Err(Failure::Malformed { offset: 0, .. })
+        ));
+        let mut capacity = f;
+        capacity[10] = 3; // after the magic and the scenario count
+        assert!(matches!(
+            replay(&capacity),
+            Err(Failure::Malformed {
+                what: "capacity 1, 2 or 4",
+                ..
+            })
+        ));
+    }
+
+    #[test]
+    fn the_committed_vectors_replay_on_the_host_too() {
+        let s = replay(crate::NODE_LAW_VECTORS).unwrap();
+        assert_eq!(s.scenarios, 5);
+        assert!(s.updates >= 2_000);
+    }
+
+    #[test]
+    fn fnv_1a_published_values() {
+        // FNV-1a 32-bit test vectors (Fowler, Noll & Vo's reference list; values from
+        // memory): "" → 0x811c9dc5, "a" → 0xe40c292c, "foobar" → 0xbf9cf968.
+        for (text, want) in [
+            ("", 0x811c_9dc5u32),
+            ("a", 0xe40c_292c),
+            ("foobar", 0xbf9c_f968),
+        ] {
+            let mut h = Fnv::new();
+            h.bytes(text.as_bytes());
+            assert_eq!(h.value(), want, "{text}");
+        }
+    }
+}

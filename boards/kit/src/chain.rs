@@ -181,7 +181,8 @@ fn signed_counts_to_us(counts: i64) -> i64 {
 }
 
 /// Run one chain node; true when its verdict is a pass.
-pub fn run(mut syst: SYST, mut nvic: NVIC) -> bool {
+/// (`_nvic` is taken to show that this code owns the interrupt controller.)
+pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
     let Some(a) = args() else {
         hprintln!("chain: command line must say node=I nodes=N [ppm=E delay=D run_ms=T tol_us=U]");
         return false;
@@ -203,7 +204,6 @@ pub fn run(mut syst: SYST, mut nvic: NVIC) -> bool {
         NVIC::unmask(Irq(IRQ_LEFT));
         NVIC::unmask(Irq(IRQ_RIGHT));
     }
-    let _ = &mut nvic;
     let Ok(config) = Config::builder(PERIOD_TICKS, UPDATE_TICKS)
         .law(Law::Sine)
         .kp(Gain::from_q16(a.kp_q16))

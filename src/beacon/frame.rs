@@ -5,6 +5,7 @@ use core::fmt;
 use super::Flags;
 #[cfg(feature = "mac")]
 use super::NetworkKey;
+use crate::{NodeId, Phase};
 
 /// The frame format version this code writes and the only one it reads.
 pub const VERSION: u8 = 1;
@@ -34,7 +35,7 @@ pub(crate) fn crc32c(bytes: &[u8]) -> u32 {
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Frame {
     /// The sender's node id.
-    pub from: u16,
+    pub from: NodeId,
     /// The sender's sequence number; increases by one per frame sent and wraps.
     pub seq: u32,
     /// The sender's phase at the send instant, binary angle (2^32 counts = one turn).
@@ -125,6 +126,11 @@ impl fmt::Display for EncodeError {
 impl core::error::Error for EncodeError {}
 
 impl Frame {
+    /// The sender's phase at the send instant, as a [`Phase`].
+    pub const fn phase(&self) -> Phase {
+        Phase::from_counts(self.phase_counts)
+    }
+
     /// The 16 header bytes (offsets 0..16 of the layout), version byte included.
     pub const fn header(&self) -> [u8; HEADER_LEN] {
         let [f0, f1] = self.from.to_le_bytes();

@@ -29,10 +29,10 @@
 //!
 //! CRC-32C: polynomial 0x1EDC6F41 (reflected 0x82F63B78), initial value and final XOR
 //! 0xFFFFFFFF, input and output reflected; catalogue check value on ASCII `"123456789"` is
-//! 0xE3069283 (published CRC catalogue, `CRC-32/ISCSI`; tested in [`frame`]). Over a
-//! 24-byte payload it detects every error of up to 5 flipped bits and every burst up to
-//! 32 bits (Koopman's tables of CRC Hamming distance, value from memory). The CRC is for
-//! noise, not for attackers: anyone can compute it.
+//! 0xE3069283 (published CRC catalogue, `CRC-32/ISCSI`; tested beside the codec and in
+//! `tests/beacon_frame.rs`). Over a 24-byte payload it detects every error of up to 5
+//! flipped bits and every burst up to 32 bits (Koopman's tables of CRC Hamming distance,
+//! value from memory). The CRC is for noise, not for attackers: anyone can compute it.
 //!
 //! # Versions
 //!

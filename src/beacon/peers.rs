@@ -3,11 +3,12 @@
 use heapless::Vec;
 
 use super::{Accepted, RejectKind, SeqWindow};
+use crate::NodeId;
 
 /// The replay state kept for one sender.
 #[derive(Clone, Copy, PartialEq, Eq, Debug)]
 pub(crate) struct Peer {
-    id: u16,
+    id: NodeId,
     window: SeqWindow,
     /// Local receive time of the last frame accepted from it.
     last_rx_ticks: u32,
@@ -61,7 +62,7 @@ impl<const N: usize> PeerWindows<N> {
     }
 
     /// The window kept for `id`, if any.
-    pub(crate) fn window(&self, id: u16) -> Option<&SeqWindow> {
+    pub(crate) fn window(&self, id: NodeId) -> Option<&SeqWindow> {
         self.peers.iter().find(|p| p.id == id).map(|p| &p.window)
     }
 
@@ -71,7 +72,7 @@ impl<const N: usize> PeerWindows<N> {
     /// (older than the newest accepted, so superseded) and [`RejectKind::PeersFull`].
     pub(crate) fn admit(
         &self,
-        id: u16,
+        id: NodeId,
         seq: u32,
         rx_ticks: u32,
         stale_ticks: u32,
@@ -131,7 +132,7 @@ impl<const N: usize> PeerWindows<N> {
     }
 
     /// Drops the window of `id`; returns whether there was one.
-    pub(crate) fn forget(&mut self, id: u16) -> bool {
+    pub(crate) fn forget(&mut self, id: NodeId) -> bool {
         match self.peers.iter().position(|p| p.id == id) {
             Some(i) => {
                 self.peers.swap_remove(i);
@@ -148,7 +149,7 @@ mod tests {
 
     const STALE: u32 = 1_000;
 
-    fn take<const N: usize>(t: &mut PeerWindows<N>, id: u16, seq: u32, rx: u32) -> Accepted {
+    fn take<const N: usize>(t: &mut PeerWindows<N>, id: NodeId, seq: u32, rx: u32) -> Accepted {
         let a = t.admit(id, seq, rx, STALE).unwrap();
         let got = a.accepted();
         t.commit(a);

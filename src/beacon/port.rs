@@ -5,7 +5,7 @@
 use super::NetworkKey;
 use super::peers::PeerWindows;
 use super::{Accepted, EncodeError, Flags, Frame, RejectCounts, RejectKind, SeqWindow};
-use crate::{Node, NodeId, Observation, Phase};
+use crate::{Node, NodeId, Observation};
 
 /// A frame the receive path accepted and handed to the node.
 #[derive(Clone, Copy, PartialEq, Eq, Hash, Debug)]
@@ -244,7 +244,7 @@ impl<const N: usize> BeaconPort<N> {
             .admit(frame.from, frame.seq, rx_ticks, stale_ticks)?;
         let observation = Observation {
             from: frame.from,
-            phase: Phase::from_counts(frame.phase_counts),
+            phase: frame.phase(),
             rx_ticks,
             delay_ticks,
         };

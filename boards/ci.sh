@@ -4,7 +4,8 @@
 #   2. the committed bit-exactness vectors are what the host generates now;
 #   3. the shared kit's unit tests pass on the host; every board and every firmware
 #      builds, clippy-clean;
-#   4. the vectors replay bit-exactly on the Cortex-M4F and the Cortex-M0;
+#   4. the vectors replay bit-exactly on the Cortex-M4F and the Cortex-M0 (and on the
+#      RISC-V sifive_e when qemu-system-riscv32 is installed);
 #   5. the size probe and the sync-pulse demo run (pulse logs decoded when defmt-print
 #      is installed);
 #   6. the cost tables (instructions per update, per law and neighbour count);
@@ -27,7 +28,7 @@ if ! command -v qemu-system-arm >/dev/null; then
 fi
 qemu-system-arm --version | head -1
 if command -v rustup >/dev/null; then
-    rustup target add thumbv7em-none-eabihf thumbv6m-none-eabi
+    rustup target add thumbv7em-none-eabihf thumbv6m-none-eabi riscv32imc-unknown-none-elf
 fi
 
 step "bit-exactness vectors are fresh"
@@ -50,6 +51,12 @@ for board in mps2-an386 microbit; do
     )
     echo "$board: built"
 done
+(
+    cd "$here/sifive-e"
+    cargo build --release --quiet
+    cargo clippy --release --quiet -- -D warnings
+)
+echo "sifive-e: built"
 
 # The boards' runners, spelled out so each run can be bounded by `timeout`.
 qemu_m4() {
@@ -64,6 +71,15 @@ qemu_m0() {
 step "bit-exact replay"
 qemu_m4 "$m4/bitexact"
 qemu_m0 "$m0/bitexact"
+# The RISC-V board runs when QEMU's RISC-V system emulator is there (Debian package
+# qemu-system-misc, not installed by this script).
+if command -v qemu-system-riscv32 >/dev/null; then
+    timeout 120 qemu-system-riscv32 -machine sifive_e -nographic -monitor none \
+        -semihosting-config enable=on,target=native \
+        -kernel "$CARGO_TARGET_DIR/riscv32imc-unknown-none-elf/release/bitexact"
+else
+    echo "sifive_e (RISC-V): built, not run (qemu-system-riscv32 missing; apt-get install qemu-system-misc)"
+fi
 
 step "size of the node law alone (.text/.bss; size-empty is the same skeleton without it)"
 qemu_m4 "$m4/size"

@@ -10,7 +10,7 @@
 # phase differences to its neighbours stayed within tolerance at the end of the run.
 #
 # usage: run-chain.sh [CHAIN_ELF]
-# environment: NODES (3..5, default 5), RUN_MS (default 12000), TOL_US (default 5000),
+# environment: NODES (3..5, default 5), RUN_MS (default 12000), TOL_US (default 10000),
 #              KP_Q16 / KI_Q16 (gains in 1/65536, default 16384 / 0),
 #              DELAY_US (link delay the nodes assume, default 0), BASE_PORT.
 set -euo pipefail
@@ -20,7 +20,7 @@ target_dir=${CARGO_TARGET_DIR:-$here/target}
 elf=${1:-$target_dir/thumbv7em-none-eabihf/release/chain}
 nodes=${NODES:-5}
 run_ms=${RUN_MS:-12000}
-tol_us=${TOL_US:-5000}
+tol_us=${TOL_US:-10000}
 kp_q16=${KP_Q16:-16384}
 ki_q16=${KI_Q16:-0}
 delay_us=${DELAY_US:-0}

@@ -59,11 +59,16 @@ impl Uart {
         self.read(STATE) & STATE_RX_FULL != 0
     }
 
+    /// Send one byte, waiting for room first.
+    pub fn write_byte(&mut self, byte: u8) {
+        while self.read(STATE) & STATE_TX_FULL != 0 {}
+        self.write(DATA, u32::from(byte));
+    }
+
     /// Send `bytes`, waiting for room before each.
     pub fn write_all(&mut self, bytes: &[u8]) {
         for &b in bytes {
-            while self.read(STATE) & STATE_TX_FULL != 0 {}
-            self.write(DATA, u32::from(b));
+            self.write_byte(b);
         }
     }
 

@@ -49,9 +49,18 @@ stop_all() {
 }
 trap 'stop_all; rm -rf "$logs"' EXIT
 
-listening() {
-    ss -ltnH "sport = :$1" 2>/dev/null | grep -q .
-}
+if command -v ss >/dev/null; then
+    listening() {
+        ss -ltnH "sport = :$1" 2>/dev/null | grep -q .
+    }
+else
+    # No way to look without connecting (a probe would take the server's one client
+    # slot), so give each server a second to come up.
+    listening() {
+        sleep 1
+        [[ $2 == wait ]]
+    }
+fi
 
 limit_s=$(( run_ms / 1000 + 30 ))
 echo "chain: $nodes nodes, ${run_ms} ms each, tolerance ${tol_us} us, ports $base..$((base + nodes - 2)) on 127.0.0.1"
@@ -65,7 +74,7 @@ for (( i = 0; i < nodes; i++ )); do
         right=null
     else
         port=$((base + i))
-        if listening "$port"; then
+        if listening "$port" check; then
             echo "chain: port $port is taken; set BASE_PORT" >&2
             exit 2
         fi
@@ -80,10 +89,10 @@ for (( i = 0; i < nodes; i++ )); do
     if (( i < nodes - 1 )); then
         # The next node's client needs this node's server up.
         for (( k = 0; k < 200; k++ )); do
-            listening "$port" && break
+            listening "$port" wait && break
             sleep 0.02
         done
-        listening "$port" || { echo "chain: node $i never listened on $port" >&2; exit 1; }
+        listening "$port" wait || { echo "chain: node $i never listened on $port" >&2; exit 1; }
     fi
 done
 

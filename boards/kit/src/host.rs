@@ -1,4 +1,4 @@
-//! Talking to the host over semihosting: output, exit status, command line.
+//! Semihosting: output, exit status, command line.
 
 use cortex_m_semihosting::{debug, nr};
 

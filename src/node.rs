@@ -324,7 +324,8 @@ impl<const N: usize> Node<N> {
         }
         let raw = self.config.kp().apply(sum);
         let limit = i64::from(self.config.slew_limit());
-        let step = raw.clamp(-limit, limit);
+        // `max`/`min`, not `clamp`: `clamp` carries a panic path (min > max) into firmware.
+        let step = raw.max(-limit).min(limit);
         report.slew_limited = step != raw;
         // |step| ≤ slew_limit ≤ i32::MAX.
         report.correction = step as i32;
@@ -332,7 +333,7 @@ impl<const N: usize> Node<N> {
         if !report.slew_limited {
             let delta = mul_q16_sym(sum, self.config.ki_tick());
             let limit = self.config.trim_limit_raw();
-            self.trim_next = self.trim.saturating_add(delta).clamp(-limit, limit);
+            self.trim_next = self.trim.saturating_add(delta).max(-limit).min(limit);
         }
         report
     }

@@ -12,6 +12,8 @@
     )
 )]
 
+#[cfg(feature = "beacon")]
+pub mod beacon;
 mod config;
 mod gain;
 pub mod law;

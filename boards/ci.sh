@@ -1,0 +1,118 @@
+#!/usr/bin/env bash
+# Everything the boards workspace proves, in one run (called by CI):
+#   1. QEMU and the Rust targets are there (installs only those, and only if missing);
+#   2. the committed bit-exactness vectors are what the host generates now;
+#   3. the shared kit's unit tests pass on the host; every board and every firmware
+#      builds, clippy-clean;
+#   4. the vectors replay bit-exactly on the Cortex-M4F and the Cortex-M0 (and on the
+#      RISC-V sifive_e when qemu-system-riscv32 is installed);
+#   5. the size probe and the sync-pulse demo run (pulse logs decoded when defmt-print
+#      is installed);
+#   6. the cost tables (instructions per update, per law and neighbour count);
+#   7. the chain of five emulated nodes locks.
+# environment: BOARDS_TARGET_DIR (default boards/target), HOST_TARGET_DIR (default
+# target/), NODES / RUN_MS / TOL_US for the chain (see run-chain.sh).
+set -euo pipefail
+
+started=$(date +%s)
+here=$(cd "$(dirname "$0")" && pwd)
+export CARGO_TARGET_DIR=${BOARDS_TARGET_DIR:-$here/target}
+m4=$CARGO_TARGET_DIR/thumbv7em-none-eabihf/release
+m0=$CARGO_TARGET_DIR/thumbv6m-none-eabi/release
+step() { printf '\n== %s (%ss)\n' "$1" "$(( $(date +%s) - started ))"; }
+
+step "tools"
+if ! command -v qemu-system-arm >/dev/null; then
+    apt-get update -qq
+    apt-get install -y --no-install-recommends qemu-system-arm
+fi
+qemu-system-arm --version | head -1
+if command -v rustup >/dev/null; then
+    rustup target add thumbv7em-none-eabihf thumbv6m-none-eabi riscv32imc-unknown-none-elf
+fi
+
+step "bit-exactness vectors are fresh"
+"$here/check-vectors.sh"
+
+step "kit unit tests (host)"
+(cd "$here" && cargo test --quiet -p kit --all-features)
+
+step "build"
+for board in mps2-an386 microbit; do
+    (
+        cd "$here/$board"
+        cargo build --release --quiet
+        cargo build --release --quiet --features pulse --bin pulse
+        cargo build --release --quiet --features f32-laws --bin cost
+        if [[ $board == mps2-an386 ]]; then
+            cargo build --release --quiet --features chain --bin chain
+        fi
+        cargo clippy --release --quiet --all-features -- -D warnings
+    )
+    echo "$board: built"
+done
+(
+    cd "$here/sifive-e"
+    cargo build --release --quiet
+    cargo clippy --release --quiet -- -D warnings
+)
+echo "sifive-e: built"
+
+# The boards' runners, spelled out so each run can be bounded by `timeout`.
+qemu_m4() {
+    timeout 120 qemu-system-arm -machine mps2-an386 -cpu cortex-m4 -nographic -monitor none \
+        -semihosting-config enable=on,target=native -icount shift=0 -kernel "$@"
+}
+qemu_m0() {
+    timeout 120 qemu-system-arm -machine microbit -nographic -monitor none \
+        -semihosting-config enable=on,target=native -icount shift=0 -kernel "$@"
+}
+
+step "bit-exact replay"
+qemu_m4 "$m4/bitexact"
+qemu_m0 "$m0/bitexact"
+# The RISC-V board runs when QEMU's RISC-V system emulator is there (Debian package
+# qemu-system-misc, not installed by this script).
+if command -v qemu-system-riscv32 >/dev/null; then
+    timeout 120 qemu-system-riscv32 -machine sifive_e -nographic -monitor none \
+        -semihosting-config enable=on,target=native \
+        -kernel "$CARGO_TARGET_DIR/riscv32imc-unknown-none-elf/release/bitexact"
+else
+    echo "sifive_e (RISC-V): built, not run (qemu-system-riscv32 missing; apt-get install qemu-system-misc)"
+fi
+
+step "size of the node law alone (.text/.bss; size-empty is the same skeleton without it)"
+qemu_m4 "$m4/size"
+qemu_m0 "$m0/size"
+if command -v llvm-size >/dev/null; then
+    (cd "$CARGO_TARGET_DIR" && llvm-size thumbv7em-none-eabihf/release/size{,-empty} thumbv6m-none-eabi/release/size{,-empty})
+else
+    echo "llvm-size not found: sizes not printed"
+fi
+
+step "sync pulse with defmt logs"
+for core in m4 m0; do
+    if [[ $core == m4 ]]; then elf=$m4/pulse; else elf=$m0/pulse; fi
+    log=$(mktemp)
+    status=0
+    "qemu_$core" "$elf" >"$log" || status=$?
+    if command -v defmt-print >/dev/null; then
+        defmt-print -e "$elf" <"$log" | tail -n 4
+    else
+        echo "$(wc -c <"$log") bytes of defmt frames (install defmt-print to read them)"
+    fi
+    rm -f "$log"
+    if (( status != 0 )); then
+        echo "pulse on $core failed with status $status"
+        exit 1
+    fi
+done
+
+step "cost of Node::update (instructions, -icount shift=0)"
+qemu_m4 "$m4/cost"
+qemu_m0 "$m0/cost"
+
+step "chain of emulated nodes"
+"$here/run-chain.sh" "$m4/chain"
+
+step "done: boards CI passed in $(( $(date +%s) - started )) s"

@@ -1,0 +1,356 @@
+//! One node of the emulated chain: beacons left and right over two UARTs, the node law in
+//! between, and a verdict over semihosting at the end.
+//!
+//! Started by `boards/run-chain.sh`, one QEMU instance per node; the instance's
+//! command line (`-append`) says who it is: `node=I nodes=N ppm=E` and optionally
+//! `delay=D` (the link delay the receive path assumes, µs), `run_ms=`, `tol_us=`,
+//! `kp_q16=` and `ki_q16=` (gains in 1/65536; default 0.25 and 0, the P law).
+//! UART0 is the link to node I−1, UART1 the link to node I+1 (the script gives the end
+//! nodes a null line on the missing side).
+//!
+//! Time: SysTick interrupts every 10 ms extend its counter into true time (read to
+//! 1 µs); the node's timer is that true time through a [`Crystal`] `E` ppm off, at a
+//! nominal 1 MHz. The node law runs a 1 s period with an update (and a beacon to each
+//! side) every 100 ms.
+//!
+//! Verdict: over the judging window (from 60 % to 90 % of the run) the node records, for
+//! each neighbour, the phase difference of every received beacon (the neighbour's phase
+//! at its send instant, carried forward by the assumed delay, against this node's phase
+//! then). It passes when it heard every neighbour it should have and the 90th percentile
+//! of each neighbour's |difference| is within the tolerance; the median, the largest
+//! and the mean are printed as well.
+
+use crate::cmsdk_uart::Uart;
+use crate::crystal::Crystal;
+use crate::host;
+use crate::link::FrameReceiver;
+use core::sync::atomic::{AtomicU32, Ordering};
+use cortex_m::peripheral::syst::SystClkSource;
+use cortex_m::peripheral::{NVIC, SCB, SYST};
+use cortex_m_semihosting::hprintln;
+use entrain::beacon::{BeaconPort, FRAME_LEN};
+use entrain::{Config, Gain, Law, Node, NodeId, Phase};
+
+/// Core clock of the mps2-an386, Hz.
+const CORE_HZ: u32 = 25_000_000;
+/// SysTick period: 10 ms (it only wakes the loop and extends the count; time is read
+/// from the counter itself to 40 ns).
+const SYSTICK_MS: u32 = 10;
+const TICKS_PER_SYSTICK: u32 = CORE_HZ / 1_000 * SYSTICK_MS;
+/// Timer ticks (nominal µs) per phase turn: a 1 s period.
+pub const PERIOD_TICKS: u32 = 1_000_000;
+/// Timer ticks between updates (and beacons): ten a second.
+pub const UPDATE_TICKS: u32 = 100_000;
+/// Beacons judged per neighbour at most (the window holds about 60).
+const JUDGED: usize = 128;
+/// The UARTs of the two links.
+const UART_LEFT: usize = 0x4000_4000;
+const UART_RIGHT: usize = 0x4000_5000;
+/// Their receive interrupts on the mps2-an386 (UART0 RX is IRQ 0, UART1 RX is IRQ 2).
+const IRQ_LEFT: u16 = 0;
+const IRQ_RIGHT: u16 = 2;
+
+static SYSTICKS: AtomicU32 = AtomicU32::new(0);
+static RX_IRQS: AtomicU32 = AtomicU32::new(0);
+
+/// Call from the SysTick exception handler.
+pub fn on_systick() {
+    SYSTICKS.fetch_add(1, Ordering::Relaxed);
+}
+
+/// Call from the default interrupt handler: acknowledges the UART receive interrupts
+/// (the main loop reads the bytes).
+pub fn on_interrupt(irqn: i16) {
+    RX_IRQS.fetch_add(1, Ordering::Relaxed);
+    // SAFETY: only the interrupt-clear register is touched, which the main loop never
+    // writes; a clear is idempotent.
+    match irqn {
+        0 => unsafe { Uart::new(UART_LEFT) }.clear_rx_interrupt(),
+        2 => unsafe { Uart::new(UART_RIGHT) }.clear_rx_interrupt(),
+        _ => {}
+    }
+}
+
+#[derive(Clone, Copy)]
+struct Irq(u16);
+
+// SAFETY: the numbers are device interrupts of the mps2-an386.
+unsafe impl cortex_m::interrupt::InterruptNumber for Irq {
+    fn number(self) -> u16 {
+        self.0
+    }
+}
+
+/// True microseconds since SysTick started.
+fn true_us() -> u64 {
+    loop {
+        let n = SYSTICKS.load(Ordering::Acquire);
+        let current = SYST::get_current();
+        // A wrap between the reads shows as a changed count, or as a SysTick exception
+        // still pending: then read again.
+        if SYSTICKS.load(Ordering::Acquire) == n && !SCB::is_pendst_pending() {
+            let into =
+                TICKS_PER_SYSTICK.wrapping_sub(1).wrapping_sub(current) / (CORE_HZ / 1_000_000);
+            return u64::from(n) * u64::from(SYSTICK_MS * 1_000) + u64::from(into);
+        }
+    }
+}
+
+/// What one node was told on its command line.
+struct Args {
+    id: NodeId,
+    nodes: u16,
+    ppm: i32,
+    delay_us: u32,
+    run_ms: u32,
+    tol_us: u32,
+    kp_q16: u32,
+    ki_q16: u32,
+}
+
+fn args() -> Option<Args> {
+    let mut buf = [0u8; 256];
+    let line = host::command_line(&mut buf)?;
+    let num = |key: &str, default: Option<i32>| {
+        host::arg(line, key).and_then(host::parse_i32).or(default)
+    };
+    Some(Args {
+        id: u16::try_from(num("node", None)?).ok()?,
+        nodes: u16::try_from(num("nodes", None)?).ok()?,
+        ppm: num("ppm", Some(0))?,
+        delay_us: u32::try_from(num("delay", Some(0))?).ok()?,
+        run_ms: u32::try_from(num("run_ms", Some(12_000))?).ok()?,
+        tol_us: u32::try_from(num("tol_us", Some(10_000))?).ok()?,
+        kp_q16: u32::try_from(num("kp_q16", Some(16_384))?).ok()?,
+        ki_q16: u32::try_from(num("ki_q16", Some(0))?).ok()?,
+    })
+}
+
+/// What the node saw of one neighbour inside the judging window.
+#[derive(Clone, Copy)]
+struct Seen {
+    id: Option<NodeId>,
+    frames: u32,
+    largest: u32,
+    sum: i64,
+    /// |diff| of each judged beacon (the first `JUDGED`).
+    abs: [u32; JUDGED],
+}
+
+impl Seen {
+    const fn new() -> Self {
+        Seen {
+            id: None,
+            frames: 0,
+            largest: 0,
+            sum: 0,
+            abs: [0; JUDGED],
+        }
+    }
+
+    fn record(&mut self, diff: i32) {
+        if let Some(slot) = self.abs.get_mut(self.frames as usize) {
+            *slot = diff.unsigned_abs();
+        }
+        self.frames = self.frames.wrapping_add(1);
+        self.largest = self.largest.max(diff.unsigned_abs());
+        self.sum = self.sum.wrapping_add(i64::from(diff));
+    }
+
+    /// The `percent` percentile of |diff| (nearest rank), sorting the record.
+    fn percentile(&mut self, percent: usize) -> u32 {
+        let n = (self.frames as usize).min(JUDGED);
+        let Some(judged) = self.abs.get_mut(..n) else {
+            return u32::MAX;
+        };
+        judged.sort_unstable();
+        let rank = (n * percent).div_ceil(100).max(1);
+        judged.get(rank - 1).copied().unwrap_or(u32::MAX)
+    }
+}
+
+/// Counts to microseconds of a 100 ms period, rounded.
+fn counts_to_us(counts: u32) -> u32 {
+    ((u64::from(counts) * u64::from(PERIOD_TICKS) + (1 << 31)) >> 32) as u32
+}
+
+fn signed_counts_to_us(counts: i64) -> i64 {
+    let mag = counts_to_us(counts.unsigned_abs().min(u64::from(u32::MAX)) as u32);
+    if counts < 0 {
+        -i64::from(mag)
+    } else {
+        i64::from(mag)
+    }
+}
+
+/// Run one chain node; true when its verdict is a pass.
+/// (`_nvic` is taken to show that this code owns the interrupt controller.)
+pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
+    let Some(a) = args() else {
+        hprintln!("chain: command line must say node=I nodes=N [ppm=E delay=D run_ms=T tol_us=U]");
+        return false;
+    };
+    let crystal = Crystal::new(a.ppm);
+    syst.set_clock_source(SystClkSource::Core);
+    syst.set_reload(TICKS_PER_SYSTICK - 1);
+    syst.clear_current();
+    syst.enable_interrupt();
+    syst.enable_counter();
+    // SAFETY: the two UARTs of the links, used by this loop only (the handler only
+    // clears their interrupt flags).
+    let mut uarts = unsafe { [Uart::new(UART_LEFT), Uart::new(UART_RIGHT)] };
+    for u in &mut uarts {
+        u.enable(16);
+    }
+    // SAFETY: unmasking interrupts whose handler (`on_interrupt`) is installed.
+    unsafe {
+        NVIC::unmask(Irq(IRQ_LEFT));
+        NVIC::unmask(Irq(IRQ_RIGHT));
+    }
+    let Ok(config) = Config::builder(PERIOD_TICKS, UPDATE_TICKS)
+        .law(Law::Sine)
+        .kp(Gain::from_q16(a.kp_q16))
+        .ki(Gain::from_q16(a.ki_q16))
+        .build()
+    else {
+        return false;
+    };
+    let now = crystal.ticks_at(true_us());
+    // Start phases spread by 0.129 turn a node, so neighbours begin far apart.
+    let start = Phase::from_counts(u32::from(a.id).wrapping_mul(0x2100_0000));
+    let mut port: BeaconPort<2> = BeaconPort::new(Node::new(config, start, now), a.id, 0);
+    let mut rx = [FrameReceiver::new(), FrameReceiver::new()];
+    let mut seen = [Seen::new(), Seen::new()];
+    let expect_left = a.id > 0;
+    let expect_right = a.id.wrapping_add(1) < a.nodes;
+    let run_us = u64::from(a.run_ms) * 1_000;
+    let judge_from = run_us * 6 / 10;
+    let judge_to = run_us * 9 / 10;
+    hprintln!(
+        "node {}: crystal {:+} ppm, kp {}/65536, ki {}/65536, assumed link delay {} us, running {} ms",
+        a.id,
+        a.ppm,
+        a.kp_q16,
+        a.ki_q16,
+        a.delay_us,
+        a.run_ms
+    );
+    let boot_us = true_us();
+    let mut next_update = now.wrapping_add(UPDATE_TICKS);
+    let mut wire = [0u8; FRAME_LEN];
+    let mut updates = 0u32;
+    let mut worst_update_diff = 0u32;
+    let mut short_updates = 0u32;
+    loop {
+        // Sleep until a byte or the next millisecond, unless a byte is already here.
+        cortex_m::interrupt::free(|_| {
+            if !uarts.iter().any(Uart::has_byte) {
+                cortex_m::asm::wfi();
+            }
+        });
+        let elapsed_us = true_us().wrapping_sub(boot_us);
+        for (side, (uart, receiver)) in uarts.iter_mut().zip(rx.iter_mut()).enumerate() {
+            while let Some(byte) = uart.try_read() {
+                let t = crystal.ticks_at(true_us());
+                let Some((frame, rx_ticks)) = receiver.push(byte, t) else {
+                    continue;
+                };
+                port.node_mut().advance_to(rx_ticks);
+                let own = port.node().phase_at(rx_ticks.wrapping_sub(a.delay_us));
+                // A refused frame is counted by the port (and reported at the end).
+                let Ok(got) = port.receive(&frame, rx_ticks, a.delay_us) else {
+                    continue;
+                };
+                let diff = Phase::from_counts(got.frame.phase_counts).diff(own);
+                if let Some(s) = seen.get_mut(side) {
+                    s.id = Some(got.frame.from);
+                    if elapsed_us >= judge_from && elapsed_us < judge_to {
+                        s.record(diff);
+                    }
+                }
+            }
+        }
+        let now = crystal.ticks_at(true_us());
+        if now.wrapping_sub(next_update) as i32 >= 0 {
+            let report = port.node_mut().update(now);
+            updates = updates.wrapping_add(1);
+            if elapsed_us >= judge_from && elapsed_us < judge_to {
+                worst_update_diff = worst_update_diff.max(report.largest_diff);
+                let want = u8::from(expect_left) + u8::from(expect_right);
+                if report.used < want {
+                    short_updates = short_updates.wrapping_add(1);
+                }
+            }
+            let tx = crystal.ticks_at(true_us());
+            if port.send(tx, &mut wire).is_ok() {
+                // Byte by byte to both sides, so neither frame's first byte (the instant
+                // its phase is stamped for) waits for the whole other frame.
+                for &b in &wire {
+                    for u in &mut uarts {
+                        u.write_byte(b);
+                    }
+                }
+            }
+            next_update = next_update.wrapping_add(UPDATE_TICKS);
+            // After a long stall, do not try to catch up update by update.
+            if now.wrapping_sub(next_update) as i32 > 0 {
+                next_update = now.wrapping_add(UPDATE_TICKS);
+            }
+            if elapsed_us >= run_us {
+                break;
+            }
+        }
+    }
+    // Verdict.
+    let tol_counts = ((u64::from(a.tol_us) << 32) / u64::from(PERIOD_TICKS)) as u32;
+    let mut pass = true;
+    for (side, expected) in [(0usize, expect_left), (1, expect_right)] {
+        let Some(s) = seen.get_mut(side) else {
+            continue;
+        };
+        let name = if side == 0 { "left" } else { "right" };
+        if !expected {
+            continue;
+        }
+        let median = s.percentile(50);
+        let p90 = s.percentile(90);
+        let ok = s.frames > 0 && p90 <= tol_counts;
+        pass &= ok;
+        let mean = if s.frames > 0 {
+            s.sum / i64::from(s.frames)
+        } else {
+            0
+        };
+        hprintln!(
+            "node {}: {} neighbour {:?}: {} beacons judged, |diff| median {} us, 90th percentile {} us, largest {} us; mean diff {} us: {}",
+            a.id,
+            name,
+            s.id,
+            s.frames,
+            counts_to_us(median),
+            counts_to_us(p90),
+            counts_to_us(s.largest),
+            signed_counts_to_us(mean),
+            if ok { "ok" } else { "OUT OF TOLERANCE" }
+        );
+    }
+    let rejects = port.rejects().total();
+    hprintln!(
+        "node {}: {} updates, largest |diff| seen by the law in the window {} us, {} updates short of a neighbour, trim {} ppb, {} rejected frames, {} bytes skipped, {} rx interrupts",
+        a.id,
+        updates,
+        counts_to_us(worst_update_diff),
+        short_updates,
+        port.node().trim_ppb(),
+        rejects,
+        rx.iter().map(FrameReceiver::skipped).sum::<u32>(),
+        RX_IRQS.load(Ordering::Relaxed)
+    );
+    hprintln!(
+        "node {}: {} (tolerance {} us)",
+        a.id,
+        if pass { "PASS" } else { "FAIL" },
+        a.tol_us
+    );
+    pass
+}

@@ -1,0 +1,207 @@
+//! Instructions per [`Node::update`], counted under `-icount shift=0`.
+//!
+//! For each law and for 1, 2 and 4 neighbours, two loops of the same length run: one
+//! that only hands the node its neighbours' observations, and one that also calls
+//! `update`. The difference, divided by the iterations, is what one update costs in
+//! context (advance, eviction check, the neighbour loop, the PI step, the trim update).
+//! Differences are spread over the whole circle (16 fixed values), so every branch of
+//! every law is taken; the slew limit is set out of reach so the integral step always
+//! runs (the dearer path).
+
+use crate::icount::InstructionCounter;
+use core::hint::black_box;
+use cortex_m_semihosting::hprintln;
+use entrain::{Config, Gain, Law, Node, Observation, Phase};
+
+/// Iterations per measurement loop.
+pub const ITERATIONS: u32 = 1_000;
+/// Neighbour counts measured.
+pub const NEIGHBOURS: [usize; 3] = [1, 2, 4];
+
+/// The laws this build can measure, with their table names.
+pub fn laws() -> &'static [(Law, &'static str)] {
+    &[
+        (Law::Sine, "sine (integer)"),
+        (Law::Linear, "linear"),
+        #[cfg(feature = "f32-laws")]
+        (Law::SineLibm, "sine f32 libm"),
+        #[cfg(feature = "f32-laws")]
+        (Law::SineMicromath, "sine f32 micromath"),
+    ]
+}
+
+fn config(law: Law) -> Option<Config> {
+    Config::builder(1_000_000, 100_000)
+        .law(law)
+        .kp(Gain::from_q16(16_384))
+        .ki(Gain::from_q16(2_048))
+        .slew_limit(i32::MAX as u32)
+        .build()
+        .ok()
+}
+
+/// Difference number `m` of 16, spread over the whole circle (golden-ratio stride).
+fn offset(m: u32) -> i32 {
+    (m & 15).wrapping_add(1).wrapping_mul(0x9E37_79B9) as i32
+}
+
+#[inline(always)]
+fn hand_over(node: &mut Node<4>, k: usize, i: u32, now: u32) {
+    let here = node.phase();
+    for j in 0..k {
+        let m = i.wrapping_mul(k as u32).wrapping_add(j as u32);
+        let obs = Observation {
+            from: j as u16,
+            phase: here.wrapping_add(offset(m)),
+            rx_ticks: now,
+            delay_ticks: 0,
+        };
+        let _ = black_box(node.observe(black_box(obs)));
+    }
+}
+
+/// Ticks of `iterations` updates with `k` neighbours (loop with updates minus loop
+/// without).
+pub fn update_ticks(
+    counter: &InstructionCounter,
+    law: Law,
+    k: usize,
+    iterations: u32,
+) -> Option<u32> {
+    let config = config(law)?;
+    let step = config.update_ticks();
+    let mut bare: Node<4> = Node::new(config, Phase::ZERO, 0);
+    let mut node: Node<4> = Node::new(config, Phase::ZERO, 0);
+    let start = counter.now();
+    let mut now = 0u32;
+    for i in 0..iterations {
+        now = now.wrapping_add(step);
+        hand_over(&mut bare, k, i, now);
+        black_box(&mut bare);
+    }
+    let mid = counter.now();
+    let mut now = 0u32;
+    for i in 0..iterations {
+        now = now.wrapping_add(step);
+        hand_over(&mut node, k, i, now);
+        black_box(node.update(black_box(now)));
+    }
+    let end = counter.now();
+    let without = InstructionCounter::ticks(start, mid);
+    let with = InstructionCounter::ticks(mid, end);
+    Some(with.saturating_sub(without))
+}
+
+/// `x / 2^16` with one decimal, as text parts.
+struct Tenths(i64);
+
+impl core::fmt::Display for Tenths {
+    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
+        let tenths = (self.0.saturating_mul(10) + (1 << 15)).div_euclid(1 << 16);
+        let sign = if tenths < 0 { "-" } else { "" };
+        let t = tenths.unsigned_abs();
+        let mut text = Text::default();
+        core::fmt::write(&mut text, format_args!("{sign}{}.{}", t / 10, t % 10))?;
+        // Pad as the caller asked (write! alone ignores width).
+        f.pad(text.as_str())
+    }
+}
+
+/// A 24-byte text buffer for one number.
+#[derive(Default)]
+struct Text {
+    buf: [u8; 24],
+    len: usize,
+}
+
+impl Text {
+    fn as_str(&self) -> &str {
+        self.buf
+            .get(..self.len)
+            .and_then(|b| core::str::from_utf8(b).ok())
+            .unwrap_or("?")
+    }
+}
+
+impl core::fmt::Write for Text {
+    fn write_str(&mut self, s: &str) -> core::fmt::Result {
+        let end = self.len.checked_add(s.len()).ok_or(core::fmt::Error)?;
+        let dst = self.buf.get_mut(self.len..end).ok_or(core::fmt::Error)?;
+        dst.copy_from_slice(s.as_bytes());
+        self.len = end;
+        Ok(())
+    }
+}
+
+/// Measure every law and print the table; `core` names the core and `goal` is the
+/// per-neighbour goal for the integer sine law, instructions.
+pub fn print_table(counter: &mut InstructionCounter, core: &str, goal: u32) {
+    let cal = counter.calibrate();
+    hprintln!(
+        "calibration: 200000 instructions = {} SysTick ticks -> {} instructions per tick",
+        cal,
+        Tenths(i64::from(counter.per_tick_q16()))
+    );
+    hprintln!(
+        "size_of::<Node<1>>() = {} bytes",
+        core::mem::size_of::<Node<1>>()
+    );
+    hprintln!(
+        "size_of::<Node<2>>() = {} bytes",
+        core::mem::size_of::<Node<2>>()
+    );
+    hprintln!(
+        "size_of::<Node<4>>() = {} bytes",
+        core::mem::size_of::<Node<4>>()
+    );
+    hprintln!(
+        "instructions per Node::update, {} ({} updates per figure)",
+        core,
+        ITERATIONS
+    );
+    hprintln!(
+        "{:<20} {:>9} {:>9} {:>9} | {:>13} {:>9}",
+        "law",
+        "1 nbr",
+        "2 nbrs",
+        "4 nbrs",
+        "per neighbour",
+        "fixed"
+    );
+    for &(law, name) in laws() {
+        let mut q16 = [0i64; 3];
+        for (slot, &k) in q16.iter_mut().zip(NEIGHBOURS.iter()) {
+            let ticks = update_ticks(counter, law, k, ITERATIONS).unwrap_or(0);
+            *slot = (counter.instructions_q16(u64::from(ticks)) / u64::from(ITERATIONS)) as i64;
+        }
+        // Least squares through (1, c1), (2, c2), (4, c4): k̄ = 7/3, Σ(k − k̄)² = 14/3.
+        // slope = Σ(k − k̄)·c / (14/3) = (−4·c1 − c2 + 5·c4) / 14.
+        let [c1, c2, c4] = q16;
+        let slope = (-4 * c1 - c2 + 5 * c4) / 14;
+        let fixed = (c1 + c2 + c4) / 3 - slope * 7 / 3;
+        let verdict = if law == Law::Sine {
+            if slope <= i64::from(goal) << 16 {
+                " (goal met)"
+            } else {
+                " (GOAL MISSED)"
+            }
+        } else {
+            ""
+        };
+        hprintln!(
+            "{:<20} {:>9} {:>9} {:>9} | {:>13} {:>9}{}",
+            name,
+            Tenths(c1),
+            Tenths(c2),
+            Tenths(c4),
+            Tenths(slope),
+            Tenths(fixed),
+            verdict
+        );
+    }
+    hprintln!(
+        "goal for the integer sine law on {}: <= {} per neighbour",
+        core,
+        goal
+    );
+}

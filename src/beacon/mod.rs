@@ -1,0 +1,106 @@
+//! The beacon frame: what one node tells its neighbours about its phase.
+//!
+//! A beacon is a fixed-size, little-endian, CRC-checked binary frame that carries the
+//! sender's id, a sequence number, its phase at the instant the frame leaves, its current
+//! rate trim and a few flags. With feature `mac` the frame also carries a SipHash-2-4 tag
+//! under a pre-shared network key, so a transmitter without the key cannot move anyone's
+//! phase. [`BeaconPort`] joins the frame to a [`Node`](crate::Node): its receive path
+//! turns checked frame bytes into observations, its send path fills frames from the
+//! node's phase, and it counts what it refuses, by [`RejectKind`].
+//!
+//! # Layout (version 1, [`FRAME_LEN`] = 28 bytes)
+//!
+//! | offset | size | field        | encoding                                                        |
+//! |-------:|-----:|--------------|-----------------------------------------------------------------|
+//! | 0      | 1    | `version`    | `u8`, [`VERSION`] = 1                                           |
+//! | 1      | 1    | `flags`      | `u8` bit set, see [`Flags`]; bits not defined in v1 are carried |
+//! | 2      | 2    | `from`       | `u16` LE, sender's node id                                      |
+//! | 4      | 4    | `seq`        | `u32` LE, sender's sequence number, wraps                       |
+//! | 8      | 4    | `phase`      | `u32` LE, binary angle at the send instant, 2^32 counts = 1 turn |
+//! | 12     | 4    | `trim_ppb`   | `i32` LE two's complement, sender's rate trim in parts per billion |
+//! | 16     | 8    | `tag`        | SipHash-2-4 of bytes 0..16 under the network key, `u64` LE; all zero when unauthenticated |
+//! | 24     | 4    | `check`      | CRC-32C (Castagnoli, `CRC-32/ISCSI`) of bytes 0..24, `u32` LE   |
+//!
+//! Bytes 0..16 are the *header*; the tag authenticates exactly the header, and the CRC
+//! covers the header and the tag. The tag field is always present, so an authenticated and
+//! an unauthenticated network speak the same frame size.
+//!
+//! # Integrity check
+//!
+//! CRC-32C: polynomial 0x1EDC6F41 (reflected 0x82F63B78), initial value and final XOR
+//! 0xFFFFFFFF, input and output reflected; catalogue check value on ASCII `"123456789"` is
+//! 0xE3069283 (published CRC catalogue, `CRC-32/ISCSI`; tested beside the codec and in
+//! `tests/beacon_frame.rs`). Over a 24-byte payload it detects every error of up to 5
+//! flipped bits and every burst up to 32 bits (Koopman's tables of CRC Hamming distance,
+//! value from memory). The CRC is for noise, not for attackers: anyone can compute it.
+//!
+//! # Versions
+//!
+//! A decoder reads byte 0 first. A frame whose version is not [`VERSION`] is rejected with
+//! [`DecodeError::UnsupportedVersion`] (carrying the version it found) before its length
+//! or check are judged, because a newer version may have a different size and layout. An
+//! older decoder therefore never misreads a newer frame; it counts and drops it. Flag bits
+//! that version 1 does not define are carried through unchanged and have no effect, so
+//! advisory flags can be added without a version change; anything that changes the meaning
+//! or position of a field takes a new version number.
+//!
+//! # Replay protection
+//!
+//! Each receiver keeps one [`SeqWindow`] per sender: the newest sequence number accepted
+//! and a bitmap of the [`WINDOW_LEN`] numbers before it. Sequence numbers are compared with
+//! serial-number (wrapping) arithmetic, so a sender's counter passing `u32::MAX` is just
+//! the next frame. The price of a 32-bit sequence is a replay horizon: once a sender has
+//! sent 2^31 further frames, a recording of one of its old frames reads as new again
+//! (at one beacon per 100 ms that takes 6.8 years, at 1 kHz 24.8 days). Change the
+//! network key well within that time.
+//!
+//! A window cannot tell a rebooted sender from a replay, so a sender that uses
+//! authentication must not restart its sequence at the same value after a reset: start
+//! it from a boot counter kept in non-volatile memory (for example `boot_count << 16`), or
+//! have receivers call [`BeaconPort::forget`] for it.
+//!
+//! # Authentication (feature `mac`)
+//!
+//! The tag is SipHash-2-4 with a 128-bit key over the 16 header bytes, sent in full
+//! (64 bits). A transmitter without the key succeeds with one forged frame with
+//! probability 2^-64; at 10 000 forged frames per second it expects to need about 58
+//! million years for one success. Replayed genuine frames carry a valid tag and are caught
+//! by the sequence window instead. The key is shared by the whole network, so it stops
+//! outsiders, not a node that holds it: see the fault bound on [`BeaconPort`].
+//!
+//! # Example
+//!
+//! ```
+//! use entrain::beacon::{Flags, Frame, FRAME_LEN};
+//!
+//! let frame = Frame {
+//!     from: 7,
+//!     seq: 41,
+//!     phase_counts: 0x4000_0000, // a quarter turn
+//!     trim_ppb: -2_500,
+//!     flags: Flags::PINNED,
+//! };
+//! let mut wire = [0u8; FRAME_LEN];
+//! frame.encode(&mut wire).unwrap();
+//! assert_eq!(Frame::decode(&wire), Ok(frame));
+//!
+//! wire[9] ^= 0x10; // one bit flipped on the way
+//! assert!(Frame::decode(&wire).is_err());
+//! ```
+
+mod flags;
+mod frame;
+#[cfg(feature = "mac")]
+mod mac;
+mod peers;
+mod port;
+mod reject;
+mod window;
+
+pub use flags::Flags;
+pub use frame::{DecodeError, EncodeError, FRAME_LEN, Frame, HEADER_LEN, TAG_LEN, VERSION};
+#[cfg(feature = "mac")]
+pub use mac::NetworkKey;
+pub use port::{BeaconPort, Received};
+pub use reject::{RejectCounts, RejectKind};
+pub use window::{Accepted, SeqWindow, WINDOW_LEN, WindowReject};

@@ -1,0 +1,309 @@
+//! A node with its beacon state: the send and receive paths between frame bytes and the
+//! node law.
+
+#[cfg(feature = "mac")]
+use super::NetworkKey;
+use super::peers::PeerWindows;
+use super::{Accepted, EncodeError, Flags, Frame, RejectCounts, RejectKind, SeqWindow};
+use crate::{Node, NodeId, Observation};
+
+/// A frame the receive path accepted and handed to the node.
+#[derive(Clone, Copy, PartialEq, Eq, Hash, Debug)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Received {
+    /// The frame as decoded (and, with a key, verified).
+    pub frame: Frame,
+    /// The observation given to [`Node::observe`].
+    pub observation: Observation,
+    /// How its sequence number stood to the sender's window: the first from that sender,
+    /// or newer with the count of numbers skipped (frames lost, for link telemetry).
+    pub accepted: Accepted,
+}
+
+/// A [`Node`] with what it needs to speak beacons: its own id, its send sequence
+/// counter, a replay window per sender, the network key (feature `mac`) and counters of
+/// refused frames by kind.
+///
+/// # Receive path
+///
+/// [`BeaconPort::receive`] checks, in order: the frame (version, length, CRC), the tag
+/// when the port has a key, that the sender is not this node, and the sender's replay
+/// window; then it hands the observation to [`Node::observe`]. Only when all of that
+/// succeeds is anything recorded (the window, the accepted count, the node's neighbour
+/// entry). **A refused frame changes nothing but its reject counter**: not the node, not
+/// any window.
+///
+/// # Send path
+///
+/// [`BeaconPort::send`] writes a frame with the node's [`Node::phase_at`] the send
+/// instant, its [`Node::trim_ppb`], the port's flags (with [`Flags::ISOLATED`] added
+/// while the node has no neighbour) and the next sequence number, signed when the port
+/// has a key. The sequence number is used up only when the frame was written.
+///
+/// # Fault bound
+///
+/// A sender that holds the key passes every check, so it can report any phase it likes.
+/// It still cannot move an honest node by more than the node law's slew limit per update:
+/// each [`Node::update`] steps the phase by `clamp(kp · Σ pull(Δ_j), ±slew_limit)`, so
+/// whatever one neighbour (or all of them) claim, one update moves the phase by at most
+/// [`Config::slew_limit`](crate::Config::slew_limit) counts, and the rate trim a lie can
+/// build up stays within ±[`Config::trim_limit_ppb`](crate::Config::trim_limit_ppb).
+/// So over `k` updates spanning `t` ticks, whatever the liar sends, the node departs from
+/// its own uncorrected, untrimmed run by at most `k · slew_limit` counts plus the
+/// trim's share, `trim_limit_ppb · 10⁻⁹ · t` ticks' worth of phase. Replaying the
+/// liar's old frames gains it nothing more: the window refuses them. (Tested in
+/// `tests/beacon_port.rs`.)
+///
+/// # Replay windows
+///
+/// One window per sender, `N` of them, as many as the node's neighbour table. A sender
+/// not heard before takes a free window, or the window of the sender heard least recently
+/// if that one has been silent for at least the node's
+/// [`Config::timeout_ticks`](crate::Config::timeout_ticks) (the node has dropped it too);
+/// otherwise the frame is refused as [`RejectKind::PeersFull`]. A sender whose window was
+/// given up starts over, so a replay of its frames from before its silence would be taken
+/// once; size `N` for the senders a node can hear, not only its intended neighbours.
+///
+/// ```
+/// use entrain::beacon::{BeaconPort, FRAME_LEN, RejectKind};
+/// use entrain::{Config, Node, Phase};
+///
+/// let config = Config::builder(1_000_000, 100_000).build().unwrap();
+/// let mut a: BeaconPort<4> = BeaconPort::new(Node::new(config, Phase::ZERO, 0), 1, 0);
+/// let mut b: BeaconPort<4> =
+///     BeaconPort::new(Node::new(config, Phase::from_turns(0.02), 0), 2, 0);
+///
+/// let mut wire = [0u8; FRAME_LEN];
+/// b.send(1_000, &mut wire).unwrap();
+/// let got = a.receive(&wire, 1_200, 200).unwrap(); // a 200-tick link
+/// assert_eq!(got.frame.from, 2);
+/// assert_eq!(a.receive(&wire, 1_300, 200), Err(RejectKind::Duplicate));
+/// assert_eq!(a.rejects().count(RejectKind::Duplicate), 1);
+///
+/// let report = a.node_mut().update(100_000);
+/// assert!(report.correction > 0); // pulled toward b
+/// ```
+#[derive(Clone, Debug)]
+pub struct BeaconPort<const N: usize> {
+    node: Node<N>,
+    id: NodeId,
+    next_seq: u32,
+    flags: Flags,
+    peers: PeerWindows<N>,
+    rejects: RejectCounts,
+    accepted: u32,
+    #[cfg(feature = "mac")]
+    key: Option<NetworkKey>,
+}
+
+impl<const N: usize> BeaconPort<N> {
+    /// An unauthenticated port: frames are sent untagged and tags are not checked.
+    ///
+    /// `first_seq` is the sequence number of the first frame sent; see the module docs on
+    /// restarting after a reset.
+    pub const fn new(node: Node<N>, id: NodeId, first_seq: u32) -> Self {
+        BeaconPort {
+            node,
+            id,
+            next_seq: first_seq,
+            flags: Flags::NONE,
+            peers: PeerWindows::new(),
+            rejects: RejectCounts::new(),
+            accepted: 0,
+            #[cfg(feature = "mac")]
+            key: None,
+        }
+    }
+
+    /// An authenticated port: every frame sent is tagged under `key`, and a received frame
+    /// without a good tag is refused as [`RejectKind::BadTag`].
+    #[cfg(feature = "mac")]
+    pub const fn with_key(node: Node<N>, id: NodeId, first_seq: u32, key: NetworkKey) -> Self {
+        let mut port = Self::new(node, id, first_seq);
+        port.key = Some(key);
+        port
+    }
+
+    /// Whether frames are tagged and tags are checked.
+    pub const fn is_authenticated(&self) -> bool {
+        #[cfg(feature = "mac")]
+        {
+            self.key.is_some()
+        }
+        #[cfg(not(feature = "mac"))]
+        {
+            false
+        }
+    }
+
+    /// The node.
+    pub const fn node(&self) -> &Node<N> {
+        &self.node
+    }
+
+    /// The node, to run its clock and updates.
+    pub const fn node_mut(&mut self) -> &mut Node<N> {
+        &mut self.node
+    }
+
+    /// The node, giving up the beacon state.
+    pub fn into_node(self) -> Node<N> {
+        self.node
+    }
+
+    /// This node's id, as sent in its frames.
+    pub const fn id(&self) -> NodeId {
+        self.id
+    }
+
+    /// The sequence number the next frame sent will carry.
+    pub const fn next_seq(&self) -> u32 {
+        self.next_seq
+    }
+
+    /// The flags sent with every frame (besides [`Flags::ISOLATED`], added while the node
+    /// has no neighbour).
+    pub const fn flags(&self) -> Flags {
+        self.flags
+    }
+
+    /// Sets the flags sent with every frame, for example [`Flags::PINNED`] on a node that
+    /// follows a reference.
+    pub const fn set_flags(&mut self, flags: Flags) {
+        self.flags = flags;
+    }
+
+    /// Refused frames so far, by kind.
+    pub const fn rejects(&self) -> &RejectCounts {
+        &self.rejects
+    }
+
+    /// Frames accepted and handed to the node so far (saturating).
+    pub const fn accepted_count(&self) -> u32 {
+        self.accepted
+    }
+
+    /// Sets the reject and accepted counters back to zero.
+    pub fn clear_counters(&mut self) {
+        self.rejects.clear();
+        self.accepted = 0;
+    }
+
+    /// The replay window kept for sender `id`, if any.
+    pub fn window(&self, id: NodeId) -> Option<&SeqWindow> {
+        self.peers.window(id)
+    }
+
+    /// Senders with a replay window.
+    pub fn window_count(&self) -> usize {
+        self.peers.len()
+    }
+
+    /// Forgets sender `id`: its replay window and its node neighbour entry. Call it for a
+    /// sender known to have restarted its sequence. Returns whether either was held.
+    pub fn forget(&mut self, id: NodeId) -> bool {
+        let window = self.peers.forget(id);
+        let neighbour = self.node.forget(id);
+        window || neighbour
+    }
+
+    /// Takes the bytes of one received frame, heard when this node's timer read
+    /// `rx_ticks`, over a link whose known delay from the sender's send instant is
+    /// `delay_ticks` (in this node's ticks).
+    ///
+    /// # Errors
+    /// The [`RejectKind`] of the first check that failed (see the type docs for the
+    /// order); it has been counted, and nothing else changed.
+    pub fn receive(
+        &mut self,
+        bytes: &[u8],
+        rx_ticks: u32,
+        delay_ticks: u32,
+    ) -> Result<Received, RejectKind> {
+        let result = self.try_receive(bytes, rx_ticks, delay_ticks);
+        match result {
+            Ok(_) => self.accepted = self.accepted.saturating_add(1),
+            Err(kind) => self.rejects.record(kind),
+        }
+        result
+    }
+
+    fn try_receive(
+        &mut self,
+        bytes: &[u8],
+        rx_ticks: u32,
+        delay_ticks: u32,
+    ) -> Result<Received, RejectKind> {
+        let frame = self.decode(bytes)?;
+        if frame.from == self.id {
+            return Err(RejectKind::OwnId);
+        }
+        let stale_ticks = self.node.config().timeout_ticks();
+        let admission = self
+            .peers
+            .admit(frame.from, frame.seq, rx_ticks, stale_ticks)?;
+        let observation = Observation {
+            from: frame.from,
+            phase: frame.phase(),
+            rx_ticks,
+            delay_ticks,
+        };
+        self.node
+            .observe(observation)
+            .map_err(|_| RejectKind::NodeFull)?;
+        let accepted = admission.accepted();
+        self.peers.commit(admission);
+        Ok(Received {
+            frame,
+            observation,
+            accepted,
+        })
+    }
+
+    fn decode(&self, bytes: &[u8]) -> Result<Frame, RejectKind> {
+        #[cfg(feature = "mac")]
+        if let Some(key) = &self.key {
+            return Frame::decode_verified(bytes, key).map_err(RejectKind::from);
+        }
+        Frame::decode(bytes).map_err(RejectKind::from)
+    }
+
+    /// The frame [`BeaconPort::send`] would write for the send instant `tx_ticks`,
+    /// without using up its sequence number.
+    pub fn frame_at(&self, tx_ticks: u32) -> Frame {
+        let mut flags = self.flags;
+        if self.node.neighbour_count() == 0 {
+            flags = flags.union(Flags::ISOLATED);
+        }
+        Frame {
+            from: self.id,
+            seq: self.next_seq,
+            phase_counts: self.node.phase_at(tx_ticks).counts(),
+            trim_ppb: self.node.trim_ppb(),
+            flags,
+        }
+    }
+
+    /// Writes the frame for the send instant `tx_ticks` (this node's timer when the
+    /// frame's first bit leaves; add the transmitter's known latency to the time of the
+    /// call) into the first [`FRAME_LEN`](super::FRAME_LEN) bytes of `out`, signed when
+    /// the port has a key, and uses up its sequence number. Returns the frame written.
+    ///
+    /// # Errors
+    /// [`EncodeError::BufferTooSmall`] when `out` is shorter than a frame; nothing is
+    /// written and the sequence number is kept.
+    pub fn send(&mut self, tx_ticks: u32, out: &mut [u8]) -> Result<Frame, EncodeError> {
+        let frame = self.frame_at(tx_ticks);
+        self.encode(&frame, out)?;
+        self.next_seq = self.next_seq.wrapping_add(1);
+        Ok(frame)
+    }
+
+    fn encode(&self, frame: &Frame, out: &mut [u8]) -> Result<usize, EncodeError> {
+        #[cfg(feature = "mac")]
+        if let Some(key) = &self.key {
+            return frame.encode_signed(key, out);
+        }
+        frame.encode(out)
+    }
+}

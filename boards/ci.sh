@@ -5,7 +5,7 @@
 #   3. the shared kit's unit tests pass on the host; every board and every firmware
 #      builds, clippy-clean;
 #   4. the vectors replay bit-exactly on the Cortex-M4F and the Cortex-M0 (and on the
-#      RISC-V sifive_e when qemu-system-riscv32 is installed);
+#      RISC-V sifive_e);
 #   5. the size probe and the sync-pulse demo run (pulse logs decoded when defmt-print
 #      is installed);
 #   6. the cost tables (instructions per update, per law and neighbour count);
@@ -22,9 +22,12 @@ m0=$CARGO_TARGET_DIR/thumbv6m-none-eabi/release
 step() { printf '\n== %s (%ss)\n' "$1" "$(( $(date +%s) - started ))"; }
 
 step "tools"
-if ! command -v qemu-system-arm >/dev/null; then
+missing=()
+command -v qemu-system-arm >/dev/null || missing+=(qemu-system-arm)
+command -v qemu-system-riscv32 >/dev/null || missing+=(qemu-system-misc)
+if ((${#missing[@]})); then
     apt-get update -qq
-    apt-get install -y --no-install-recommends qemu-system-arm
+    apt-get install -y --no-install-recommends "${missing[@]}"
 fi
 qemu-system-arm --version | head -1
 if command -v rustup >/dev/null; then

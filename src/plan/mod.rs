@@ -15,14 +15,14 @@
 //! # Example
 //!
 //! A footbridge handrail string of 24 vibration sensors, 10 updates per second, 1 ms
-//! phase period, sine law with `kp = 0.4`:
+//! phase period, sine law with `kp = 0.2`:
 //!
 //! ```
 //! use entrain::plan::{Law, Model, Spread, Topology, settle, stability};
 //!
 //! let string = Topology::Chain { nodes: 24 };
 //! let spectrum = string.spectrum()?;
-//! let model = Model::p_only(Law::Sine, 0.4, 0.1, 1e-3);
+//! let model = Model::p_only(Law::Sine, 0.2, 0.1, 1e-3);
 //! let st = stability(&model, &spectrum)?;
 //! assert!(st.stable && st.gain_margin > 2.0);
 //! let s = settle(&model, &spectrum, &Spread { initial_spread_s: 4e-4, tolerance_s: 1e-6 })?;

@@ -244,3 +244,14 @@ proptest! {
         }
     }
 }
+
+#[test]
+fn middle_reference_equals_free_chain_of_twice_the_length() {
+    // Fiedler 1973 (λ2 of P_{2m+1} = 2 − 2cos(π/(2m+1))) and Yueh 2005 (λ1 of the pinned
+    // chain of m = 2 − 2cos(π/(2m+1))) agree.
+    for m in [1, 5, 40] {
+        let free = Topology::Chain { nodes: 2 * m + 1 }.lambda_slow().unwrap();
+        let pinned = Topology::PinnedChain { nodes: m }.lambda_slow().unwrap();
+        assert!((free - pinned).abs() < 1e-15);
+    }
+}

@@ -16,7 +16,10 @@ impl Graph {
     /// [`GraphError::Factorization`].
     pub fn edge_flows(&self, drift: &[f64]) -> Result<Vec<f64>, GraphError> {
         if drift.len() != self.node_count() {
-            return Err(GraphError::WrongLength { needed: self.node_count(), got: drift.len() });
+            return Err(GraphError::WrongLength {
+                needed: self.node_count(),
+                got: drift.len(),
+            });
         }
         if drift.iter().any(|d| !d.is_finite()) {
             return Err(GraphError::NotFinite { name: "drift" });
@@ -27,7 +30,9 @@ impl Graph {
         Ok(self
             .edges()
             .iter()
-            .map(|e| e.weight * (x.get(e.a).copied().unwrap_or(0.0) - x.get(e.b).copied().unwrap_or(0.0)))
+            .map(|e| {
+                e.weight * (x.get(e.a).copied().unwrap_or(0.0) - x.get(e.b).copied().unwrap_or(0.0))
+            })
             .collect())
     }
 
@@ -40,13 +45,19 @@ impl Graph {
     pub fn worst_flow_factor(&self) -> Result<f64, GraphError> {
         self.require_connected()?;
         if self.node_count() > DENSE_MAX_NODES {
-            return Err(GraphError::TooLargeForDense { nodes: self.node_count(), max: DENSE_MAX_NODES });
+            return Err(GraphError::TooLargeForDense {
+                nodes: self.node_count(),
+                max: DENSE_MAX_NODES,
+            });
         }
         let n = self.node_count();
         // L† = (L + J/n)⁻¹ − J/n for a connected graph.
         let l = self.laplacian_dense()?;
         let shifted = l.add_scalar(1.0 / n as f64);
-        let inverse = shifted.cholesky().ok_or(GraphError::Factorization)?.inverse();
+        let inverse = shifted
+            .cholesky()
+            .ok_or(GraphError::Factorization)?
+            .inverse();
         let pinv = inverse.add_scalar(-1.0 / n as f64);
         let mut worst = 0.0_f64;
         for e in self.edges() {

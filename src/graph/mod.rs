@@ -78,7 +78,10 @@ impl Graph {
     /// # Errors
     /// [`GraphError::NoNodes`], [`GraphError::NodeOutOfRange`], [`GraphError::SelfLoop`],
     /// [`GraphError::DuplicateEdge`], [`GraphError::BadWeight`].
-    pub fn from_weighted_edges(nodes: usize, edges: &[(usize, usize, f64)]) -> Result<Self, GraphError> {
+    pub fn from_weighted_edges(
+        nodes: usize,
+        edges: &[(usize, usize, f64)],
+    ) -> Result<Self, GraphError> {
         if nodes == 0 {
             return Err(GraphError::NoNodes);
         }
@@ -87,17 +90,27 @@ impl Graph {
         for (index, &(a, b, weight)) in edges.iter().enumerate() {
             for node in [a, b] {
                 if node >= nodes {
-                    return Err(GraphError::NodeOutOfRange { edge: index, node, nodes });
+                    return Err(GraphError::NodeOutOfRange {
+                        edge: index,
+                        node,
+                        nodes,
+                    });
                 }
             }
             if a == b {
-                return Err(GraphError::SelfLoop { edge: index, node: a });
+                return Err(GraphError::SelfLoop {
+                    edge: index,
+                    node: a,
+                });
             }
             if !(weight.is_finite() && weight > 0.0) {
                 return Err(GraphError::BadWeight { edge: index });
             }
             if let Some(&first) = seen.get(&(a.min(b), a.max(b))) {
-                return Err(GraphError::DuplicateEdge { first, second: index });
+                return Err(GraphError::DuplicateEdge {
+                    first,
+                    second: index,
+                });
             }
             seen.insert((a.min(b), a.max(b)), index);
             list.push(Edge { a, b, weight });
@@ -133,7 +146,14 @@ impl Graph {
                 }
             }
         }
-        let mut graph = Self { nodes, edges: list, offsets, neighbours, degrees, components: 0 };
+        let mut graph = Self {
+            nodes,
+            edges: list,
+            offsets,
+            neighbours,
+            degrees,
+            components: 0,
+        };
         graph.components = graph.count_components();
         Ok(graph)
     }
@@ -229,7 +249,9 @@ impl Graph {
         if self.is_connected() {
             Ok(())
         } else {
-            Err(GraphError::Disconnected { components: self.components })
+            Err(GraphError::Disconnected {
+                components: self.components,
+            })
         }
     }
 
@@ -240,12 +262,19 @@ impl Graph {
     pub fn laplacian_times(&self, x: &[f64], y: &mut [f64]) -> Result<(), GraphError> {
         for len in [x.len(), y.len()] {
             if len != self.nodes {
-                return Err(GraphError::WrongLength { needed: self.nodes, got: len });
+                return Err(GraphError::WrongLength {
+                    needed: self.nodes,
+                    got: len,
+                });
             }
         }
         for (i, out) in y.iter_mut().enumerate() {
             let xi = x.get(i).copied().unwrap_or(0.0);
-            *out = self.neighbours(i).iter().map(|&(j, w)| w * (xi - x.get(j).copied().unwrap_or(0.0))).sum();
+            *out = self
+                .neighbours(i)
+                .iter()
+                .map(|&(j, w)| w * (xi - x.get(j).copied().unwrap_or(0.0)))
+                .sum();
         }
         Ok(())
     }
@@ -285,10 +314,20 @@ impl Graph {
     /// [`GraphError::TooSmall`] for a single node; sparse-path errors.
     pub fn spectrum(&self) -> Result<Spectrum, GraphError> {
         if self.nodes < 2 {
-            return Err(GraphError::TooSmall { nodes: self.nodes, min: 2 });
+            return Err(GraphError::TooSmall {
+                nodes: self.nodes,
+                min: 2,
+            });
         }
         let (lambda_slow, lambda_max) = if !self.is_connected() {
-            (0.0, if self.nodes <= DENSE_MAX_NODES { self.dense_spectrum()?.lambda_max() } else { 2.0 * self.max_degree() })
+            (
+                0.0,
+                if self.nodes <= DENSE_MAX_NODES {
+                    self.dense_spectrum()?.lambda_max()
+                } else {
+                    2.0 * self.max_degree()
+                },
+            )
         } else if self.nodes <= DENSE_MAX_NODES {
             let d = self.dense_spectrum()?;
             (d.lambda2(), d.lambda_max())

@@ -62,7 +62,10 @@ impl fmt::Display for PlanError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match *self {
             Self::TooFewNodes { min, got } => {
-                write!(f, "topology has {got} nodes; this kind needs at least {min}")
+                write!(
+                    f,
+                    "topology has {got} nodes; this kind needs at least {min}"
+                )
             }
             Self::TooManyNodes => f.write_str("node count overflows usize"),
             Self::InvalidParameter { name, valid } => {
@@ -75,7 +78,10 @@ impl fmt::Display for PlanError {
                 write!(f, "slice has length {got}; it must have length {needed}")
             }
             Self::DelayTooLong { max, got } => {
-                write!(f, "delay of {got} updates is too long; at most {max} is supported")
+                write!(
+                    f,
+                    "delay of {got} updates is too long; at most {max} is supported"
+                )
             }
             Self::ToleranceNotBelowSpread => {
                 f.write_str("lock tolerance must be smaller than the initial spread")
@@ -98,7 +104,10 @@ pub(crate) fn positive(value: f64, name: &'static str) -> Result<f64, PlanError>
     if value.is_finite() && value > 0.0 {
         Ok(value)
     } else {
-        Err(PlanError::InvalidParameter { name, valid: "finite and > 0" })
+        Err(PlanError::InvalidParameter {
+            name,
+            valid: "finite and > 0",
+        })
     }
 }
 
@@ -107,6 +116,9 @@ pub(crate) fn non_negative(value: f64, name: &'static str) -> Result<f64, PlanEr
     if value.is_finite() && value >= 0.0 {
         Ok(value)
     } else {
-        Err(PlanError::InvalidParameter { name, valid: "finite and >= 0" })
+        Err(PlanError::InvalidParameter {
+            name,
+            valid: "finite and >= 0",
+        })
     }
 }

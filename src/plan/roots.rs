@@ -17,17 +17,29 @@ impl Complex {
     const ONE: Self = Self { re: 1.0, im: 0.0 };
 
     fn add(self, o: Self) -> Self {
-        Self { re: self.re + o.re, im: self.im + o.im }
+        Self {
+            re: self.re + o.re,
+            im: self.im + o.im,
+        }
     }
     fn sub(self, o: Self) -> Self {
-        Self { re: self.re - o.re, im: self.im - o.im }
+        Self {
+            re: self.re - o.re,
+            im: self.im - o.im,
+        }
     }
     fn mul(self, o: Self) -> Self {
-        Self { re: self.re * o.re - self.im * o.im, im: self.re * o.im + self.im * o.re }
+        Self {
+            re: self.re * o.re - self.im * o.im,
+            im: self.re * o.im + self.im * o.re,
+        }
     }
     fn div(self, o: Self) -> Self {
         let d = o.re * o.re + o.im * o.im;
-        Self { re: (self.re * o.re + self.im * o.im) / d, im: (self.im * o.re - self.re * o.im) / d }
+        Self {
+            re: (self.re * o.re + self.im * o.im) / d,
+            im: (self.im * o.re - self.re * o.im) / d,
+        }
     }
     fn abs(self) -> f64 {
         libm::hypot(self.re, self.im)
@@ -44,12 +56,21 @@ fn largest_root_modulus(coeffs: &[f64]) -> f64 {
         None => return f64::NAN,
     };
     let eval = |z: Complex| {
-        coeffs.iter().rev().fold(Complex::ZERO, |acc, &c| acc.mul(z).add(Complex { re: c, im: 0.0 }))
+        coeffs.iter().rev().fold(Complex::ZERO, |acc, &c| {
+            acc.mul(z).add(Complex { re: c, im: 0.0 })
+        })
     };
     // Start on a circle a little larger than the Cauchy bound, at non-symmetric angles.
-    let bound = 1.0 + coeffs.iter().take(degree).fold(0.0_f64, |m, c| m.max(libm::fabs(*c)));
+    let bound = 1.0
+        + coeffs
+            .iter()
+            .take(degree)
+            .fold(0.0_f64, |m, c| m.max(libm::fabs(*c)));
     let seed = Complex { re: 0.4, im: 0.9 };
-    let mut power = Complex { re: bound.min(2.0), im: 0.0 };
+    let mut power = Complex {
+        re: bound.min(2.0),
+        im: 0.0,
+    };
     for r in roots.iter_mut() {
         *r = power;
         power = power.mul(seed);
@@ -64,7 +85,14 @@ fn largest_root_modulus(coeffs: &[f64]) -> f64 {
                     denom = denom.mul(zi.sub(*zj));
                 }
             }
-            let step = if denom.abs() == 0.0 { Complex { re: 1e-12, im: 1e-12 } } else { eval(zi).div(denom) };
+            let step = if denom.abs() == 0.0 {
+                Complex {
+                    re: 1e-12,
+                    im: 1e-12,
+                }
+            } else {
+                eval(zi).div(denom)
+            };
             if let Some(slot) = roots.get_mut(i) {
                 *slot = zi.sub(step);
             }

@@ -172,8 +172,12 @@ impl Topology {
                 }
             }
             // λ(G□H) = λ_i(G) + λ_j(H), Brouwer & Haemers 2012 §1.4.
-            Self::Grid { rows, cols } => path_eigenvalue(rows, k / cols) + path_eigenvalue(cols, k % cols),
-            Self::Torus { rows, cols } => cycle_eigenvalue(rows, k / cols) + cycle_eigenvalue(cols, k % cols),
+            Self::Grid { rows, cols } => {
+                path_eigenvalue(rows, k / cols) + path_eigenvalue(cols, k % cols)
+            }
+            Self::Torus { rows, cols } => {
+                cycle_eigenvalue(rows, k / cols) + cycle_eigenvalue(cols, k % cols)
+            }
             // Yueh 2005: 2 − 2cos((2k−1)π/(2N+1)), k = 1..N (here k is 0-based).
             Self::PinnedChain { nodes } => {
                 two_minus_two_cos((2 * k + 1) as f64 * PI / (2 * nodes + 1) as f64)
@@ -189,7 +193,10 @@ impl Topology {
         self.validate()?;
         let count = self.node_count();
         if out.len() != count {
-            return Err(PlanError::WrongLength { needed: count, got: out.len() });
+            return Err(PlanError::WrongLength {
+                needed: count,
+                got: out.len(),
+            });
         }
         for (k, slot) in out.iter_mut().enumerate() {
             *slot = self.mode(k)?;
@@ -365,7 +372,10 @@ impl Topology {
         self.validate()?;
         let count = self.node_count();
         if out.len() != count {
-            return Err(PlanError::WrongLength { needed: count, got: out.len() });
+            return Err(PlanError::WrongLength {
+                needed: count,
+                got: out.len(),
+            });
         }
         let mut peak = 0.0_f64;
         for (node, slot) in out.iter_mut().enumerate() {
@@ -429,7 +439,11 @@ impl Topology {
             Self::PinnedChain { nodes } => Ok(nodes as f64),
             Self::Ring { nodes } => {
                 let n = nodes as f64;
-                Ok(if nodes % 2 == 0 { n / 4.0 } else { (n * n - 1.0) / (4.0 * n) })
+                Ok(if nodes % 2 == 0 {
+                    n / 4.0
+                } else {
+                    (n * n - 1.0) / (4.0 * n)
+                })
             }
             Self::Star { nodes } => Ok(2.0 * (nodes as f64 - 1.0) / nodes as f64),
             Self::Complete { nodes } => Ok(2.0 / nodes as f64),
@@ -456,7 +470,13 @@ impl Topology {
 /// # Errors
 /// [`PlanError::InvalidParameter`] unless `a`, `b`, `c` are finite with `b·c > 0` (real
 /// spectrum), [`PlanError::ModeOutOfRange`] unless `1 ≤ k ≤ n`.
-pub fn tridiagonal_toeplitz_eigenvalue(a: f64, b: f64, c: f64, n: usize, k: usize) -> Result<f64, PlanError> {
+pub fn tridiagonal_toeplitz_eigenvalue(
+    a: f64,
+    b: f64,
+    c: f64,
+    n: usize,
+    k: usize,
+) -> Result<f64, PlanError> {
     let bc = b * c;
     if !(a.is_finite() && bc.is_finite() && bc > 0.0) {
         return Err(PlanError::InvalidParameter {

@@ -187,3 +187,11 @@ fn sparse_chain_100k_matches_closed_form() {
     let last = s.slow_mode[n - 1];
     assert!((first.abs() - 1.0).abs() < 1e-3 && (first + last).abs() < 1e-3);
 }
+
+#[test]
+fn huge_graph_is_refused_before_allocating() {
+    assert!(matches!(
+        Graph::from_edges(usize::MAX, &[]),
+        Err(GraphError::TooManyNodes { .. })
+    ));
+}

@@ -304,3 +304,26 @@ fn middle_reference_equals_free_chain_of_twice_the_length() {
         assert!((free - pinned).abs() < 1e-15);
     }
 }
+
+#[test]
+fn huge_counts_are_refused_not_overflowed() {
+    assert_eq!(
+        Topology::PinnedChain { nodes: usize::MAX }.spectrum(),
+        Err(PlanError::TooManyNodes)
+    );
+    assert_eq!(
+        Topology::Chain {
+            nodes: entrain::plan::MAX_NODES + 1
+        }
+        .lambda_slow(),
+        Err(PlanError::TooManyNodes)
+    );
+    assert_eq!(
+        Topology::Torus {
+            rows: 1 << 20,
+            cols: 1 << 20
+        }
+        .validate(),
+        Err(PlanError::TooManyNodes)
+    );
+}

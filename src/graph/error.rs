@@ -41,6 +41,13 @@ pub enum GraphError {
         /// Number of connected components (≥ 2).
         components: usize,
     },
+    /// More nodes than a graph may have ([`crate::graph::MAX_GRAPH_NODES`]).
+    TooManyNodes {
+        /// Node count that was given.
+        nodes: usize,
+        /// Largest accepted node count.
+        max: usize,
+    },
     /// The dense path was asked for more nodes than it handles.
     TooLargeForDense {
         /// Node count of the graph.
@@ -98,6 +105,9 @@ impl fmt::Display for GraphError {
                     f,
                     "graph is disconnected ({components} components); its parts can never lock"
                 )
+            }
+            Self::TooManyNodes { nodes, max } => {
+                write!(f, "graph has {nodes} nodes; at most {max} are supported")
             }
             Self::TooLargeForDense { nodes, max } => {
                 write!(

@@ -36,6 +36,10 @@ pub use sparse::{SparseOptions, SparseSpectrum};
 
 use crate::plan::{Spectrum, Topology};
 
+/// Largest node count of a [`Graph`] (2^28; a larger count is refused before anything
+/// is allocated).
+pub const MAX_GRAPH_NODES: usize = 1 << 28;
+
 /// Largest node count of the dense path (an N×N matrix of `f64`: 128 MB at 4,000).
 pub const DENSE_MAX_NODES: usize = 4000;
 
@@ -76,7 +80,7 @@ impl Graph {
     /// (see [`Self::component_count`]); the spectrum methods report it.
     ///
     /// # Errors
-    /// [`GraphError::NoNodes`], [`GraphError::NodeOutOfRange`], [`GraphError::SelfLoop`],
+    /// [`GraphError::NoNodes`], [`GraphError::TooManyNodes`], [`GraphError::NodeOutOfRange`], [`GraphError::SelfLoop`],
     /// [`GraphError::DuplicateEdge`], [`GraphError::BadWeight`].
     pub fn from_weighted_edges(
         nodes: usize,
@@ -84,6 +88,12 @@ impl Graph {
     ) -> Result<Self, GraphError> {
         if nodes == 0 {
             return Err(GraphError::NoNodes);
+        }
+        if nodes > MAX_GRAPH_NODES {
+            return Err(GraphError::TooManyNodes {
+                nodes,
+                max: MAX_GRAPH_NODES,
+            });
         }
         let mut seen = std::collections::HashMap::with_capacity(edges.len());
         let mut list = Vec::with_capacity(edges.len());

@@ -17,7 +17,7 @@ pub enum PlanError {
         /// Node count that was given.
         got: usize,
     },
-    /// The node count does not fit the arithmetic (rows × cols overflowed `usize`).
+    /// The node count is above [`crate::plan::MAX_NODES`] (or rows × cols overflowed).
     TooManyNodes,
     /// A numeric parameter is NaN, infinite or outside its valid range.
     InvalidParameter {
@@ -67,7 +67,11 @@ impl fmt::Display for PlanError {
                     "topology has {got} nodes; this kind needs at least {min}"
                 )
             }
-            Self::TooManyNodes => f.write_str("node count overflows usize"),
+            Self::TooManyNodes => write!(
+                f,
+                "too many nodes; at most {} are supported",
+                super::topology::MAX_NODES
+            ),
             Self::InvalidParameter { name, valid } => {
                 write!(f, "parameter `{name}` is invalid; it must be {valid}")
             }

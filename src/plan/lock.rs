@@ -42,10 +42,11 @@ pub struct Locking {
 }
 
 fn offset_turns(law: Law, flow: f64, kp: f64) -> f64 {
-    match law {
-        Law::Sine => libm::asin((2.0 * PI * flow / kp).clamp(-1.0, 1.0)) / (2.0 * PI),
-        Law::Linear => (flow / kp).clamp(-0.5, 0.5),
+    Model {
+        law,
+        ..Model::p_only(law, kp, 1.0, 1.0)
     }
+    .edge_offset_turns(flow)
 }
 
 fn verdict(

@@ -51,7 +51,7 @@ pub use roots::mode_radius;
 pub use settle::{BOUND_ITERATION_CAP_UPDATES, SettleWarnings, Settling, Spread, settle};
 pub use spectrum::Spectrum;
 pub use stability::{Stability, delay_gain_bound, pi_jury_stable, stability};
-pub use topology::{Topology, tridiagonal_toeplitz_eigenvalue};
+pub use topology::{MAX_NODES, Topology, tridiagonal_toeplitz_eigenvalue};
 pub use tune::{
     Alternatives, Budget, GainChoice, Infeasibility, KP_SCAN_POINTS, MIN_GAIN_MARGIN, PI_RATIOS,
     Tuning, tune, tune_topology,

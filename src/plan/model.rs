@@ -137,6 +137,21 @@ impl Model {
         seconds / self.phase_period_s
     }
 
+    /// Steady phase offset across an edge carrying `flow_turns_per_update` (P-only law):
+    /// `arcsin(2π·flow/kp)/(2π)` for the sine law, `flow/kp` for the linear law
+    /// (Strogatz & Mirollo 1988), saturating at ±¼ turn (sine) or ±½ turn (linear) past the
+    /// edge capacity. For a general graph use the flows of the numeric path; exact on trees.
+    pub fn edge_offset_turns(&self, flow_turns_per_update: f64) -> f64 {
+        let kp = self.kp;
+        match self.law {
+            Law::Sine => {
+                let x = (2.0 * core::f64::consts::PI * flow_turns_per_update / kp).clamp(-1.0, 1.0);
+                libm::asin(x) / (2.0 * core::f64::consts::PI)
+            }
+            Law::Linear => (flow_turns_per_update / kp).clamp(-0.5, 0.5),
+        }
+    }
+
     /// Largest per-edge steady flow the law can carry, turns per update: `kp/(2π)` for
     /// the sine law (the sine's peak), `kp/2` for the linear law (offset reaches the
     /// ½-turn wrap).

@@ -195,3 +195,43 @@ fn huge_graph_is_refused_before_allocating() {
         Err(GraphError::TooManyNodes { .. })
     ));
 }
+
+#[test]
+fn worst_pattern_loads_an_edge_to_the_flow_factor() {
+    // Dörfler, Chertkov & Bullo 2013: the worst ±w drift loads edge e to w·‖L†b_e‖₁.
+    let mut edges: Vec<(usize, usize)> = (0..9).map(|i| (i, (i + 1) % 9)).collect();
+    edges.extend([(0, 4), (2, 7), (9, 3), (10, 9), (10, 5)]);
+    let g = Graph::from_edges(11, &edges).unwrap();
+    let w = 3.0;
+    let pattern = g.worst_crystal_pattern(w).unwrap();
+    assert!(pattern.iter().all(|p| p.abs() == w));
+    let flows = g.edge_flows(&pattern).unwrap();
+    let peak = flows.iter().map(|f| f.abs()).fold(0.0, f64::max);
+    assert!((peak - w * g.worst_flow_factor().unwrap()).abs() < 1e-9);
+    // On a chain it is the first half against the second (Strogatz & Mirollo 1988).
+    let chain = Graph::from_topology(&Topology::Chain { nodes: 6 }).unwrap();
+    let p = chain.worst_crystal_pattern(1.0).unwrap();
+    assert!(
+        p == [1.0, 1.0, 1.0, -1.0, -1.0, -1.0] || p == [-1.0, -1.0, -1.0, 1.0, 1.0, 1.0],
+        "{p:?}"
+    );
+}
+
+#[test]
+fn summary_reports_everything_or_disconnection() {
+    let g = Graph::from_topology(&Topology::Ring { nodes: 12 }).unwrap();
+    let s = g.summary().unwrap();
+    assert_eq!(s.eigenvalues.as_ref().map(Vec::len), Some(12));
+    assert_eq!(s.slow_mode.len(), 12);
+    // Ring flow factor N/4 (even N), checked against nalgebra in plan_lock.rs.
+    assert!((s.worst_flow_factor.unwrap() - 3.0).abs() < 1e-9);
+    let split = Graph::from_edges(5, &[(0, 1), (1, 2), (3, 4)])
+        .unwrap()
+        .summary()
+        .unwrap();
+    assert!(
+        !split.spectrum.connected
+            && split.worst_flow_factor.is_none()
+            && split.slow_mode.is_empty()
+    );
+}

@@ -206,3 +206,64 @@ fn bad_spreads_are_errors() {
         Err(PlanError::Unstable)
     );
 }
+
+#[test]
+fn delayed_bound_holds_in_simulation() {
+    // x⁺ = x − kp·L·x[t−d], history constant before the start (the model's convention).
+    let n = 10;
+    let edges: Vec<(usize, usize)> = (1..n).map(|i| (i - 1, i)).collect();
+    let sp = Topology::Chain { nodes: n }.spectrum().unwrap();
+    let (e0, tol) = (0.2, 0.002);
+    for (kp, d) in [(0.1, 1u32), (0.08, 2), (0.2, 1)] {
+        let m = Model {
+            delay_updates: d,
+            ..Model::p_only(Law::Linear, kp, 0.01, 1.0)
+        };
+        let s = settle(
+            &m,
+            &sp,
+            &Spread {
+                initial_spread_s: e0,
+                tolerance_s: tol,
+            },
+        )
+        .unwrap();
+        let bound = s.bound_updates.unwrap() as usize;
+        assert!(bound >= s.asymptotic_updates as usize / 2);
+        let mut seed = 3u64;
+        for trial in 0..12 {
+            let x0: Vec<f64> = (0..n)
+                .map(|i| {
+                    seed = seed
+                        .wrapping_mul(6364136223846793005)
+                        .wrapping_add(1442695040888963407);
+                    if trial == 0 {
+                        if i < n / 2 { e0 } else { 0.0 }
+                    } else {
+                        (seed >> 11) as f64 / (1u64 << 53) as f64 * e0
+                    }
+                })
+                .collect();
+            let s0 = spread(&x0);
+            let mut history: Vec<Vec<f64>> = vec![x0.clone(); d as usize + 1];
+            for step in 0..bound + 300 {
+                let now = history.last().unwrap().clone();
+                let old = &history[history.len() - 1 - d as usize];
+                let pulled = laplacian_step(old, kp, &edges);
+                let next: Vec<f64> = (0..n).map(|i| now[i] + pulled[i] - old[i]).collect();
+                history.push(next);
+                if history.len() > d as usize + 1 {
+                    history.remove(0);
+                }
+                if step + 1 >= bound {
+                    let x = history.last().unwrap();
+                    assert!(
+                        spread(x) <= tol * s0 / e0 + 1e-15,
+                        "kp {kp} d {d} step {step}: {}",
+                        spread(x)
+                    );
+                }
+            }
+        }
+    }
+}

@@ -43,6 +43,21 @@ pub const MAX_GRAPH_NODES: usize = 1 << 28;
 /// Largest node count of the dense path (an N×N matrix of `f64`: 128 MB at 4,000).
 pub const DENSE_MAX_NODES: usize = 4000;
 
+/// Everything the checker reports about a graph's spectrum, in one call
+/// ([`Graph::summary`]).
+#[derive(Clone, Debug, PartialEq)]
+pub struct GraphSummary {
+    /// The planner's input (λslow = λ2, λmax, degrees, connected or not).
+    pub spectrum: Spectrum,
+    /// Every eigenvalue, ascending, when the dense path ran (`node_count ≤ DENSE_MAX_NODES`).
+    pub eigenvalues: Option<Vec<f64>>,
+    /// The slowest mode's shape (largest magnitude 1); empty for a disconnected graph.
+    pub slow_mode: Vec<f64>,
+    /// Worst edge load per unit detuning ([`Graph::worst_flow_factor`]) when the dense path
+    /// ran and the graph is connected.
+    pub worst_flow_factor: Option<f64>,
+}
+
 /// One undirected edge with its weight (coupling strength relative to a plain link).
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Edge {
@@ -314,6 +329,65 @@ impl Graph {
             }
         }
         count
+    }
+
+    /// The full report: spectrum summary, all eigenvalues and the flow factor where the
+    /// dense path applies, the slowest mode's shape. A disconnected graph is reported with
+    /// `connected: false` (no error; the planner refuses it with
+    /// [`crate::plan::PlanError::Disconnected`]).
+    ///
+    /// # Errors
+    /// [`GraphError::TooSmall`] for a single node; sparse-path errors on large graphs.
+    pub fn summary(&self) -> Result<GraphSummary, GraphError> {
+        if self.nodes < 2 {
+            return Err(GraphError::TooSmall {
+                nodes: self.nodes,
+                min: 2,
+            });
+        }
+        let spectrum_of = |lambda_slow: f64, lambda_max: f64| Spectrum {
+            node_count: self.nodes,
+            lambda_slow,
+            lambda_max,
+            max_degree: self.max_degree(),
+            connected: self.is_connected(),
+            pinned: false,
+            stable_twisted_states: 0,
+        };
+        if self.nodes <= DENSE_MAX_NODES {
+            let d = self.dense_spectrum()?;
+            let connected = self.is_connected();
+            let lambda_slow = if connected { d.lambda2() } else { 0.0 };
+            Ok(GraphSummary {
+                spectrum: spectrum_of(lambda_slow, d.lambda_max()),
+                slow_mode: if connected {
+                    d.slow_mode().to_vec()
+                } else {
+                    Vec::new()
+                },
+                eigenvalues: Some(d.eigenvalues().to_vec()),
+                worst_flow_factor: if connected {
+                    self.worst_flow_factor().ok()
+                } else {
+                    None
+                },
+            })
+        } else if self.is_connected() {
+            let s = self.sparse_spectrum()?;
+            Ok(GraphSummary {
+                spectrum: spectrum_of(s.lambda2, s.lambda_max_upper),
+                eigenvalues: None,
+                slow_mode: s.slow_mode,
+                worst_flow_factor: None,
+            })
+        } else {
+            Ok(GraphSummary {
+                spectrum: spectrum_of(0.0, 2.0 * self.max_degree()),
+                eigenvalues: None,
+                slow_mode: Vec::new(),
+                worst_flow_factor: None,
+            })
+        }
     }
 
     /// Spectrum summary for the planner: dense up to [`DENSE_MAX_NODES`] nodes, sparse

@@ -165,3 +165,34 @@ pub fn mode_radius(kp: f64, ki: f64, delay_updates: u32, lambda: f64) -> f64 {
     };
     coeffs.get(..=degree).map_or(f64::NAN, largest_root_modulus)
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn durand_kerner_on_known_roots() {
+        // (z − 0.5)(z + 0.3) = z² − 0.2z − 0.15: largest |root| 0.5.
+        assert!((largest_root_modulus(&[-0.15, -0.2, 1.0]) - 0.5).abs() < 1e-12);
+        // (z² + 0.81)(z − 0.2): roots ±0.9i and 0.2.
+        assert!((largest_root_modulus(&[-0.162, 0.81, -0.2, 1.0]) - 0.9).abs() < 1e-12);
+        // Double root (z − 0.7)²: converges, slower, to 0.7.
+        assert!((largest_root_modulus(&[0.49, -1.4, 1.0]) - 0.7).abs() < 1e-6);
+    }
+
+    #[test]
+    fn delay_zero_closed_forms_match_the_iteration() {
+        // The d = 0 closed forms against the generic root finder on the same polynomials.
+        for (a, b) in [(0.3, 0.0), (1.7, 0.0), (0.4, 0.05), (0.9, 0.4), (0.2, 0.01)] {
+            let closed = mode_radius(a, b, 0, 1.0);
+            let iterated = if b == 0.0 {
+                libm::fabs(1.0 - a)
+            } else {
+                largest_root_modulus(&[1.0 - a + b, -(2.0 - a), 1.0])
+            };
+            assert!((closed - iterated).abs() < 1e-9, "a {a} b {b}");
+        }
+        assert!(mode_radius(f64::NAN, 0.0, 0, 1.0).is_nan());
+        assert!(mode_radius(0.1, 0.0, MAX_DELAY_UPDATES + 1, 1.0).is_nan());
+    }
+}

@@ -68,11 +68,18 @@ impl Graph {
     /// disconnected graphs too (then λ2 ≈ 0).
     ///
     /// # Errors
-    /// [`GraphError::TooLargeForDense`] above [`DENSE_MAX_NODES`] nodes.
+    /// [`GraphError::TooLargeForDense`] above [`DENSE_MAX_NODES`] nodes;
+    /// [`GraphError::NoConvergence`] if the eigensolver hits its iteration cap.
     pub fn dense_spectrum(&self) -> Result<DenseSpectrum, GraphError> {
         let l = self.laplacian_dense()?;
         let n = self.node_count();
-        let eig = SymmetricEigen::new(l);
+        // Capped iteration count: symmetric QR converges in O(N) sweeps, the cap only
+        // turns a pathological input into an error instead of a hang.
+        let eig = SymmetricEigen::try_new(l, f64::EPSILON, 1_000_000).ok_or(
+            GraphError::NoConvergence {
+                relative_residual: f64::NAN,
+            },
+        )?;
         let mut order: Vec<usize> = (0..n).collect();
         order.sort_by(|&a, &b| {
             let va = eig.eigenvalues.get(a).copied().unwrap_or(f64::INFINITY);

@@ -175,7 +175,9 @@ fn ritz(alphas: &[f64], betas: &[f64]) -> (f64, Vec<f64>) {
             0.0
         }
     });
-    let eig = SymmetricEigen::new(t);
+    let Some(eig) = SymmetricEigen::try_new(t, f64::EPSILON, 100_000) else {
+        return (f64::NAN, vec![0.0; m]);
+    };
     let mut best = 0;
     let mut theta = f64::NEG_INFINITY;
     for (k, &v) in eig.eigenvalues.iter().enumerate() {
@@ -301,6 +303,11 @@ fn lanczos_largest(
     best
 }
 
+/// Accept a Ritz pair whose residual is within √tolerance (NaN never passes).
+fn converged(r: &Ritz, tolerance: f64) -> bool {
+    r.value.is_finite() && r.value > 0.0 && r.relative_residual <= tolerance.sqrt()
+}
+
 impl Graph {
     /// λ2, λmax and the slowest mode by the sparse path with default options.
     ///
@@ -330,7 +337,7 @@ impl Graph {
         }
         let grounded = Grounded::new(self)?;
         let inverse = lanczos_largest(n, |x, y| grounded.apply(x, y), options, true);
-        if inverse.relative_residual > options.tolerance.sqrt() || inverse.value <= 0.0 {
+        if !converged(&inverse, options.tolerance) {
             return Err(GraphError::NoConvergence {
                 relative_residual: inverse.relative_residual,
             });
@@ -349,7 +356,7 @@ impl Graph {
         }
         let (shift, shifted) = factor.ok_or(GraphError::Factorization)?;
         let top = lanczos_largest(n, |x, y| shifted.apply(x, y), options, false);
-        if top.relative_residual > options.tolerance.sqrt() || top.value <= 0.0 {
+        if !converged(&top, options.tolerance) {
             return Err(GraphError::NoConvergence {
                 relative_residual: top.relative_residual,
             });

@@ -43,13 +43,17 @@ pub const MAX_GRAPH_NODES: usize = 1 << 28;
 /// Largest node count of the dense path (an N×N matrix of `f64`: 128 MB at 4,000).
 pub const DENSE_MAX_NODES: usize = 4000;
 
+/// Node count up to which [`Graph::summary`] and [`Graph::spectrum`] take the dense path
+/// (about a second at 1,000 nodes; the dense cost grows as N³); the sparse path above.
+pub const DENSE_AUTO_MAX_NODES: usize = 1000;
+
 /// Everything the checker reports about a graph's spectrum, in one call
 /// ([`Graph::summary`]).
 #[derive(Clone, Debug, PartialEq)]
 pub struct GraphSummary {
     /// The planner's input (λslow = λ2, λmax, degrees, connected or not).
     pub spectrum: Spectrum,
-    /// Every eigenvalue, ascending, when the dense path ran (`node_count ≤ DENSE_MAX_NODES`).
+    /// Every eigenvalue, ascending, when the dense path ran (`node_count ≤ DENSE_AUTO_MAX_NODES`).
     pub eigenvalues: Option<Vec<f64>>,
     /// The slowest mode's shape (largest magnitude 1); empty for a disconnected graph.
     pub slow_mode: Vec<f64>,
@@ -332,7 +336,7 @@ impl Graph {
     }
 
     /// The full report: spectrum summary, all eigenvalues and the flow factor where the
-    /// dense path applies, the slowest mode's shape. A disconnected graph is reported with
+    /// dense path applies (up to [`DENSE_AUTO_MAX_NODES`] nodes), the slowest mode's shape. A disconnected graph is reported with
     /// `connected: false` (no error; the planner refuses it with
     /// [`crate::plan::PlanError::Disconnected`]).
     ///
@@ -354,7 +358,7 @@ impl Graph {
             pinned: false,
             stable_twisted_states: 0,
         };
-        if self.nodes <= DENSE_MAX_NODES {
+        if self.nodes <= DENSE_AUTO_MAX_NODES {
             let d = self.dense_spectrum()?;
             let connected = self.is_connected();
             let lambda_slow = if connected { d.lambda2() } else { 0.0 };
@@ -390,7 +394,7 @@ impl Graph {
         }
     }
 
-    /// Spectrum summary for the planner: dense up to [`DENSE_MAX_NODES`] nodes, sparse
+    /// Spectrum summary for the planner: dense up to [`DENSE_AUTO_MAX_NODES`] nodes, sparse
     /// above (with `lambda_max` the sparse path's upper estimate). A disconnected graph
     /// gives `connected: false` and `lambda_slow: 0` (the planner then refuses it).
     ///
@@ -406,13 +410,13 @@ impl Graph {
         let (lambda_slow, lambda_max) = if !self.is_connected() {
             (
                 0.0,
-                if self.nodes <= DENSE_MAX_NODES {
+                if self.nodes <= DENSE_AUTO_MAX_NODES {
                     self.dense_spectrum()?.lambda_max()
                 } else {
                     2.0 * self.max_degree()
                 },
             )
-        } else if self.nodes <= DENSE_MAX_NODES {
+        } else if self.nodes <= DENSE_AUTO_MAX_NODES {
             let d = self.dense_spectrum()?;
             (d.lambda2(), d.lambda_max())
         } else {

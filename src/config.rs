@@ -168,6 +168,7 @@ impl Config {
 /// Builder for [`Config`]; every setter is `const`, so a configuration can be checked at
 /// compile time and live in a `const` or `static`.
 #[derive(Clone, Copy, PartialEq, Eq, Debug)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 #[must_use]
 pub struct ConfigBuilder {
     ticks_per_period: u32,

@@ -80,8 +80,11 @@ struct Entry {
 /// `phase += clamp(kp · Σ pull(Δ_j), ±slew_limit)` and
 /// `trim += ki · Σ pull(Δ_j) / update_ticks` (not while slew-limited; clamped to the trim
 /// range), where `Δ_j` is neighbour j's phase, extrapolated from its observation to now,
-/// minus this node's. One neighbour, however it lies, moves the node at most
-/// `slew_limit` counts per update.
+/// minus this node's. The new trim takes effect from the next update, so at update
+/// instants the node follows the PI model θ⁺ = θ + v − kp·Lθ, v⁺ = v − ki·Lθ exactly
+/// (v: the trim as phase per update), whose modes obey z² − (2 − kpλ)z + (1 − kpλ + kiλ).
+/// One neighbour, however it lies, moves the node at most `slew_limit` counts per
+/// update.
 ///
 /// The node never allocates and never panics. All arithmetic wraps or saturates
 /// explicitly, so the integer laws give the same bits on every target.
@@ -98,12 +101,15 @@ struct Entry {
 /// assert!(report.correction > 0); // pulled forward, toward the neighbour
 /// ```
 #[derive(Clone, Debug)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Node<const N: usize> {
     config: Config,
     /// Phase in Q32.32 counts.
     acc: u64,
-    /// Rate trim, Q32.32 counts per tick.
+    /// Rate trim in effect, Q32.32 counts per tick.
     trim: i64,
+    /// Rate trim that takes effect at the next update.
+    trim_next: i64,
     /// Local timer at the last advance.
     now: u32,
     /// Sum of all corrections applied (wrapping), the reference of `Entry::offset`.
@@ -125,6 +131,7 @@ impl<const N: usize> Node<N> {
             config,
             acc: (phase.counts() as u64) << 32,
             trim: 0,
+            trim_next: 0,
             now: now_ticks,
             corrections: 0,
             cycles: 0,
@@ -202,6 +209,7 @@ impl<const N: usize> Node<N> {
     pub const fn set_trim_ppb(&mut self, ppb: i32) {
         let raw = self.config.rate_nominal() as i128 * ppb as i128 / 1_000_000_000;
         self.trim = clamp_i128(raw, self.config.trim_limit_raw());
+        self.trim_next = self.trim;
     }
 
     /// Run the local clock to `now_ticks` (which must be within 2^31 ticks after the
@@ -282,6 +290,9 @@ impl<const N: usize> Node<N> {
     /// One step of the law, monomorphised per coupling so the neighbour loop has no
     /// dispatch in it.
     fn step<L: Coupling>(&mut self) -> UpdateReport {
+        // The trim integrated at the previous update takes effect now, for the period
+        // that starts here (v_k of the PI model; see the type's docs).
+        self.trim = self.trim_next;
         let now = self.now;
         let corrections = self.corrections;
         let timeout = self.config.timeout_ticks();
@@ -313,7 +324,8 @@ impl<const N: usize> Node<N> {
         }
         let raw = self.config.kp().apply(sum);
         let limit = i64::from(self.config.slew_limit());
-        let step = raw.clamp(-limit, limit);
+        // `max`/`min`, not `clamp`: `clamp` carries a panic path (min > max) into firmware.
+        let step = raw.max(-limit).min(limit);
         report.slew_limited = step != raw;
         // |step| ≤ slew_limit ≤ i32::MAX.
         report.correction = step as i32;
@@ -321,7 +333,7 @@ impl<const N: usize> Node<N> {
         if !report.slew_limited {
             let delta = mul_q16_sym(sum, self.config.ki_tick());
             let limit = self.config.trim_limit_raw();
-            self.trim = self.trim.saturating_add(delta).clamp(-limit, limit);
+            self.trim_next = self.trim.saturating_add(delta).max(-limit).min(limit);
         }
         report
     }

@@ -19,6 +19,8 @@ mod node;
 mod phase;
 #[cfg(feature = "hal")]
 pub mod pulse;
+#[cfg(feature = "sim")]
+pub mod sim;
 
 pub use config::{Config, ConfigBuilder, ConfigError, MAX_TRIM_LIMIT_PPB};
 pub use gain::{GAIN_FRAC_BITS, Gain};

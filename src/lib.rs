@@ -27,3 +27,7 @@ pub use gain::{GAIN_FRAC_BITS, Gain};
 pub use law::Law;
 pub use node::{Node, NodeId, Observation, TableFull, UpdateReport};
 pub use phase::Phase;
+#[cfg(feature = "check")]
+pub mod graph;
+#[cfg(feature = "plan")]
+pub mod plan;

@@ -25,7 +25,9 @@ fn config(law: Law, kp: f32, ki: f32) -> Config {
 /// reboot.
 fn messy_ring() -> Scenario {
     let mut s = Scenario::new(Links::ring(10).unwrap(), config(Law::Sine, 0.4, 0.02), 1e6);
-    s.crystals = Crystals::Uniform { tolerance_ppm: 30.0 };
+    s.crystals = Crystals::Uniform {
+        tolerance_ppm: 30.0,
+    };
     s.schedule = Schedule {
         random_start: true,
         jitter_ticks: 200,
@@ -122,7 +124,9 @@ fn lock_step_shortcut_is_bit_identical_to_the_event_queue() {
 #[test]
 fn a_rebooted_node_rejoins_and_the_network_relocks() {
     let mut s = Scenario::new(Links::chain(6).unwrap(), config(Law::Sine, 0.4, 0.02), 1e6);
-    s.crystals = Crystals::Uniform { tolerance_ppm: 20.0 };
+    s.crystals = Crystals::Uniform {
+        tolerance_ppm: 20.0,
+    };
     s.schedule = Schedule {
         random_start: true,
         jitter_ticks: 100,
@@ -183,14 +187,21 @@ fn ring_twisted_states_stick_or_unwind_as_published() {
     // exactly those among the runs that never locked.
     let twisted = summary.outcomes.iter().filter(|o| o.twisted()).count();
     assert_eq!(summary.twisted_fraction, Some(twisted as f64 / 32.0));
-    assert!(summary.outcomes.iter().all(|o| o.lock.is_none() || !o.twisted()));
+    assert!(
+        summary
+            .outcomes
+            .iter()
+            .all(|o| o.lock.is_none() || !o.twisted())
+    );
 }
 
 #[test]
 fn summary_sets_the_simulation_beside_the_prediction() {
     // The footbridge string of the module example, ±20 ppm crystals.
     let mut s = Scenario::new(Links::chain(12).unwrap(), config(Law::Sine, 0.4, 0.02), 1e6);
-    s.crystals = Crystals::Uniform { tolerance_ppm: 20.0 };
+    s.crystals = Crystals::Uniform {
+        tolerance_ppm: 20.0,
+    };
     s.schedule = Schedule {
         random_start: true,
         jitter_ticks: 50,
@@ -241,7 +252,11 @@ fn bad_input_is_an_error_not_a_panic() {
     for f in [
         |s: &mut Scenario| s.tick_hz = 0.0,
         |s: &mut Scenario| s.crystals = Crystals::Fixed(vec![0.0; 3]),
-        |s: &mut Scenario| s.crystals = Crystals::Uniform { tolerance_ppm: -1.0 },
+        |s: &mut Scenario| {
+            s.crystals = Crystals::Uniform {
+                tolerance_ppm: -1.0,
+            }
+        },
         |s: &mut Scenario| s.beacons.success_prob = 0.0,
         |s: &mut Scenario| s.beacons.success_prob = f64::NAN,
         |s: &mut Scenario| s.start = StartPhases::Fixed(vec![f64::INFINITY; 4]),
@@ -276,7 +291,11 @@ fn bad_input_is_an_error_not_a_panic() {
     );
     assert!(matches!(
         Network::<2>::new(&star, 0, 0),
-        Err(SimError::DegreeTooHigh { degree: 5, max: 2, .. })
+        Err(SimError::DegreeTooHigh {
+            degree: 5,
+            max: 2,
+            ..
+        })
     ));
     assert!(run_once(&star, 0, 0).is_ok());
     // An unstable gain still simulates; the prediction says why it refuses.
@@ -286,4 +305,43 @@ fn bad_input_is_an_error_not_a_panic() {
     let sum = monte_carlo(&hot, 2, 0, &|_| {}).unwrap();
     assert!(sum.prediction.is_err() || !sum.prediction.as_ref().unwrap().stability.stable);
     assert_eq!(sum.accuracy, None);
+}
+
+/// Reception timestamps are unbiased, so the PI integrators only trim the crystals: the
+/// trims stay within the crystal spread instead of ramping the whole string's rate to
+/// the trim limit (which a half-tick timestamp bias would do), and every run locks.
+#[test]
+fn pi_trims_stay_within_the_crystal_spread() {
+    let c = Config::builder(10_000, 10_000)
+        .law(Law::Sine)
+        .kp(Gain::from_f32(0.3).unwrap())
+        .ki(Gain::from_f32(0.02).unwrap())
+        .build()
+        .unwrap();
+    let mut s = Scenario::new(Links::chain(24).unwrap(), c, 1e6);
+    s.crystals = Crystals::Uniform {
+        tolerance_ppm: 20.0,
+    };
+    s.schedule = Schedule {
+        random_start: true,
+        jitter_ticks: 100,
+    };
+    s.start = StartPhases::Uniform { spread_turns: 0.2 };
+    s.lock = LockCriterion {
+        tolerance_turns: 1e-3,
+        hold_updates: 2_000,
+    };
+    s.horizon_updates = 5_000;
+    let mut net = Network::<2>::new(&s, 8, 0).unwrap();
+    let o = net.run(None);
+    assert!(o.lock.is_some(), "{o:?}");
+    for i in 0..24 {
+        let trim_ppm = f64::from(net.node(i).unwrap().trim_ppb()) / 1000.0;
+        let crystal = net.crystal_ppm(i).unwrap();
+        // Trim undoes the crystal up to the common rate, itself within the spread.
+        assert!(
+            (trim_ppm + crystal).abs() <= 20.0,
+            "node {i}: trim {trim_ppm} ppm, crystal {crystal} ppm"
+        );
+    }
 }

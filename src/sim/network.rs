@@ -14,6 +14,12 @@
 //! updates and zero latency every node uses its neighbours' phases of the same instant
 //! (a Jacobi step, x⁺ = (I − kp·L)x for the linear law).
 //!
+//! Reception timestamps are the receiver's timer to the *nearest* tick (error within
+//! ±½ tick, zero mean), plus the scenario's timestamp jitter. A firmware that reads the
+//! completed tick count should add half a tick: left in, the half-tick bias makes every
+//! node see every neighbour slightly ahead, and the PI integrators then ramp the whole
+//! network's rate until the trim limit.
+//!
 //! The network error is sampled once per nominal update interval, half an interval after
 //! each nominal update instant: sample k, at `(k + ½)` intervals, sees the state after
 //! the k-th update round (round 0 has no beacons yet, so sample 0 is the start spread).
@@ -75,6 +81,12 @@ impl Timer {
     fn local_at(&self, t: u64) -> u64 {
         let span = u128::from(t.saturating_sub(self.t0));
         self.l0 + ((span * u128::from(self.fwd)) >> 48) as u64
+    }
+
+    /// Local ticks (unwrapped) nearest to real time `t`: an unbiased reception timestamp.
+    fn nearest_at(&self, t: u64) -> u64 {
+        let span = u128::from(t.saturating_sub(self.t0));
+        self.l0 + ((span * u128::from(self.fwd) + (1 << 47)) >> 48) as u64
     }
 
     /// Real time, sub-ticks, at which the timer reads `local`.
@@ -508,7 +520,7 @@ impl<const N: usize> Network<N> {
                 self.stats.beacons_lost += 1;
                 continue;
             }
-            let mut rx_ticks = rx.timer.local_at(arrive) as u32;
+            let mut rx_ticks = rx.timer.nearest_at(arrive) as u32;
             if self.ts_jitter > 0 {
                 let j = self.ts_jitter as i32;
                 rx_ticks = rx_ticks.wrapping_add_signed(self.rng.random_range(-j..=j));

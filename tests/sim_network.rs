@@ -345,3 +345,33 @@ fn pi_trims_stay_within_the_crystal_spread() {
         );
     }
 }
+
+/// A chain pinned to a reference (a node disciplined by an external clock): the
+/// reference beacons but never adjusts, and the string locks onto it.
+#[test]
+fn pinned_chain_follows_its_reference() {
+    let links = Links::from_topology(&Topology::PinnedChain { nodes: 5 }).unwrap();
+    let reference = links.reference().unwrap();
+    let mut s = Scenario::new(links, config(Law::Sine, 0.4, 0.02), 1e6);
+    s.crystals = Crystals::Uniform {
+        tolerance_ppm: 20.0,
+    };
+    s.schedule = Schedule {
+        random_start: true,
+        jitter_ticks: 100,
+    };
+    s.start = StartPhases::Uniform { spread_turns: 0.2 };
+    let mut net = Network::<2>::new(&s, 6, 0).unwrap();
+    let o = net.run(None);
+    assert!(o.lock.is_some(), "{o:?}");
+    let r = net.node(reference).unwrap();
+    assert_eq!((r.neighbour_count(), r.trim_ppb()), (0, 0));
+    assert_eq!(net.crystal_ppm(reference), Some(0.0));
+    // Only the five string nodes ran the law (one update per interval each, give or
+    // take the last round).
+    let rounds = o.samples;
+    assert!(o.stats.node_updates <= 5 * (rounds + 1) && o.stats.node_updates + 5 >= 5 * rounds);
+    // The planner sees a pinned spectrum for the same scenario.
+    let p = entrain::sim::predict(&s).unwrap();
+    assert!(p.spectrum.pinned && p.stability.stable);
+}

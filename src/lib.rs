@@ -14,6 +14,8 @@
 
 mod config;
 mod gain;
+#[cfg(feature = "cli")]
+pub mod cli;
 pub mod law;
 mod node;
 mod phase;

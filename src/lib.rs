@@ -16,9 +16,13 @@ mod config;
 mod gain;
 #[cfg(feature = "cli")]
 pub mod cli;
+#[cfg(feature = "check")]
+pub mod graph;
 pub mod law;
 mod node;
 mod phase;
+#[cfg(feature = "plan")]
+pub mod plan;
 #[cfg(feature = "hal")]
 pub mod pulse;
 

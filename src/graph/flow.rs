@@ -1,0 +1,59 @@
+//! Steady edge flows of the P-only law on a general graph (Dörfler, Chertkov & Bullo,
+//! PNAS 110, 2013): the linearised steady state `θ = L†ω̃/kp` puts flow `Bᵀ L† ω̃` on the
+//! edges (turns per update, ω̃ the drift minus its mean). The law locks if every flow is
+//! at most the edge capacity (`kp/(2π)` sine, `kp/2` linear); sufficient, exact on trees.
+
+use super::sparse::Grounded;
+use super::{DENSE_MAX_NODES, Graph, GraphError};
+
+impl Graph {
+    /// Flow on each edge (in [`Graph::edges`] order, from `a` to `b`) for node drifts
+    /// `drift` (any unit per update; the mean is removed), weighted: `w_e·(x_a − x_b)`
+    /// with `x = L†·drift`.
+    ///
+    /// # Errors
+    /// [`GraphError::WrongLength`], [`GraphError::NotFinite`], [`GraphError::Disconnected`],
+    /// [`GraphError::Factorization`].
+    pub fn edge_flows(&self, drift: &[f64]) -> Result<Vec<f64>, GraphError> {
+        if drift.len() != self.node_count() {
+            return Err(GraphError::WrongLength { needed: self.node_count(), got: drift.len() });
+        }
+        if drift.iter().any(|d| !d.is_finite()) {
+            return Err(GraphError::NotFinite { name: "drift" });
+        }
+        let grounded = Grounded::new(self)?;
+        let mut x = vec![0.0; drift.len()];
+        grounded.apply(drift, &mut x);
+        Ok(self
+            .edges()
+            .iter()
+            .map(|e| e.weight * (x.get(e.a).copied().unwrap_or(0.0) - x.get(e.b).copied().unwrap_or(0.0)))
+            .collect())
+    }
+
+    /// Worst edge load per unit detuning: `max over edges e of ‖w_e·L†b_e‖₁`, so drifts
+    /// within `±w` load no edge beyond `w ×` this (the input of
+    /// [`crate::plan::lock_worst_case`]). Dense `L†` via the eigen-decomposition; O(N³).
+    ///
+    /// # Errors
+    /// [`GraphError::Disconnected`], [`GraphError::TooLargeForDense`].
+    pub fn worst_flow_factor(&self) -> Result<f64, GraphError> {
+        self.require_connected()?;
+        if self.node_count() > DENSE_MAX_NODES {
+            return Err(GraphError::TooLargeForDense { nodes: self.node_count(), max: DENSE_MAX_NODES });
+        }
+        let n = self.node_count();
+        // L† = (L + J/n)⁻¹ − J/n for a connected graph.
+        let l = self.laplacian_dense()?;
+        let shifted = l.add_scalar(1.0 / n as f64);
+        let inverse = shifted.cholesky().ok_or(GraphError::Factorization)?.inverse();
+        let pinv = inverse.add_scalar(-1.0 / n as f64);
+        let mut worst = 0.0_f64;
+        for e in self.edges() {
+            let (ca, cb) = (pinv.column(e.a), pinv.column(e.b));
+            let load: f64 = ca.iter().zip(cb.iter()).map(|(x, y)| (x - y).abs()).sum();
+            worst = worst.max(e.weight * load);
+        }
+        Ok(worst)
+    }
+}

@@ -1,0 +1,309 @@
+//! Arbitrary coupling graphs and their numeric Laplacian spectra (host only, `std`).
+//!
+//! A [`Graph`] is built from an edge list with optional positive weights and validated
+//! (no self-loops, no duplicates, indices in range). Its spectrum comes from a dense
+//! symmetric eigen-decomposition (`nalgebra`) up to [`DENSE_MAX_NODES`] nodes, or from
+//! Lanczos iteration for λ2 and λmax on large sparse graphs (λ2 by inverse iteration on
+//! the pseudo-inverse, applied through a sparse Cholesky factorisation of the grounded
+//! Laplacian with `faer`). The slowest mode's eigenvector comes with either.
+//!
+//! # Example
+//!
+//! A courtyard lighting ring of 8 fixtures with one cross cable:
+//!
+//! ```
+//! use entrain::graph::Graph;
+//!
+//! let mut edges: Vec<(usize, usize)> = (0..8).map(|i| (i, (i + 1) % 8)).collect();
+//! edges.push((0, 4));
+//! let g = Graph::from_edges(8, &edges)?;
+//! let dense = g.dense_spectrum()?;
+//! let sparse = g.sparse_spectrum()?;
+//! assert!((dense.lambda2() - sparse.lambda2).abs() < 1e-9);
+//! let summary = g.spectrum()?; // feeds entrain::plan::{stability, settle, tune}
+//! assert!(summary.connected && summary.lambda_slow > 0.0);
+//! # Ok::<(), entrain::graph::GraphError>(())
+//! ```
+
+mod dense;
+mod error;
+mod flow;
+mod sparse;
+
+pub use dense::DenseSpectrum;
+pub use error::GraphError;
+pub use sparse::{SparseOptions, SparseSpectrum};
+
+use crate::plan::{Spectrum, Topology};
+
+/// Largest node count of the dense path (an N×N matrix of `f64`: 128 MB at 4,000).
+pub const DENSE_MAX_NODES: usize = 4000;
+
+/// One undirected edge with its weight (coupling strength relative to a plain link).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Edge {
+    /// One end.
+    pub a: usize,
+    /// The other end.
+    pub b: usize,
+    /// Weight, finite and `> 0` (1 for a plain link).
+    pub weight: f64,
+}
+
+/// A validated undirected weighted graph with adjacency lists.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Graph {
+    nodes: usize,
+    edges: Vec<Edge>,
+    /// `offsets[i]..offsets[i+1]` indexes `neighbours` for node i.
+    offsets: Vec<usize>,
+    neighbours: Vec<(usize, f64)>,
+    degrees: Vec<f64>,
+    components: usize,
+}
+
+impl Graph {
+    /// Build from unweighted edges (weight 1).
+    ///
+    /// # Errors
+    /// See [`Self::from_weighted_edges`].
+    pub fn from_edges(nodes: usize, edges: &[(usize, usize)]) -> Result<Self, GraphError> {
+        let weighted: Vec<(usize, usize, f64)> = edges.iter().map(|&(a, b)| (a, b, 1.0)).collect();
+        Self::from_weighted_edges(nodes, &weighted)
+    }
+
+    /// Build from weighted edges `(a, b, weight)`. A disconnected graph is accepted here
+    /// (see [`Self::component_count`]); the spectrum methods report it.
+    ///
+    /// # Errors
+    /// [`GraphError::NoNodes`], [`GraphError::NodeOutOfRange`], [`GraphError::SelfLoop`],
+    /// [`GraphError::DuplicateEdge`], [`GraphError::BadWeight`].
+    pub fn from_weighted_edges(nodes: usize, edges: &[(usize, usize, f64)]) -> Result<Self, GraphError> {
+        if nodes == 0 {
+            return Err(GraphError::NoNodes);
+        }
+        let mut seen = std::collections::HashMap::with_capacity(edges.len());
+        let mut list = Vec::with_capacity(edges.len());
+        for (index, &(a, b, weight)) in edges.iter().enumerate() {
+            for node in [a, b] {
+                if node >= nodes {
+                    return Err(GraphError::NodeOutOfRange { edge: index, node, nodes });
+                }
+            }
+            if a == b {
+                return Err(GraphError::SelfLoop { edge: index, node: a });
+            }
+            if !(weight.is_finite() && weight > 0.0) {
+                return Err(GraphError::BadWeight { edge: index });
+            }
+            if let Some(&first) = seen.get(&(a.min(b), a.max(b))) {
+                return Err(GraphError::DuplicateEdge { first, second: index });
+            }
+            seen.insert((a.min(b), a.max(b)), index);
+            list.push(Edge { a, b, weight });
+        }
+        let mut counts = vec![0_usize; nodes + 1];
+        for e in &list {
+            for node in [e.a, e.b] {
+                if let Some(c) = counts.get_mut(node + 1) {
+                    *c += 1;
+                }
+            }
+        }
+        let mut offsets = counts;
+        for i in 1..offsets.len() {
+            let prev = offsets.get(i - 1).copied().unwrap_or(0);
+            if let Some(o) = offsets.get_mut(i) {
+                *o += prev;
+            }
+        }
+        let mut fill = offsets.clone();
+        let mut neighbours = vec![(0_usize, 0.0_f64); 2 * list.len()];
+        let mut degrees = vec![0.0_f64; nodes];
+        for e in &list {
+            for (from, to) in [(e.a, e.b), (e.b, e.a)] {
+                if let Some(pos) = fill.get_mut(from) {
+                    if let Some(slot) = neighbours.get_mut(*pos) {
+                        *slot = (to, e.weight);
+                    }
+                    *pos += 1;
+                }
+                if let Some(d) = degrees.get_mut(from) {
+                    *d += e.weight;
+                }
+            }
+        }
+        let mut graph = Self { nodes, edges: list, offsets, neighbours, degrees, components: 0 };
+        graph.components = graph.count_components();
+        Ok(graph)
+    }
+
+    /// The graph of a closed-form topology (node numbering as in [`Topology`]). A pinned
+    /// chain becomes a chain of `nodes + 1` with the reference as the last node.
+    ///
+    /// # Errors
+    /// [`GraphError::NoNodes`] if the topology is invalid.
+    pub fn from_topology(topology: &Topology) -> Result<Self, GraphError> {
+        topology.validate().map_err(|_| GraphError::NoNodes)?;
+        let mut edges = Vec::new();
+        let n = topology.node_count();
+        match *topology {
+            Topology::Chain { nodes } => edges.extend((1..nodes).map(|i| (i - 1, i))),
+            Topology::PinnedChain { nodes } => {
+                edges.extend((1..nodes).map(|i| (i - 1, i)));
+                edges.push((0, nodes));
+                return Self::from_edges(nodes + 1, &edges);
+            }
+            Topology::Ring { nodes } => edges.extend((0..nodes).map(|i| (i, (i + 1) % nodes))),
+            Topology::Star { nodes } => edges.extend((1..nodes).map(|i| (0, i))),
+            Topology::Complete { nodes } => {
+                for i in 0..nodes {
+                    edges.extend((i + 1..nodes).map(|j| (i, j)));
+                }
+            }
+            Topology::Grid { rows, cols } => {
+                for r in 0..rows {
+                    for c in 0..cols {
+                        let i = r * cols + c;
+                        if c + 1 < cols {
+                            edges.push((i, i + 1));
+                        }
+                        if r + 1 < rows {
+                            edges.push((i, i + cols));
+                        }
+                    }
+                }
+            }
+            Topology::Torus { rows, cols } => {
+                for r in 0..rows {
+                    for c in 0..cols {
+                        let i = r * cols + c;
+                        edges.push((i, r * cols + (c + 1) % cols));
+                        edges.push((i, ((r + 1) % rows) * cols + c));
+                    }
+                }
+            }
+        }
+        Self::from_edges(n, &edges)
+    }
+
+    /// Number of nodes.
+    pub fn node_count(&self) -> usize {
+        self.nodes
+    }
+
+    /// The validated edges, in input order.
+    pub fn edges(&self) -> &[Edge] {
+        &self.edges
+    }
+
+    /// Neighbours of `node` with the edge weights (empty for an unknown node).
+    pub fn neighbours(&self, node: usize) -> &[(usize, f64)] {
+        let start = self.offsets.get(node).copied().unwrap_or(0);
+        let end = self.offsets.get(node + 1).copied().unwrap_or(start);
+        self.neighbours.get(start..end).unwrap_or(&[])
+    }
+
+    /// Weighted degree of every node.
+    pub fn degrees(&self) -> &[f64] {
+        &self.degrees
+    }
+
+    /// Largest weighted degree.
+    pub fn max_degree(&self) -> f64 {
+        self.degrees.iter().copied().fold(0.0, f64::max)
+    }
+
+    /// Number of connected components (1 = connected).
+    pub fn component_count(&self) -> usize {
+        self.components
+    }
+
+    /// Whether every node can reach every other.
+    pub fn is_connected(&self) -> bool {
+        self.components == 1
+    }
+
+    /// Fail with [`GraphError::Disconnected`] unless connected.
+    pub fn require_connected(&self) -> Result<(), GraphError> {
+        if self.is_connected() {
+            Ok(())
+        } else {
+            Err(GraphError::Disconnected { components: self.components })
+        }
+    }
+
+    /// `y = L·x` for the weighted Laplacian `L = D − A`.
+    ///
+    /// # Errors
+    /// [`GraphError::WrongLength`] unless both slices have `node_count()` entries.
+    pub fn laplacian_times(&self, x: &[f64], y: &mut [f64]) -> Result<(), GraphError> {
+        for len in [x.len(), y.len()] {
+            if len != self.nodes {
+                return Err(GraphError::WrongLength { needed: self.nodes, got: len });
+            }
+        }
+        for (i, out) in y.iter_mut().enumerate() {
+            let xi = x.get(i).copied().unwrap_or(0.0);
+            *out = self.neighbours(i).iter().map(|&(j, w)| w * (xi - x.get(j).copied().unwrap_or(0.0))).sum();
+        }
+        Ok(())
+    }
+
+    fn count_components(&self) -> usize {
+        let mut seen = vec![false; self.nodes];
+        let mut stack = Vec::new();
+        let mut count = 0;
+        for start in 0..self.nodes {
+            if seen.get(start).copied().unwrap_or(true) {
+                continue;
+            }
+            count += 1;
+            stack.push(start);
+            if let Some(s) = seen.get_mut(start) {
+                *s = true;
+            }
+            while let Some(i) = stack.pop() {
+                for &(j, _) in self.neighbours(i) {
+                    if let Some(s) = seen.get_mut(j) {
+                        if !*s {
+                            *s = true;
+                            stack.push(j);
+                        }
+                    }
+                }
+            }
+        }
+        count
+    }
+
+    /// Spectrum summary for the planner: dense up to [`DENSE_MAX_NODES`] nodes, sparse
+    /// above (with `lambda_max` the sparse path's upper estimate). A disconnected graph
+    /// gives `connected: false` and `lambda_slow: 0` (the planner then refuses it).
+    ///
+    /// # Errors
+    /// [`GraphError::TooSmall`] for a single node; sparse-path errors.
+    pub fn spectrum(&self) -> Result<Spectrum, GraphError> {
+        if self.nodes < 2 {
+            return Err(GraphError::TooSmall { nodes: self.nodes, min: 2 });
+        }
+        let (lambda_slow, lambda_max) = if !self.is_connected() {
+            (0.0, if self.nodes <= DENSE_MAX_NODES { self.dense_spectrum()?.lambda_max() } else { 2.0 * self.max_degree() })
+        } else if self.nodes <= DENSE_MAX_NODES {
+            let d = self.dense_spectrum()?;
+            (d.lambda2(), d.lambda_max())
+        } else {
+            let s = self.sparse_spectrum()?;
+            (s.lambda2, s.lambda_max_upper)
+        };
+        Ok(Spectrum {
+            node_count: self.nodes,
+            lambda_slow,
+            lambda_max,
+            max_degree: self.max_degree(),
+            connected: self.is_connected(),
+            pinned: false,
+            stable_twisted_states: 0,
+        })
+    }
+}

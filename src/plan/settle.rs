@@ -1,0 +1,232 @@
+//! Settling-time prediction: from an initial spread to a lock tolerance.
+//!
+//! Phase error is the largest pairwise wrapped difference between nodes (for a pinned
+//! network: the largest offset from the reference), in turns or, times the phase period,
+//! in seconds.
+
+use core::f64::consts::PI;
+
+use super::error::{PlanError, positive};
+use super::model::{Law, MAX_DELAY_UPDATES, Model};
+use super::stability::radii;
+use super::spectrum::Spectrum;
+
+/// Largest asymptotic update count for which the worst-case bound of a PI or delayed law
+/// is computed by running the mode recurrences (the horizon is 4× this).
+pub const BOUND_ITERATION_CAP_UPDATES: f64 = 2.5e6;
+
+/// The initial spread and the tolerance a lock must reach, in seconds of phase.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Spread {
+    /// Largest pairwise phase difference at start, seconds (`> tolerance_s`). Half a phase
+    /// period or more gets a warning: no guarantee of lock.
+    pub initial_spread_s: f64,
+    /// Lock tolerance: largest pairwise phase difference counted as locked, seconds (`> 0`).
+    pub tolerance_s: f64,
+}
+
+/// Conditions under which a prediction is weaker than it looks.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub struct SettleWarnings {
+    /// The initial spread is half a turn or more: nodes may lock the wrong way round or
+    /// not at all; the prediction does not hold (Dörfler & Bullo 2014 need an open half
+    /// circle).
+    pub spread_half_turn_or_more: bool,
+    /// The ring has stable twisted states (|q| < N/4, Wiley, Strogatz & Girvan 2006): a
+    /// large initial spread can leave it wound up for good.
+    pub twisted_states_possible: bool,
+    /// The first corrections exceed the slew limit (`kp · max_degree · spread` above
+    /// `slew_limit_turns`): the early phase is slew-limited and slower than predicted.
+    pub slew_limited: bool,
+    /// The worst-case bound was not computed (PI or delayed law with a very slow mode).
+    pub bound_not_computed: bool,
+}
+
+/// Predicted settling of the node law from [`Spread::initial_spread_s`] to
+/// [`Spread::tolerance_s`].
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Settling {
+    /// Initial spread, turns.
+    pub initial_spread_turns: f64,
+    /// Tolerance, turns.
+    pub tolerance_turns: f64,
+    /// Dominant-mode estimate `⌈ln(tol/e0)/ln ρ⌉`, updates (standard control practice).
+    pub asymptotic_updates: u64,
+    /// [`Self::asymptotic_updates`] times the update period, seconds.
+    pub asymptotic_s: f64,
+    /// Worst-case bound over all initial conditions with this spread: the first update
+    /// after which `C·e0·max_k|h_k(t)| ≤ tol` for good, with `C` the modal projection
+    /// constant ([`Spectrum::projection_constant`]) and `h_k` mode k's response. Closed
+    /// form `⌈ln(tol/(C·e0))/ln ρ⌉` for the undelayed P-only law; mode recurrences run
+    /// to 4× the asymptotic count otherwise. `None` if not computed (see warnings).
+    pub bound_updates: Option<u64>,
+    /// [`Self::bound_updates`] in seconds.
+    pub bound_s: Option<f64>,
+    /// Asymptotic estimate of the mean error with message loss (gains × p; Kar & Moura
+    /// 2008), updates.
+    pub with_loss_updates: u64,
+    /// [`Self::with_loss_updates`] in seconds.
+    pub with_loss_s: f64,
+    /// Sine law only: `sinc(2π·e0) = sin(2πe0)/(2πe0)`, the factor by which the large-spread
+    /// coupling is weaker than the small-signal one (Dörfler & Bullo 2014).
+    pub sine_rate_factor: Option<f64>,
+    /// Sine law only, spread below half a turn: `ln(tan(π·e0)/tan(π·tol)) / (−ln ρ)`
+    /// updates — the dominant-mode rate with the sinc reduction integrated as the spread
+    /// shrinks (`ds/dt = −r·sin(2πs)/(2π)`, own derivation from Dörfler & Bullo's bound).
+    pub sine_updates: Option<u64>,
+    /// [`Self::sine_updates`] in seconds.
+    pub sine_s: Option<f64>,
+    /// Lower bound set by the slew limit: the spread shrinks by at most
+    /// `2·slew_limit_turns` per update (`slew_limit_turns` when pinned), updates.
+    pub slew_floor_updates: u64,
+    /// What to distrust.
+    pub warnings: SettleWarnings,
+}
+
+fn to_updates(x: f64) -> u64 {
+    if x.is_nan() || x <= 0.0 {
+        0
+    } else {
+        // Saturating float-to-int conversion; values beyond u64 clamp to u64::MAX.
+        libm::ceil(x) as u64
+    }
+}
+
+/// Response of one mode, started at 1 with a history of 1 (static before start) and no
+/// trim: `θ⁺ = θ + v − a·θ[t−d]`, `v⁺ = v − b·θ[t−d]`. Returns the last update at which
+/// `|θ| > threshold`, running to `horizon` updates.
+fn last_exceedance(a: f64, b: f64, delay_updates: u32, threshold: f64, horizon: u64) -> u64 {
+    let d = delay_updates as usize;
+    let mut history = [1.0_f64; MAX_DELAY_UPDATES as usize + 1];
+    let len = d + 1;
+    let mut head = 0_usize; // index of θ[t]; θ[t−d] is at (head + 1) % len
+    let mut v = 0.0_f64;
+    let mut last = 0_u64;
+    for t in 1..=horizon {
+        let now = history.get(head).copied().unwrap_or(0.0);
+        let old_index = (head + 1) % len;
+        let old = history.get(old_index).copied().unwrap_or(0.0);
+        let next = now + v - a * old;
+        v -= b * old;
+        head = old_index;
+        if let Some(slot) = history.get_mut(head) {
+            *slot = next;
+        }
+        if libm::fabs(next) > threshold {
+            last = t;
+        }
+    }
+    last
+}
+
+/// Predict settling of `model` on `spectrum` for `spread`.
+///
+/// # Errors
+/// [`PlanError::InvalidParameter`] for a non-positive or NaN spread or tolerance;
+/// [`PlanError::ToleranceNotBelowSpread`]; [`PlanError::Unstable`]; and the model and
+/// spectrum validation errors.
+pub fn settle(model: &Model, spectrum: &Spectrum, spread: &Spread) -> Result<Settling, PlanError> {
+    settle_with(model, spectrum, spread, true)
+}
+
+/// [`settle`], optionally skipping the recurrence runs of the PI/delayed bound (the
+/// tuner scans many gains and checks the bound only for the ones it reports).
+pub(crate) fn settle_with(
+    model: &Model,
+    spectrum: &Spectrum,
+    spread: &Spread,
+    run_recurrences: bool,
+) -> Result<Settling, PlanError> {
+    positive(spread.initial_spread_s, "initial_spread_s")?;
+    positive(spread.tolerance_s, "tolerance_s")?;
+    if spread.tolerance_s >= spread.initial_spread_s {
+        return Err(PlanError::ToleranceNotBelowSpread);
+    }
+    model.validate()?;
+    spectrum.validate()?;
+    let (radius_slow, radius_fast, mean_radius_with_loss) = radii(model, spectrum);
+    let radius = radius_slow.max(radius_fast);
+    if radius.is_nan() || radius >= 1.0 {
+        return Err(PlanError::Unstable);
+    }
+    let e0 = model.seconds_to_turns(spread.initial_spread_s);
+    let tol = model.seconds_to_turns(spread.tolerance_s);
+    let period = model.update_period_s;
+    let ln_ratio = libm::log(tol / e0); // < 0
+    let steps_at = |rho: f64, ln_target: f64| {
+        if rho <= 0.0 {
+            1.0
+        } else {
+            ln_target / libm::log(rho)
+        }
+    };
+    let asymptotic = steps_at(radius, ln_ratio);
+    let with_loss = if mean_radius_with_loss < 1.0 {
+        steps_at(mean_radius_with_loss, ln_ratio)
+    } else {
+        f64::INFINITY
+    };
+
+    let c = spectrum.projection_constant();
+    let mut warnings = SettleWarnings::default();
+    let threshold = tol / (c * e0);
+    let bound = if !model.is_pi() && model.delay_updates == 0 {
+        // ‖(I − kp·L) restricted to the disagreement space‖₂ = ρ (symmetric L).
+        Some(steps_at(radius, libm::log(threshold)).max(0.0))
+    } else {
+        let per_mode = steps_at(radius, libm::log(threshold));
+        if !run_recurrences {
+            // Normal-matrix form, ignoring the transient of the non-normal mode matrices.
+            Some(per_mode.max(0.0))
+        } else if per_mode.is_finite() && per_mode <= BOUND_ITERATION_CAP_UPDATES {
+            let horizon = to_updates(4.0 * per_mode + 100.0);
+            let run = |lambda: f64| {
+                last_exceedance(model.kp * lambda, model.ki * lambda, model.delay_updates, threshold, horizon)
+            };
+            Some(run(spectrum.lambda_slow).max(run(spectrum.lambda_max)) as f64)
+        } else {
+            warnings.bound_not_computed = true;
+            None
+        }
+    };
+
+    let (sine_rate_factor, sine_updates) = match model.law {
+        Law::Sine => {
+            let x = 2.0 * PI * e0;
+            let factor = libm::sin(x) / x;
+            let updates = if e0 < 0.5 && radius > 0.0 {
+                let num = libm::log(libm::tan(PI * e0) / libm::tan(PI * tol));
+                Some(to_updates(num / -libm::log(radius)))
+            } else {
+                None
+            };
+            (Some(factor), updates)
+        }
+        Law::Linear => (None, None),
+    };
+
+    warnings.spread_half_turn_or_more = e0 >= 0.5;
+    warnings.twisted_states_possible = spectrum.stable_twisted_states > 0 && e0 >= 0.5;
+    warnings.slew_limited = model.kp * spectrum.max_degree * e0 > model.slew_limit_turns;
+    let shrink_per_update = if spectrum.pinned { model.slew_limit_turns } else { 2.0 * model.slew_limit_turns };
+    let slew_floor = (e0 - tol) / shrink_per_update;
+
+    let bound_updates = bound.map(to_updates);
+    let asymptotic_updates = to_updates(asymptotic);
+    let with_loss_updates = to_updates(with_loss);
+    Ok(Settling {
+        initial_spread_turns: e0,
+        tolerance_turns: tol,
+        asymptotic_updates,
+        asymptotic_s: asymptotic_updates as f64 * period,
+        bound_updates,
+        bound_s: bound_updates.map(|u| u as f64 * period),
+        with_loss_updates,
+        with_loss_s: with_loss_updates as f64 * period,
+        sine_rate_factor,
+        sine_updates,
+        sine_s: sine_updates.map(|u| u as f64 * period),
+        slew_floor_updates: to_updates(slew_floor),
+        warnings,
+    })
+}

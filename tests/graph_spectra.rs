@@ -1,0 +1,146 @@
+//! The numeric graph path: validation, dense vs nalgebra, sparse vs dense (proptest),
+//! sparse vs the chain closed form at 100,000 nodes, edge flows vs partial sums.
+#![cfg(feature = "check")]
+
+use entrain::graph::{Graph, GraphError};
+use entrain::plan::{Topology, stability, Law, Model};
+use nalgebra::{DMatrix, SymmetricEigen};
+use proptest::prelude::*;
+
+#[test]
+fn bad_edge_lists_are_errors() {
+    assert_eq!(Graph::from_edges(0, &[]), Err(GraphError::NoNodes));
+    assert_eq!(Graph::from_edges(3, &[(0, 1), (1, 1)]), Err(GraphError::SelfLoop { edge: 1, node: 1 }));
+    assert_eq!(Graph::from_edges(3, &[(0, 1), (1, 0)]), Err(GraphError::DuplicateEdge { first: 0, second: 1 }));
+    assert_eq!(Graph::from_edges(3, &[(0, 3)]), Err(GraphError::NodeOutOfRange { edge: 0, node: 3, nodes: 3 }));
+    for w in [0.0, -1.0, f64::NAN, f64::INFINITY] {
+        assert_eq!(Graph::from_weighted_edges(2, &[(0, 1, w)]), Err(GraphError::BadWeight { edge: 0 }));
+    }
+    let split = Graph::from_edges(4, &[(0, 1), (2, 3)]).unwrap();
+    assert_eq!(split.component_count(), 2);
+    assert_eq!(split.sparse_spectrum(), Err(GraphError::Disconnected { components: 2 }));
+    assert_eq!(split.worst_flow_factor(), Err(GraphError::Disconnected { components: 2 }));
+    let summary = split.spectrum().unwrap();
+    assert!(!summary.connected && summary.lambda_slow == 0.0);
+    // The planner refuses it with a clear error, never a NaN.
+    let m = Model::p_only(Law::Linear, 0.2, 0.1, 1e-3);
+    assert_eq!(stability(&m, &summary), Err(entrain::plan::PlanError::Disconnected));
+    assert!(split.edge_flows(&[0.0; 3]).is_err());
+    assert!(Graph::from_edges(1, &[]).unwrap().spectrum().is_err());
+}
+
+fn reference_laplacian(n: usize, edges: &[(usize, usize, f64)]) -> DMatrix<f64> {
+    let mut l = DMatrix::zeros(n, n);
+    for &(a, b, w) in edges {
+        l[(a, a)] += w;
+        l[(b, b)] += w;
+        l[(a, b)] -= w;
+        l[(b, a)] -= w;
+    }
+    l
+}
+
+/// A connected random graph: a random spanning tree plus extra edges, random weights.
+fn random_graph(n: usize, extra: &[(usize, usize)], parents: &[usize], weights: &[f64]) -> Vec<(usize, usize, f64)> {
+    let mut edges = Vec::new();
+    let mut seen = std::collections::HashSet::new();
+    for i in 1..n {
+        let p = parents[i - 1] % i;
+        seen.insert((p.min(i), p.max(i)));
+        edges.push((p, i, weights[(i - 1) % weights.len()]));
+    }
+    for &(a, b) in extra {
+        let (a, b) = (a % n, b % n);
+        if a != b && seen.insert((a.min(b), a.max(b))) {
+            edges.push((a, b, weights[edges.len() % weights.len()]));
+        }
+    }
+    edges
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig::with_cases(40))]
+    #[test]
+    fn sparse_equals_dense_on_random_graphs(
+        n in 3usize..60,
+        parents in prop::collection::vec(0usize..1000, 60),
+        extra in prop::collection::vec((0usize..1000, 0usize..1000), 0..80),
+        weights in prop::collection::vec(0.2f64..3.0, 1..8),
+    ) {
+        let edges = random_graph(n, &extra, &parents, &weights);
+        let g = Graph::from_weighted_edges(n, &edges).unwrap();
+        // Dense: ours vs nalgebra on a Laplacian built here.
+        let mut reference: Vec<f64> = SymmetricEigen::new(reference_laplacian(n, &edges)).eigenvalues.iter().copied().collect();
+        reference.sort_by(f64::total_cmp);
+        let dense = g.dense_spectrum().unwrap();
+        for (x, y) in dense.eigenvalues().iter().zip(&reference) {
+            prop_assert!((x - y).abs() < 1e-10);
+        }
+        let sparse = g.sparse_spectrum().unwrap();
+        prop_assert!((sparse.lambda2 - reference[1]).abs() < 1e-8 * reference[1].max(1e-3), "{} vs {}", sparse.lambda2, reference[1]);
+        let top = reference[n - 1];
+        prop_assert!((sparse.lambda_max - top).abs() < 1e-6 * top, "{} vs {}", sparse.lambda_max, top);
+        prop_assert!(sparse.lambda_max_upper >= top * (1.0 - 1e-9));
+        // The slow mode is an eigenvector of λ2 (when λ2 is simple, up to its residual).
+        let l = reference_laplacian(n, &edges);
+        let v = nalgebra::DVector::from_vec(sparse.slow_mode.clone());
+        let r = (&l * &v - sparse.lambda2 * &v).norm() / v.norm();
+        if reference[2] - reference[1] > 1e-3 {
+            prop_assert!(r < 1e-4 * top, "residual {r}");
+        }
+    }
+}
+
+#[test]
+fn topologies_round_trip_through_graph() {
+    for t in [
+        Topology::Chain { nodes: 30 },
+        Topology::Ring { nodes: 17 },
+        Topology::Star { nodes: 9 },
+        Topology::Complete { nodes: 8 },
+        Topology::Grid { rows: 6, cols: 7 },
+        Topology::Torus { rows: 4, cols: 6 },
+    ] {
+        let g = Graph::from_topology(&t).unwrap();
+        let closed = t.spectrum().unwrap();
+        let numeric = g.spectrum().unwrap();
+        assert!((closed.lambda_slow - numeric.lambda_slow).abs() < 1e-12, "{t:?}");
+        assert!((closed.lambda_max - numeric.lambda_max).abs() < 1e-12, "{t:?}");
+        assert_eq!(closed.max_degree, numeric.max_degree);
+        if let Ok(f) = t.worst_flow_factor() {
+            assert!((g.worst_flow_factor().unwrap() - f).abs() < 1e-9, "{t:?}");
+        }
+    }
+}
+
+#[test]
+fn edge_flows_are_chain_partial_sums() {
+    // Strogatz & Mirollo 1988: on a chain the flow over edge k is S_k = Σ_{i≤k}(ω_i − ω̄).
+    let omega = [1.0, 0.2, -0.5, -0.7, 0.4];
+    let g = Graph::from_topology(&Topology::Chain { nodes: 5 }).unwrap();
+    let flows = g.edge_flows(&omega).unwrap();
+    let mean = omega.iter().sum::<f64>() / 5.0;
+    let mut s = 0.0;
+    for (k, f) in flows.iter().enumerate() {
+        s += omega[k] - mean;
+        // Edge (k, k+1) carries w·(x_k − x_{k+1}) = S_k.
+        assert!((f - s).abs() < 1e-12, "edge {k}: {f} vs {s}");
+    }
+}
+
+#[test]
+fn sparse_chain_100k_matches_closed_form() {
+    // Fiedler 1973: λ2(P_N) = 2 − 2cos(π/N); λmax = 2 − 2cos((N−1)π/N).
+    let n = 100_000;
+    let t = Topology::Chain { nodes: n };
+    let g = Graph::from_topology(&t).unwrap();
+    let s = g.sparse_spectrum().unwrap();
+    let want = t.lambda_slow().unwrap();
+    assert!(((s.lambda2 - want) / want).abs() < 1e-6, "{} vs {want}", s.lambda2);
+    let top = t.lambda_max().unwrap();
+    assert!(((s.lambda_max - top) / top).abs() < 1e-6 && s.lambda_max_upper >= top * (1.0 - 1e-12));
+    // The slow mode is the half-cosine: largest at the two ends, opposite signs.
+    let first = s.slow_mode[0];
+    let last = s.slow_mode[n - 1];
+    assert!((first.abs() - 1.0).abs() < 1e-3 && (first + last).abs() < 1e-3);
+}

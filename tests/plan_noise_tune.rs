@@ -1,0 +1,123 @@
+//! Noise coherence (Bamieh et al. 2012; Lyapunov solution by nalgebra) and the gain tuner.
+#![cfg(feature = "plan")]
+
+use entrain::plan::{
+    Budget, Infeasibility, Law, MIN_GAIN_MARGIN, Model, PlanError, Spread, Topology, continuous_coherence,
+    mode_variance, phase_jitter, settle, stability, tune, tune_topology,
+};
+use nalgebra::{DMatrix, DVector};
+
+#[test]
+fn bamieh_p5_coherence() {
+    // Bamieh, Jovanović, Mitra & Patterson, IEEE TAC 57 (2012): (σ²/2N)·Σ1/λ, P5: 0.4.
+    let t = Topology::Chain { nodes: 5 };
+    assert!((continuous_coherence(1.0, 5, t.sum_inverse_eigenvalues().unwrap()) - 0.4).abs() < 1e-12);
+    // The discrete per-mode variance tends to it for small gains: kp/(2λ) per mode.
+    let kp = 1e-5;
+    let discrete: f64 = t.nonzero_modes().map(|l| mode_variance(kp, 0.0, l) / kp).sum::<f64>() / 5.0;
+    assert!((discrete - 0.4).abs() < 1e-4, "{discrete}");
+}
+
+#[test]
+fn pi_mode_variance_matches_lyapunov() {
+    // Σ = AΣAᵀ + BBᵀ solved by nalgebra through (I − A⊗A)·vec Σ = vec(BBᵀ).
+    for (kp, ki, lambda) in [(0.3, 0.05, 0.7), (0.1, 0.01, 2.0), (0.45, 0.2, 1.3)] {
+        let a = DMatrix::from_row_slice(2, 2, &[1.0 - kp * lambda, 1.0, -ki * lambda, 1.0]);
+        let b = DVector::from_vec(vec![kp, ki]);
+        let q = &b * b.transpose();
+        let k = DMatrix::identity(4, 4) - a.kronecker(&a);
+        let vec_q = DVector::from_iterator(4, q.iter().copied());
+        let sigma = k.lu().solve(&vec_q).unwrap();
+        assert!((mode_variance(kp, ki, lambda) - sigma[0]).abs() < 1e-10 * sigma[0], "{kp} {ki} {lambda}");
+    }
+}
+
+#[test]
+fn ring_jitter_scales_with_timestamp_jitter() {
+    // Ring (regular, degree 2): per-node variance = 2(σ/P)²·(1/N)Σ mode variances.
+    let t = Topology::Ring { nodes: 10 };
+    let m = Model::p_only(Law::Linear, 0.25, 0.1, 1e-3);
+    let n = phase_jitter(&m, &t.spectrum().unwrap(), t.nonzero_modes(), 1e-6).unwrap();
+    let sum: f64 = t.nonzero_modes().map(|l| 0.25f64.powi(2) / (1.0 - (1.0 - 0.25 * l).powi(2))).sum();
+    let want = (2.0 * 1e-6f64.powi(2) * sum / 10.0).sqrt(); // in turns·P = seconds
+    assert!((n.phase_sd_s - want).abs() < 1e-12 * want.max(1e-30) + 1e-18);
+    assert!(phase_jitter(&m, &t.spectrum().unwrap(), t.nonzero_modes(), -1.0).is_err());
+    assert!(phase_jitter(&m, &t.spectrum().unwrap(), [f64::NAN], 1e-6).is_err());
+}
+
+fn string_budget(budget_s: f64, ppm: f64) -> Budget {
+    Budget {
+        lock_time_budget_s: budget_s,
+        spread: Spread { initial_spread_s: 4e-4, tolerance_s: 1e-5 },
+        crystal_tolerance_ppm: ppm,
+    }
+}
+
+#[test]
+fn tuner_recommends_gains_that_meet_the_budget() {
+    let t = Topology::Chain { nodes: 16 };
+    let template = Model::p_only(Law::Sine, 0.1, 0.1, 1e-3);
+    let tuning = tune_topology(&template, &t, &string_budget(600.0, 20.0)).unwrap();
+    assert!(tuning.feasible && tuning.infeasibility.is_none());
+    let r = tuning.recommended.unwrap();
+    let (lo, hi) = tuning.kp_range.unwrap();
+    assert!(lo <= r.kp && r.kp <= hi);
+    // Re-check the recommendation with the independent entry points.
+    let m = Model { kp: r.kp, ..template };
+    let sp = t.spectrum().unwrap();
+    let st = stability(&m, &sp).unwrap();
+    assert!(st.stable && st.gain_margin >= MIN_GAIN_MARGIN * 0.999);
+    let s = settle(&m, &sp, &string_budget(600.0, 20.0).spread).unwrap();
+    assert!(s.bound_s.unwrap() <= 600.0);
+    assert!(r.locking.unwrap().locks);
+    // The fastest stable gains are at least as fast as the recommendation.
+    assert!(tuning.fastest.unwrap().lock_s <= r.lock_s);
+}
+
+#[test]
+fn tuner_explains_a_short_budget() {
+    let t = Topology::Chain { nodes: 64 };
+    let template = Model::p_only(Law::Sine, 0.1, 0.1, 1e-3);
+    let tuning = tune_topology(&template, &t, &string_budget(5.0, 20.0)).unwrap();
+    assert!(!tuning.feasible);
+    assert_eq!(tuning.infeasibility, Some(Infeasibility::BudgetTooShort));
+    let fastest = tuning.fastest.unwrap().lock_s;
+    assert!(fastest > 5.0);
+    assert!((tuning.alternatives.update_rate_factor - fastest / 5.0).abs() < 1e-9 * fastest);
+    // A reference in the middle leaves the slowest rate unchanged: the free chain's slow
+    // mode is antisymmetric with a node at the centre, so λ2(P_{2m+1}) = λ1(pinned m)
+    // (Fiedler 1973 vs Yueh 2005); only the projection constant differs.
+    let middle = tuning.alternatives.middle_reference_lock_s.unwrap();
+    assert!((middle / fastest - 1.0).abs() < 0.1, "{middle} vs {fastest}");
+    // Splitting the chain in two quarters λ2's inverse: much faster.
+    assert!(tuning.alternatives.split_in_two_lock_s.unwrap() < 0.5 * fastest);
+}
+
+#[test]
+fn tuner_reports_cannot_lock_and_pi_trims() {
+    let t = Topology::Chain { nodes: 16 };
+    let template = Model::p_only(Law::Sine, 0.1, 0.1, 1e-3);
+    let tuning = tune_topology(&template, &t, &string_budget(600.0, 5e4)).unwrap();
+    assert_eq!(tuning.infeasibility, Some(Infeasibility::CannotLock));
+    // The PI law needs no lock capacity, only trims.
+    let pi = Model { ki: 0.01, trim_limit_ppm: 200.0, ..template };
+    let ok = tune_topology(&pi, &t, &string_budget(600.0, 50.0)).unwrap();
+    assert!(ok.feasible, "{ok:?}");
+    let r = ok.recommended.unwrap();
+    assert!(r.ki > 0.0 && r.ki < r.kp);
+    let (klo, khi) = ok.ki_range.unwrap();
+    assert!(klo <= r.ki && r.ki <= khi);
+}
+
+#[test]
+fn tuner_bad_inputs_are_errors() {
+    let sp = Topology::Chain { nodes: 5 }.spectrum().unwrap();
+    let m = Model::p_only(Law::Sine, 0.1, 0.1, 1e-3);
+    assert!(matches!(tune(&m, &sp, None, &string_budget(0.0, 1.0)), Err(PlanError::InvalidParameter { .. })));
+    assert!(matches!(tune(&m, &sp, None, &string_budget(f64::NAN, 1.0)), Err(PlanError::InvalidParameter { .. })));
+    assert!(matches!(tune(&m, &sp, None, &string_budget(1.0, -1.0)), Err(PlanError::InvalidParameter { .. })));
+    let mut b = string_budget(1.0, 1.0);
+    b.spread.tolerance_s = 1.0;
+    assert_eq!(tune(&m, &sp, None, &b), Err(PlanError::ToleranceNotBelowSpread));
+    assert!(tune(&Model { update_period_s: 0.0, ..m }, &sp, None, &string_budget(1.0, 1.0)).is_err());
+}

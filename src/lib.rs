@@ -25,6 +25,8 @@ mod phase;
 pub mod plan;
 #[cfg(feature = "hal")]
 pub mod pulse;
+#[cfg(feature = "sim")]
+pub mod sim;
 
 pub use config::{Config, ConfigBuilder, ConfigError, MAX_TRIM_LIMIT_PPB};
 pub use gain::{GAIN_FRAC_BITS, Gain};

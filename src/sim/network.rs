@@ -1,0 +1,721 @@
+//! Event stepping of a network of real [`Node`] values: each node's own crystal, timer,
+//! update schedule and PI state; beacons with latency, timestamp jitter and loss; reboots.
+//!
+//! The simulator never computes the law itself: every correction is the one
+//! [`Node::update`] makes from the observations handed to [`Node::observe`].
+//!
+//! # Time
+//! Real time runs in sub-ticks of 2^-16 nominal timer tick, from 0 at the start of a run.
+//! Node i's timer advances `1 + e_i·10⁻⁶` ticks per nominal tick (`e_i` its crystal error
+//! in ppm) and starts at a random count, so timer wrap is exercised. Node i updates when
+//! its own timer reaches its next update instant (one update interval of its own ticks
+//! after the last, plus jitter), then beacons its phase to its neighbours. A beacon is
+//! taken by the receiver's first update *strictly after* it arrives, so with lock-step
+//! updates and zero latency every node uses its neighbours' phases of the same instant
+//! (a Jacobi step, x⁺ = (I − kp·L)x for the linear law).
+//!
+//! The network error is sampled once per nominal update interval, half an interval after
+//! each nominal update instant: sample k, at `(k + ½)` intervals, sees the state after
+//! the k-th update round (round 0 has no beacons yet, so sample 0 is the start spread).
+
+use std::collections::VecDeque;
+
+use rand::{Rng, SeedableRng};
+use rand_chacha::ChaCha8Rng;
+
+use super::error::SimError;
+use super::lock::{
+    LockTracker, TURN, largest_neighbour_diff, largest_pairwise_diff, winding_number,
+};
+use super::outcome::{RunOutcome, RunStats};
+use super::scenario::{Crystals, Scenario, StartPhases};
+use super::trace::Trace;
+use crate::{Config, Node, NodeId, Observation, Phase};
+
+/// Sub-ticks per nominal tick.
+const SUB: u64 = 1 << 16;
+
+/// A beacon in flight or waiting in the receiver's inbox.
+#[derive(Clone, Copy, Debug)]
+struct Beacon {
+    from: NodeId,
+    phase: Phase,
+    /// Real time of arrival, sub-ticks.
+    arrive: u64,
+    /// The receiver's reception timestamp (its own timer, with timestamp jitter).
+    rx_ticks: u32,
+}
+
+/// One node's timer: real time ↔ local ticks.
+#[derive(Clone, Copy, Debug)]
+struct Timer {
+    /// Real time of the origin, sub-ticks.
+    t0: u64,
+    /// Local ticks at the origin (unwrapped).
+    l0: u64,
+    /// Local ticks per nominal tick, Q32.32.
+    fwd: u64,
+    /// Sub-ticks per local tick, Q32.32.
+    inv: u64,
+}
+
+impl Timer {
+    fn new(ppm: f64, t0: u64, l0: u64) -> Timer {
+        let rate = 1.0 + ppm * 1e-6;
+        // ppm is within ±10⁵ (checked), so both fit comfortably.
+        Timer {
+            t0,
+            l0,
+            fwd: (rate * 4_294_967_296.0).round() as u64,
+            inv: (281_474_976_710_656.0 / rate).round() as u64,
+        }
+    }
+
+    /// Local ticks (unwrapped) at real time `t` (not before the origin).
+    fn local_at(&self, t: u64) -> u64 {
+        let span = u128::from(t.saturating_sub(self.t0));
+        self.l0 + ((span * u128::from(self.fwd)) >> 48) as u64
+    }
+
+    /// Real time, sub-ticks, at which the timer reads `local`.
+    fn real_at(&self, local: u64) -> u64 {
+        let span = u128::from(local.saturating_sub(self.l0));
+        self.t0 + ((span * u128::from(self.inv)) >> 32) as u64
+    }
+}
+
+/// One simulated node: the real node law plus its hardware around it.
+#[derive(Clone, Debug)]
+struct Station<const N: usize> {
+    node: Node<N>,
+    timer: Timer,
+    /// Local ticks (unwrapped) of the next update.
+    next_local: u64,
+    ppm: f64,
+    alive: bool,
+}
+
+/// A reboot as two timed events.
+#[derive(Clone, Copy, Debug)]
+struct RebootEvent {
+    at: u64,
+    node: usize,
+    up: bool,
+}
+
+/// A network of `Node<N>` values (`N` the neighbour-table capacity, at least the largest
+/// degree) stepped in real time. Build one with [`Network::new`]; drive it with
+/// [`Network::run`] or sample by sample with [`Network::step`].
+#[derive(Clone, Debug)]
+pub struct Network<const N: usize> {
+    config: Config,
+    stations: Vec<Station<N>>,
+    offsets: Vec<usize>,
+    targets: Vec<u16>,
+    pairs: Vec<(usize, usize)>,
+    ring: bool,
+    inbox: Vec<Vec<Beacon>>,
+    /// Pending updates `(real time, node)`, ascending; equal times in insertion order.
+    queue: VecDeque<(u64, u16)>,
+    reboots: Vec<RebootEvent>,
+    next_reboot: usize,
+    rng: ChaCha8Rng,
+    update_ticks: u64,
+    jitter_ticks: u32,
+    latency_sub: u64,
+    latency_ticks: u32,
+    ts_jitter: u32,
+    success_prob: f64,
+    /// Index of the next sample.
+    sample: u64,
+    tracker: LockTracker,
+    last_rejoin: Option<u64>,
+    stats: RunStats,
+    phases: Vec<Option<Phase>>,
+    live: Vec<Phase>,
+    scratch: Vec<u32>,
+    horizon: u64,
+    hold: u64,
+    /// Lock-step shortcut (see [`Network::event_driven`]): every node updates at the same
+    /// instants, so rounds replace the event queue.
+    lock_step: bool,
+    /// Lock-step: each node's phase right after its last update (its last beacon).
+    sent: Vec<Phase>,
+    /// Lock-step: whether the beacon of sender slot `s` (sender-major, as `targets`)
+    /// arrived.
+    delivered: Vec<bool>,
+    /// Lock-step: for receiver slot `s` (node i's neighbour j), the slot of i in j's list.
+    reverse: Vec<usize>,
+    /// Lock-step: rounds done.
+    rounds: u64,
+}
+
+/// What one sample saw.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Sample {
+    /// Sample index: nominal update intervals from the start.
+    pub at_updates: u64,
+    /// Largest pairwise wrapped difference across the live nodes, counts.
+    pub network_counts: u32,
+    /// Largest wrapped difference across a link between live nodes, counts.
+    pub link_counts: u32,
+    /// True once the lock is confirmed.
+    pub locked: bool,
+}
+
+impl<const N: usize> Network<N> {
+    /// Set up run `run` of `scenario` from the generator seeded with `seed` (the run
+    /// uses stream `run` of ChaCha8 with that seed, so runs are independent and any run
+    /// can be replayed on its own).
+    ///
+    /// # Errors
+    /// The scenario's [`Scenario::validate`] error, or [`SimError::DegreeTooHigh`] if a
+    /// node has more neighbours than the table capacity `N`.
+    pub fn new(scenario: &Scenario, seed: u64, run: u64) -> Result<Network<N>, SimError> {
+        scenario.validate()?;
+        let degree = scenario.links.max_degree();
+        if degree > N {
+            return Err(SimError::DegreeTooHigh {
+                node: 0,
+                degree,
+                max: N,
+            });
+        }
+        let mut rng = ChaCha8Rng::seed_from_u64(seed);
+        rng.set_stream(run);
+        let n = scenario.nodes();
+        let config = scenario.config;
+        let update_ticks = u64::from(config.update_ticks());
+        let ppm: Vec<f64> = match &scenario.crystals {
+            Crystals::Identical { ppm } => vec![*ppm; n],
+            Crystals::Uniform { tolerance_ppm } => (0..n)
+                .map(|_| (rng.random::<f64>() * 2.0 - 1.0) * tolerance_ppm)
+                .collect(),
+            Crystals::Fixed(v) => v.clone(),
+        };
+        let start: Vec<Phase> = match &scenario.start {
+            StartPhases::Uniform { spread_turns } => (0..n)
+                .map(|_| phase_from_turns((rng.random::<f64>() - 0.5) * spread_turns))
+                .collect(),
+            StartPhases::Fixed(v) => v.iter().map(|&t| phase_from_turns(t)).collect(),
+        };
+        let mut stations = Vec::with_capacity(n);
+        for (&e, &phase) in ppm.iter().zip(&start) {
+            let l0 = u64::from(rng.random::<u32>());
+            let offset = if scenario.schedule.random_start {
+                rng.random_range(0..update_ticks)
+            } else {
+                0
+            };
+            stations.push(Station {
+                node: Node::new(config, phase, l0 as u32),
+                timer: Timer::new(e, 0, l0),
+                next_local: l0 + offset,
+                ppm: e,
+                alive: true,
+            });
+        }
+        let mut queue: Vec<(u64, u16)> = stations
+            .iter()
+            .enumerate()
+            .map(|(i, s)| (s.timer.real_at(s.next_local), i as u16))
+            .collect();
+        queue.sort_by_key(|&(t, i)| (t, i));
+        let interval = update_ticks * SUB;
+        let mut reboots: Vec<RebootEvent> = scenario
+            .reboots
+            .iter()
+            .flat_map(|r| {
+                [
+                    RebootEvent {
+                        at: r.at_updates * interval,
+                        node: r.node,
+                        up: false,
+                    },
+                    RebootEvent {
+                        at: (r.at_updates + r.down_updates) * interval,
+                        node: r.node,
+                        up: true,
+                    },
+                ]
+            })
+            .collect();
+        reboots.sort_by_key(|r| (r.at, r.up));
+        let (offsets, targets) = scenario.links.adjacency();
+        let reverse = reverse_slots(&offsets, &targets);
+        let b = &scenario.beacons;
+        let lock_step = !scenario.schedule.random_start
+            && scenario.schedule.jitter_ticks == 0
+            && ppm.iter().all(|&e| e == 0.0)
+            && b.timestamp_jitter_ticks == 0
+            && u64::from(b.latency_ticks) < update_ticks
+            && scenario.reboots.is_empty();
+        let slots = targets.len();
+        Ok(Network {
+            config,
+            stations,
+            offsets,
+            targets,
+            pairs: scenario.links.pairs().to_vec(),
+            ring: scenario.links.is_ring(),
+            inbox: vec![Vec::with_capacity(2 * N.min(8)); n],
+            queue: queue.into(),
+            reboots,
+            next_reboot: 0,
+            rng,
+            update_ticks,
+            jitter_ticks: scenario.schedule.jitter_ticks,
+            latency_sub: u64::from(scenario.beacons.latency_ticks) * SUB,
+            latency_ticks: scenario.beacons.latency_ticks,
+            ts_jitter: scenario.beacons.timestamp_jitter_ticks,
+            success_prob: scenario.beacons.success_prob,
+            sample: 0,
+            tracker: LockTracker::new(&scenario.lock, n),
+            last_rejoin: None,
+            stats: RunStats::default(),
+            phases: vec![None; n],
+            live: Vec::with_capacity(n),
+            scratch: Vec::new(),
+            horizon: scenario.horizon_updates,
+            hold: scenario.lock.hold_updates,
+            lock_step,
+            sent: start,
+            delivered: vec![false; slots],
+            reverse,
+            rounds: 0,
+        })
+    }
+
+    /// Step every scenario through the general event queue, even one that qualifies for
+    /// the lock-step shortcut (ideal crystals, lock-step schedule, no timestamp jitter,
+    /// latency below one update interval, no reboots). Both give bit-identical runs; the
+    /// shortcut only skips the queue and the timers.
+    #[must_use]
+    pub fn event_driven(mut self) -> Self {
+        self.lock_step = false;
+        self
+    }
+
+    /// Whether this network takes the lock-step shortcut.
+    #[must_use]
+    pub fn is_lock_step(&self) -> bool {
+        self.lock_step
+    }
+
+    /// Number of nodes.
+    #[must_use]
+    pub fn nodes(&self) -> usize {
+        self.stations.len()
+    }
+
+    /// Node `i` (the real node law and its state), or `None` out of range.
+    #[must_use]
+    pub fn node(&self, i: usize) -> Option<&Node<N>> {
+        self.stations.get(i).map(|s| &s.node)
+    }
+
+    /// Node `i`'s crystal error, ppm, as drawn for this run.
+    #[must_use]
+    pub fn crystal_ppm(&self, i: usize) -> Option<f64> {
+        self.stations.get(i).map(|s| s.ppm)
+    }
+
+    /// Counters so far.
+    #[must_use]
+    pub fn stats(&self) -> RunStats {
+        self.stats
+    }
+
+    /// The phases at the last sample (`None` for a node that was down).
+    #[must_use]
+    pub fn sampled_phases(&self) -> &[Option<Phase>] {
+        &self.phases
+    }
+
+    /// Real time of sample `k`, sub-ticks.
+    fn sample_time(&self, k: u64) -> u64 {
+        k * self.update_ticks * SUB + self.update_ticks * SUB / 2
+    }
+
+    /// Run every event up to the next sample instant and take the sample.
+    pub fn step(&mut self) -> Sample {
+        let t_sample = self.sample_time(self.sample);
+        if self.lock_step {
+            while self.rounds <= self.sample {
+                self.lock_step_round();
+            }
+            return self.take_sample(t_sample);
+        }
+        loop {
+            let t_update = self.queue.front().map_or(u64::MAX, |&(t, _)| t);
+            let t_reboot = self
+                .reboots
+                .get(self.next_reboot)
+                .map_or(u64::MAX, |r| r.at);
+            if t_reboot <= t_update.min(t_sample) {
+                self.reboot_event();
+            } else if t_sample <= t_update {
+                break;
+            } else if let Some((t, i)) = self.queue.pop_front() {
+                self.update(t, usize::from(i));
+            }
+        }
+        self.take_sample(t_sample)
+    }
+
+    fn take_sample(&mut self, t: u64) -> Sample {
+        self.live.clear();
+        for (s, slot) in self.stations.iter().zip(self.phases.iter_mut()) {
+            *slot = if s.alive {
+                let p = s.node.phase_at(s.timer.local_at(t) as u32);
+                self.live.push(p);
+                Some(p)
+            } else {
+                None
+            };
+        }
+        let network = largest_pairwise_diff(&self.live, &mut self.scratch);
+        let link = self
+            .pairs
+            .iter()
+            .filter_map(|&(a, b)| {
+                let pa = (*self.phases.get(a)?)?;
+                let pb = (*self.phases.get(b)?)?;
+                Some(pa.diff(pb).unsigned_abs())
+            })
+            .max()
+            .unwrap_or(0);
+        let k = self.sample;
+        self.sample += 1;
+        let locked = self.tracker.sample(k, network, link, &self.phases);
+        Sample {
+            at_updates: k,
+            network_counts: network,
+            link_counts: link,
+            locked,
+        }
+    }
+
+    fn reboot_event(&mut self) {
+        let Some(ev) = self.reboots.get(self.next_reboot).copied() else {
+            return;
+        };
+        self.next_reboot += 1;
+        let Some(st) = self.stations.get_mut(ev.node) else {
+            return;
+        };
+        if !ev.up {
+            if st.alive {
+                st.alive = false;
+                self.queue.retain(|&(_, i)| usize::from(i) != ev.node);
+                if let Some(b) = self.inbox.get_mut(ev.node) {
+                    b.clear();
+                }
+                self.stats.reboots += 1;
+            }
+            return;
+        }
+        if st.alive {
+            return;
+        }
+        let phase = Phase::from_counts(self.rng.random::<u32>());
+        let l0 = u64::from(self.rng.random::<u32>());
+        let offset = self.rng.random_range(0..self.update_ticks);
+        st.node = Node::new(self.config, phase, l0 as u32);
+        st.timer = Timer::new(st.ppm, ev.at, l0);
+        st.next_local = l0 + offset;
+        st.alive = true;
+        let t = st.timer.real_at(st.next_local);
+        insert_sorted(&mut self.queue, t, ev.node as u16);
+        self.tracker.restart();
+        self.last_rejoin = Some(ev.at / (self.update_ticks * SUB));
+    }
+
+    /// One update of node `i` at real time `t`, its beacons, and its next schedule.
+    fn update(&mut self, t: u64, i: usize) {
+        let (Some(st), Some(inbox)) = (self.stations.get_mut(i), self.inbox.get_mut(i)) else {
+            return;
+        };
+        let local = st.next_local as u32;
+        st.node.advance_to(local);
+        let node = &mut st.node;
+        let delay = self.latency_ticks;
+        let mut full = 0u64;
+        inbox.retain(|b| {
+            if b.arrive < t {
+                let obs = Observation {
+                    from: b.from,
+                    phase: b.phase,
+                    rx_ticks: b.rx_ticks,
+                    delay_ticks: delay,
+                };
+                if node.observe(obs).is_err() {
+                    full += 1;
+                }
+                false
+            } else {
+                true
+            }
+        });
+        let report = node.update(local);
+        let phase = node.phase();
+        self.stats.table_full += full;
+        self.stats.node_updates += 1;
+        self.stats.neighbour_updates += u64::from(report.used);
+        self.stats.slew_limited += u64::from(report.slew_limited);
+        // Next update: one interval of this node's own ticks, plus jitter.
+        let jitter = if self.jitter_ticks > 0 {
+            let j = i64::from(self.jitter_ticks);
+            self.rng.random_range(-j..=j)
+        } else {
+            0
+        };
+        st.next_local = st
+            .next_local
+            .saturating_add_signed(self.update_ticks as i64 + jitter);
+        let next = st.timer.real_at(st.next_local);
+        insert_sorted(&mut self.queue, next, i as u16);
+        // Beacons.
+        let from = i as NodeId;
+        let arrive = t + self.latency_sub;
+        let lo = self.offsets.get(i).copied().unwrap_or(0);
+        let hi = self.offsets.get(i + 1).copied().unwrap_or(lo);
+        for &j in self.targets.get(lo..hi).unwrap_or(&[]) {
+            let j = usize::from(j);
+            let Some(rx) = self.stations.get(j) else {
+                continue;
+            };
+            if !rx.alive {
+                continue;
+            }
+            self.stats.beacons_sent += 1;
+            if self.success_prob < 1.0 && self.rng.random::<f64>() >= self.success_prob {
+                self.stats.beacons_lost += 1;
+                continue;
+            }
+            let mut rx_ticks = rx.timer.local_at(arrive) as u32;
+            if self.ts_jitter > 0 {
+                let j = self.ts_jitter as i32;
+                rx_ticks = rx_ticks.wrapping_add_signed(self.rng.random_range(-j..=j));
+            }
+            if let Some(b) = self.inbox.get_mut(j) {
+                b.push(Beacon {
+                    from,
+                    phase,
+                    arrive,
+                    rx_ticks,
+                });
+            }
+        }
+    }
+
+    /// One round of the lock-step shortcut: every node updates at the same instant from
+    /// the beacons of the previous round, then beacons. The same observations, in the
+    /// same order, and the same random draws as the event queue makes for this schedule.
+    fn lock_step_round(&mut self) {
+        let m = self.update_ticks;
+        let first = self.rounds == 0;
+        let latency = self.latency_ticks;
+        for (i, st) in self.stations.iter_mut().enumerate() {
+            let local = st.next_local as u32;
+            st.node.advance_to(local);
+            let lo = self.offsets.get(i).copied().unwrap_or(0);
+            let hi = self.offsets.get(i + 1).copied().unwrap_or(lo);
+            if !first {
+                // Beacons of the previous round: sent at local − m, received `latency`
+                // ticks later by this node's (ideal) timer.
+                let rx_ticks = local.wrapping_sub(m as u32).wrapping_add(latency);
+                for s in lo..hi {
+                    let (Some(&j), Some(&back)) = (self.targets.get(s), self.reverse.get(s)) else {
+                        continue;
+                    };
+                    if !self.delivered.get(back).copied().unwrap_or(false) {
+                        continue;
+                    }
+                    let Some(&phase) = self.sent.get(usize::from(j)) else {
+                        continue;
+                    };
+                    let obs = Observation {
+                        from: j,
+                        phase,
+                        rx_ticks,
+                        delay_ticks: latency,
+                    };
+                    if st.node.observe(obs).is_err() {
+                        self.stats.table_full += 1;
+                    }
+                }
+            }
+            let report = st.node.update(local);
+            self.stats.node_updates += 1;
+            self.stats.neighbour_updates += u64::from(report.used);
+            self.stats.slew_limited += u64::from(report.slew_limited);
+            st.next_local += m;
+        }
+        for (st, sent) in self.stations.iter().zip(self.sent.iter_mut()) {
+            *sent = st.node.phase();
+        }
+        let slots = self.delivered.len() as u64;
+        self.stats.beacons_sent += slots;
+        if self.success_prob < 1.0 {
+            for d in &mut self.delivered {
+                *d = self.rng.random::<f64>() < self.success_prob;
+                self.stats.beacons_lost += u64::from(!*d);
+            }
+        } else {
+            self.delivered.iter_mut().for_each(|d| *d = true);
+        }
+        self.rounds += 1;
+    }
+
+    /// Whether the run is over: the lock is confirmed with no reboot still to come, or
+    /// the horizon has passed (no lock instant within it can still be confirmed).
+    fn finished(&self) -> bool {
+        let reboots_done = self.next_reboot >= self.reboots.len();
+        if self.tracker.lock().is_some() && reboots_done {
+            return true;
+        }
+        match self.tracker.candidate() {
+            Some(start) if start <= self.horizon && reboots_done => {
+                self.sample > start.saturating_add(self.hold)
+            }
+            _ => self.sample > self.horizon,
+        }
+    }
+
+    /// Run to lock (and past every reboot) or to the horizon, recording into `trace` if
+    /// given.
+    pub fn run(&mut self, mut trace: Option<&mut Trace>) -> RunOutcome {
+        let mut last = None;
+        while !self.finished() {
+            let s = self.step();
+            if let Some(tr) = trace.as_deref_mut() {
+                tr.record(&s, &self.phases);
+            }
+            last = Some(s);
+        }
+        let last = last.unwrap_or(Sample {
+            at_updates: 0,
+            network_counts: 0,
+            link_counts: 0,
+            locked: false,
+        });
+        let winding = if self.ring {
+            let phases: Vec<Phase> = self.phases.iter().flatten().copied().collect();
+            (phases.len() == self.phases.len()).then(|| winding_number(&phases))
+        } else {
+            None
+        };
+        let live: Vec<Phase> = self.phases.iter().flatten().copied().collect();
+        RunOutcome {
+            lock: self.tracker.lock(),
+            samples: self.sample,
+            final_network_turns: f64::from(last.network_counts) / TURN,
+            final_link_turns: f64::from(largest_neighbour_diff_live(
+                &live,
+                &self.pairs,
+                &self.phases,
+            )) / TURN,
+            winding,
+            last_rejoin_updates: self.last_rejoin,
+            stats: self.stats,
+        }
+    }
+}
+
+/// The link error among live nodes (down nodes are skipped).
+fn largest_neighbour_diff_live(
+    live: &[Phase],
+    pairs: &[(usize, usize)],
+    phases: &[Option<Phase>],
+) -> u32 {
+    if live.len() == phases.len() {
+        return largest_neighbour_diff(live, pairs);
+    }
+    pairs
+        .iter()
+        .filter_map(|&(a, b)| {
+            let pa = (*phases.get(a)?)?;
+            let pb = (*phases.get(b)?)?;
+            Some(pa.diff(pb).unsigned_abs())
+        })
+        .max()
+        .unwrap_or(0)
+}
+
+/// For each receiver slot (node i's neighbour j, in `targets`), the slot of i in j's
+/// neighbour list.
+fn reverse_slots(offsets: &[usize], targets: &[u16]) -> Vec<usize> {
+    let mut reverse = vec![0; targets.len()];
+    for (i, w) in offsets.windows(2).enumerate() {
+        let (lo, hi) = (
+            w.first().copied().unwrap_or(0),
+            w.get(1).copied().unwrap_or(0),
+        );
+        for s in lo..hi {
+            let Some(&j) = targets.get(s) else { continue };
+            let j = usize::from(j);
+            let jlo = offsets.get(j).copied().unwrap_or(0);
+            let jhi = offsets.get(j + 1).copied().unwrap_or(jlo);
+            let found = targets
+                .get(jlo..jhi)
+                .and_then(|l| l.iter().position(|&x| usize::from(x) == i));
+            if let (Some(pos), Some(slot)) = (found, reverse.get_mut(s)) {
+                *slot = jlo + pos;
+            }
+        }
+    }
+    reverse
+}
+
+/// Insert keeping ascending time, after any equal times (scans from the back: a new
+/// update time is almost always among the latest).
+fn insert_sorted(queue: &mut VecDeque<(u64, u16)>, t: u64, i: u16) {
+    let mut at = queue.len();
+    while at > 0 && queue.get(at - 1).is_some_and(|&(u, _)| u > t) {
+        at -= 1;
+    }
+    queue.insert(at, (t, i));
+}
+
+/// A phase from any real number of turns, rounded to the nearest count.
+#[must_use]
+pub fn phase_from_turns(turns: f64) -> Phase {
+    let frac = turns.rem_euclid(1.0);
+    Phase::from_counts(((frac * TURN).round() as u64) as u32)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn timer_maps_both_ways() {
+        let t = Timer::new(50.0, 1_000 * SUB, 7);
+        // 10⁶ nominal ticks later the fast crystal has counted 50 extra (the timer shows
+        // completed ticks, and the Q32.32 rate is rounded, so it may show one less).
+        let local = t.local_at(1_000 * SUB + 1_000_000 * SUB);
+        assert!((7 + 1_000_049..=7 + 1_000_050).contains(&local), "{local}");
+        let back = t.real_at(7 + 1_000_050);
+        assert!((back as i64 - (1_001_000 * SUB) as i64).abs() <= 1);
+        let ideal = Timer::new(0.0, 0, 0);
+        assert_eq!(ideal.real_at(12_345), 12_345 * SUB);
+    }
+
+    #[test]
+    fn insertion_keeps_order_and_fifo_ties() {
+        let mut q: VecDeque<(u64, u16)> = [(1, 0), (5, 1), (9, 2)].into();
+        insert_sorted(&mut q, 5, 3);
+        insert_sorted(&mut q, 0, 4);
+        insert_sorted(&mut q, 10, 5);
+        let order: Vec<u16> = q.iter().map(|&(_, i)| i).collect();
+        assert_eq!(order, vec![4, 0, 1, 3, 2, 5]);
+    }
+
+    #[test]
+    fn phase_from_turns_wraps_and_rounds() {
+        assert_eq!(phase_from_turns(0.25).counts(), 1 << 30);
+        assert_eq!(phase_from_turns(-0.25).counts(), 3 << 30);
+        assert_eq!(phase_from_turns(3.5).counts(), 1 << 31);
+    }
+}

@@ -1,0 +1,588 @@
+//! What is simulated: the links, the node law, the crystals, the update schedule, the
+//! beacon path (latency, timestamp jitter, loss), the start phases and reboots.
+//!
+//! Everything random in a scenario is drawn per run from the run's own seeded generator
+//! (see [`crate::sim::monte_carlo`]), so a scenario plus a seed fixes a run bit for bit.
+
+use super::error::SimError;
+use crate::Config;
+
+/// Largest node count: node ids are `u16`.
+pub const MAX_NODES: usize = 1 << 16;
+
+/// Largest neighbour count of one node: the node table's capacity limit.
+pub const MAX_DEGREE: usize = 255;
+
+/// The undirected links beacons travel along (each link carries beacons both ways).
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct Links {
+    nodes: usize,
+    pairs: Vec<(usize, usize)>,
+    ring: bool,
+}
+
+impl Links {
+    /// Links from a list of node pairs over `nodes` nodes (duplicates are kept once).
+    ///
+    /// # Errors
+    /// [`SimError::TooFewNodes`] below 1 node, [`SimError::TooManyNodes`] above
+    /// [`MAX_NODES`], [`SimError::LinkOutOfRange`], [`SimError::SelfLink`],
+    /// [`SimError::DegreeTooHigh`] above [`MAX_DEGREE`] neighbours.
+    pub fn from_pairs(nodes: usize, pairs: &[(usize, usize)]) -> Result<Links, SimError> {
+        if nodes < 1 {
+            return Err(SimError::TooFewNodes { min: 1, got: nodes });
+        }
+        if nodes > MAX_NODES {
+            return Err(SimError::TooManyNodes {
+                max: MAX_NODES,
+                got: nodes,
+            });
+        }
+        let mut clean: Vec<(usize, usize)> = Vec::with_capacity(pairs.len());
+        for (link, &(a, b)) in pairs.iter().enumerate() {
+            for node in [a, b] {
+                if node >= nodes {
+                    return Err(SimError::LinkOutOfRange { link, node, nodes });
+                }
+            }
+            if a == b {
+                return Err(SimError::SelfLink { node: a });
+            }
+            clean.push((a.min(b), a.max(b)));
+        }
+        clean.sort_unstable();
+        clean.dedup();
+        let mut degree = vec![0usize; nodes];
+        for &(a, b) in &clean {
+            for node in [a, b] {
+                if let Some(d) = degree.get_mut(node) {
+                    *d += 1;
+                    if *d > MAX_DEGREE {
+                        return Err(SimError::DegreeTooHigh {
+                            node,
+                            degree: *d,
+                            max: MAX_DEGREE,
+                        });
+                    }
+                }
+            }
+        }
+        Ok(Links {
+            nodes,
+            pairs: clean,
+            ring: false,
+        })
+    }
+
+    /// An open chain `0 − 1 − … − (nodes−1)`, `nodes ≥ 2`.
+    ///
+    /// # Errors
+    /// [`SimError::TooFewNodes`] below 2 nodes; [`SimError::TooManyNodes`].
+    pub fn chain(nodes: usize) -> Result<Links, SimError> {
+        if nodes < 2 {
+            return Err(SimError::TooFewNodes { min: 2, got: nodes });
+        }
+        let pairs: Vec<_> = (1..nodes).map(|i| (i - 1, i)).collect();
+        Links::from_pairs(nodes, &pairs)
+    }
+
+    /// A closed ring `0 − 1 − … − (nodes−1) − 0`, `nodes ≥ 3`. Runs on a ring report
+    /// their winding number (twisted states).
+    ///
+    /// # Errors
+    /// [`SimError::TooFewNodes`] below 3 nodes; [`SimError::TooManyNodes`].
+    pub fn ring(nodes: usize) -> Result<Links, SimError> {
+        if nodes < 3 {
+            return Err(SimError::TooFewNodes { min: 3, got: nodes });
+        }
+        let pairs: Vec<_> = (0..nodes).map(|i| (i, (i + 1) % nodes)).collect();
+        let mut links = Links::from_pairs(nodes, &pairs)?;
+        links.ring = true;
+        Ok(links)
+    }
+
+    /// A star: hub 0 linked to every other node, `2 ≤ nodes ≤ 256`.
+    ///
+    /// # Errors
+    /// [`SimError::TooFewNodes`]; [`SimError::DegreeTooHigh`] above 256 nodes.
+    pub fn star(nodes: usize) -> Result<Links, SimError> {
+        if nodes < 2 {
+            return Err(SimError::TooFewNodes { min: 2, got: nodes });
+        }
+        let pairs: Vec<_> = (1..nodes).map(|i| (0, i)).collect();
+        Links::from_pairs(nodes, &pairs)
+    }
+
+    /// Every node hears every other, `2 ≤ nodes ≤ 256`.
+    ///
+    /// # Errors
+    /// [`SimError::TooFewNodes`]; [`SimError::DegreeTooHigh`] above 256 nodes.
+    pub fn complete(nodes: usize) -> Result<Links, SimError> {
+        if nodes < 2 {
+            return Err(SimError::TooFewNodes { min: 2, got: nodes });
+        }
+        if nodes > MAX_DEGREE + 1 {
+            return Err(SimError::DegreeTooHigh {
+                node: 0,
+                degree: nodes - 1,
+                max: MAX_DEGREE,
+            });
+        }
+        let pairs: Vec<_> = (0..nodes)
+            .flat_map(|a| (a + 1..nodes).map(move |b| (a, b)))
+            .collect();
+        Links::from_pairs(nodes, &pairs)
+    }
+
+    /// A `rows × cols` grid (node `r·cols + c`), or with `wrap` a torus (`rows, cols ≥ 3`).
+    ///
+    /// # Errors
+    /// [`SimError::TooFewNodes`] for fewer than 2 nodes (or a torus side below 3);
+    /// [`SimError::TooManyNodes`].
+    pub fn grid(rows: usize, cols: usize, wrap: bool) -> Result<Links, SimError> {
+        let nodes = rows.checked_mul(cols).ok_or(SimError::TooManyNodes {
+            max: MAX_NODES,
+            got: usize::MAX,
+        })?;
+        if wrap && rows.min(cols) < 3 {
+            return Err(SimError::TooFewNodes {
+                min: 3,
+                got: rows.min(cols),
+            });
+        }
+        if nodes < 2 {
+            return Err(SimError::TooFewNodes { min: 2, got: nodes });
+        }
+        if nodes > MAX_NODES {
+            return Err(SimError::TooManyNodes {
+                max: MAX_NODES,
+                got: nodes,
+            });
+        }
+        let mut pairs = Vec::with_capacity(2 * nodes);
+        for r in 0..rows {
+            for c in 0..cols {
+                let here = r * cols + c;
+                if c + 1 < cols {
+                    pairs.push((here, here + 1));
+                } else if wrap {
+                    pairs.push((here, r * cols));
+                }
+                if r + 1 < rows {
+                    pairs.push((here, here + cols));
+                } else if wrap {
+                    pairs.push((here, c));
+                }
+            }
+        }
+        Links::from_pairs(nodes, &pairs)
+    }
+
+    /// Number of nodes.
+    #[must_use]
+    pub fn nodes(&self) -> usize {
+        self.nodes
+    }
+
+    /// The links, each as `(smaller index, larger index)`, sorted.
+    #[must_use]
+    pub fn pairs(&self) -> &[(usize, usize)] {
+        &self.pairs
+    }
+
+    /// True for a ring built by [`Links::ring`] (nodes in cyclic order), whose runs report
+    /// a winding number.
+    #[must_use]
+    pub fn is_ring(&self) -> bool {
+        self.ring
+    }
+
+    /// The largest number of neighbours of any node.
+    #[must_use]
+    pub fn max_degree(&self) -> usize {
+        let mut degree = vec![0usize; self.nodes];
+        for &(a, b) in &self.pairs {
+            for node in [a, b] {
+                if let Some(d) = degree.get_mut(node) {
+                    *d += 1;
+                }
+            }
+        }
+        degree.into_iter().max().unwrap_or(0)
+    }
+
+    /// Neighbour lists in compressed form: node i's neighbours are
+    /// `targets[offsets[i]..offsets[i+1]]`, ascending.
+    pub(crate) fn adjacency(&self) -> (Vec<usize>, Vec<u16>) {
+        let mut lists: Vec<Vec<u16>> = vec![Vec::new(); self.nodes];
+        for &(a, b) in &self.pairs {
+            // Node indices are below MAX_NODES = 2^16 (checked at construction).
+            if let Some(l) = lists.get_mut(a) {
+                l.push(b as u16);
+            }
+            if let Some(l) = lists.get_mut(b) {
+                l.push(a as u16);
+            }
+        }
+        let mut offsets = Vec::with_capacity(self.nodes + 1);
+        let mut targets = Vec::with_capacity(2 * self.pairs.len());
+        offsets.push(0);
+        for mut l in lists {
+            l.sort_unstable();
+            targets.extend_from_slice(&l);
+            offsets.push(targets.len());
+        }
+        (offsets, targets)
+    }
+}
+
+/// The nodes' crystal errors, parts per million (positive: the timer runs fast). A node
+/// with error `e` advances `1 + e·10⁻⁶` timer ticks per nominal tick.
+#[derive(Clone, Debug, PartialEq)]
+pub enum Crystals {
+    /// Every node has the same error (0 for ideal crystals).
+    Identical {
+        /// The common error, ppm.
+        ppm: f64,
+    },
+    /// Each node's error drawn uniformly from `[−tolerance_ppm, +tolerance_ppm]` per run.
+    Uniform {
+        /// The tolerance, ppm (`0 ≤ tolerance_ppm ≤ 10⁵`).
+        tolerance_ppm: f64,
+    },
+    /// Given errors, one per node, ppm.
+    Fixed(Vec<f64>),
+}
+
+/// When the nodes update.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct Schedule {
+    /// Each node's first update falls at a uniformly random point within its first
+    /// update interval; `false` starts every node at once (lock-step with identical
+    /// crystals and no jitter).
+    pub random_start: bool,
+    /// Each update interval is lengthened or shortened by a uniform draw from
+    /// `[−jitter_ticks, +jitter_ticks]` local ticks (below half the update interval).
+    pub jitter_ticks: u32,
+}
+
+impl Schedule {
+    /// All nodes update at the same instants (with identical crystals).
+    pub const LOCK_STEP: Schedule = Schedule {
+        random_start: false,
+        jitter_ticks: 0,
+    };
+}
+
+/// The beacon path between neighbours. Each node beacons its phase right after each of
+/// its updates.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Beacons {
+    /// Nominal latency from send to reception, nominal ticks; the receiver knows it and
+    /// compensates it (in its own ticks, so a crystal error leaves a small residue).
+    pub latency_ticks: u32,
+    /// The receiver's reception timestamp is off by a uniform draw from
+    /// `[−timestamp_jitter_ticks, +timestamp_jitter_ticks]` ticks, unknown to it.
+    pub timestamp_jitter_ticks: u32,
+    /// Probability that one beacon reaches one neighbour, `0 < p ≤ 1`, independent per
+    /// beacon and neighbour.
+    pub success_prob: f64,
+}
+
+impl Beacons {
+    /// Instant, exact, lossless beacons.
+    pub const IDEAL: Beacons = Beacons {
+        latency_ticks: 0,
+        timestamp_jitter_ticks: 0,
+        success_prob: 1.0,
+    };
+}
+
+/// The nodes' phases at the start of a run, in turns.
+#[derive(Clone, Debug, PartialEq)]
+pub enum StartPhases {
+    /// Each node's phase drawn uniformly from `[−spread_turns/2, +spread_turns/2]`
+    /// (`0 ≤ spread_turns ≤ 1`; 1 is a uniform draw over the whole circle).
+    Uniform {
+        /// Width of the start interval, turns.
+        spread_turns: f64,
+    },
+    /// Given phases, one per node, turns (any real value, wrapped onto the circle).
+    Fixed(Vec<f64>),
+}
+
+/// A node that loses power mid-run: silent for `down_updates` update intervals from
+/// `at_updates`, it then restarts from a random phase with zero trim and an empty
+/// neighbour table, and rejoins.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct Reboot {
+    /// The node.
+    pub node: usize,
+    /// When it goes down, nominal update intervals from the start.
+    pub at_updates: u64,
+    /// How long it stays down, nominal update intervals (at least 1).
+    pub down_updates: u64,
+}
+
+/// When the network counts as locked.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct LockCriterion {
+    /// Largest pairwise wrapped phase difference (over neighbours and over the whole
+    /// network) counted as locked, turns (`0 < tolerance_turns < 0.5`).
+    pub tolerance_turns: f64,
+    /// The error must stay within the tolerance for this many consecutive samples (one
+    /// per update interval) after the lock instant.
+    pub hold_updates: u64,
+}
+
+/// One simulated deployment. Build with [`Scenario::new`], then adjust the public fields.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Scenario {
+    /// The links beacons travel along.
+    pub links: Links,
+    /// The node law every node runs (gains, law, update interval, clamps).
+    pub config: Config,
+    /// Nominal timer rate, ticks per second (used to express results in seconds).
+    pub tick_hz: f64,
+    /// Crystal errors.
+    pub crystals: Crystals,
+    /// Update schedule.
+    pub schedule: Schedule,
+    /// Beacon path.
+    pub beacons: Beacons,
+    /// Start phases.
+    pub start: StartPhases,
+    /// Reboots during a run.
+    pub reboots: Vec<Reboot>,
+    /// Lock criterion.
+    pub lock: LockCriterion,
+    /// Longest run, nominal update intervals; a run that has not locked by then counts as
+    /// never locked.
+    pub horizon_updates: u64,
+}
+
+impl Scenario {
+    /// A scenario with ideal crystals, lock-step updates, ideal beacons, start phases
+    /// spread over a tenth of a turn, no reboots, a tolerance of 10⁻³ turn held for 10
+    /// updates, and a horizon of 100,000 updates.
+    #[must_use]
+    pub fn new(links: Links, config: Config, tick_hz: f64) -> Scenario {
+        Scenario {
+            links,
+            config,
+            tick_hz,
+            crystals: Crystals::Identical { ppm: 0.0 },
+            schedule: Schedule::LOCK_STEP,
+            beacons: Beacons::IDEAL,
+            start: StartPhases::Uniform { spread_turns: 0.1 },
+            reboots: Vec::new(),
+            lock: LockCriterion {
+                tolerance_turns: 1e-3,
+                hold_updates: 10,
+            },
+            horizon_updates: 100_000,
+        }
+    }
+
+    /// Number of nodes.
+    #[must_use]
+    pub fn nodes(&self) -> usize {
+        self.links.nodes()
+    }
+
+    /// Nominal update interval, seconds.
+    #[must_use]
+    pub fn update_period_s(&self) -> f64 {
+        f64::from(self.config.update_ticks()) / self.tick_hz
+    }
+
+    /// Nominal phase period (one turn), seconds.
+    #[must_use]
+    pub fn phase_period_s(&self) -> f64 {
+        f64::from(self.config.ticks_per_period()) / self.tick_hz
+    }
+
+    /// Check every field against its documented range.
+    ///
+    /// # Errors
+    /// The first bad field as a [`SimError`].
+    pub fn validate(&self) -> Result<(), SimError> {
+        let n = self.nodes();
+        if !(self.tick_hz.is_finite() && self.tick_hz > 0.0) {
+            return Err(invalid("tick_hz", "finite and above 0"));
+        }
+        let ppm_ok = |e: f64| e.is_finite() && e.abs() <= 1e5;
+        match &self.crystals {
+            Crystals::Identical { ppm } if !ppm_ok(*ppm) => {
+                return Err(invalid("crystal ppm", "finite, within ±100000"));
+            }
+            Crystals::Uniform { tolerance_ppm }
+                if !(ppm_ok(*tolerance_ppm) && *tolerance_ppm >= 0.0) =>
+            {
+                return Err(invalid("tolerance_ppm", "from 0 to 100000"));
+            }
+            Crystals::Fixed(v) => {
+                if v.len() != n {
+                    return Err(SimError::WrongLength {
+                        name: "crystal ppm list",
+                        needed: n,
+                        got: v.len(),
+                    });
+                }
+                if !v.iter().all(|e| ppm_ok(*e)) {
+                    return Err(invalid("crystal ppm", "finite, within ±100000"));
+                }
+            }
+            _ => {}
+        }
+        let update = self.config.update_ticks();
+        if u64::from(self.schedule.jitter_ticks) * 2 >= u64::from(update) {
+            return Err(invalid("jitter_ticks", "below half the update interval"));
+        }
+        if !(self.beacons.success_prob > 0.0 && self.beacons.success_prob <= 1.0) {
+            return Err(invalid("success_prob", "above 0 and at most 1"));
+        }
+        if self.beacons.timestamp_jitter_ticks > i32::MAX as u32 / 2 {
+            return Err(invalid("timestamp_jitter_ticks", "at most 1073741823"));
+        }
+        if self.beacons.latency_ticks > i32::MAX as u32 / 2 {
+            return Err(invalid("latency_ticks", "at most 1073741823"));
+        }
+        match &self.start {
+            StartPhases::Uniform { spread_turns }
+                if !(spread_turns.is_finite() && (0.0..=1.0).contains(spread_turns)) =>
+            {
+                return Err(invalid("spread_turns", "from 0 to 1"));
+            }
+            StartPhases::Fixed(v) => {
+                if v.len() != n {
+                    return Err(SimError::WrongLength {
+                        name: "start phase list",
+                        needed: n,
+                        got: v.len(),
+                    });
+                }
+                if !v.iter().all(|p| p.is_finite()) {
+                    return Err(invalid("start phase", "finite"));
+                }
+            }
+            _ => {}
+        }
+        for r in &self.reboots {
+            if r.node >= n {
+                return Err(invalid("reboot node", "a node index below the node count"));
+            }
+            if r.down_updates < 1 {
+                return Err(invalid("reboot down_updates", "at least 1"));
+            }
+        }
+        let tol = self.lock.tolerance_turns;
+        if !(tol.is_finite() && tol > 0.0 && tol < 0.5) {
+            return Err(invalid("tolerance_turns", "above 0 and below 0.5"));
+        }
+        if self.horizon_updates < 1 {
+            return Err(invalid("horizon_updates", "at least 1"));
+        }
+        // Real time runs in sub-ticks of 2^-16 nominal tick, held below 2^62; leave room
+        // for the slowest crystal (10 % slow) and a reboot's restart offset.
+        let max_updates = (1u64 << 45) / u64::from(update);
+        let last_reboot = self
+            .reboots
+            .iter()
+            .map(|r| r.at_updates.saturating_add(r.down_updates))
+            .max()
+            .unwrap_or(0);
+        let needed = self
+            .horizon_updates
+            .max(last_reboot)
+            .saturating_add(self.lock.hold_updates)
+            .saturating_add(2);
+        if needed > max_updates {
+            return Err(SimError::HorizonTooLong { max_updates });
+        }
+        Ok(())
+    }
+}
+
+fn invalid(name: &'static str, valid: &'static str) -> SimError {
+    SimError::InvalidParameter { name, valid }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn grid_and_torus_have_the_right_link_counts() {
+        // A rows×cols grid has rows(cols−1) + cols(rows−1) links; a torus 2·rows·cols.
+        assert_eq!(
+            Links::grid(3, 4, false).unwrap().pairs().len(),
+            3 * 3 + 4 * 2
+        );
+        assert_eq!(Links::grid(3, 4, true).unwrap().pairs().len(), 24);
+        assert_eq!(Links::grid(3, 4, true).unwrap().max_degree(), 4);
+        assert_eq!(Links::complete(5).unwrap().pairs().len(), 10);
+        assert_eq!(Links::star(5).unwrap().max_degree(), 4);
+    }
+
+    #[test]
+    fn bad_links_are_named() {
+        assert_eq!(
+            Links::from_pairs(3, &[(0, 1), (1, 3)]),
+            Err(SimError::LinkOutOfRange {
+                link: 1,
+                node: 3,
+                nodes: 3
+            })
+        );
+        assert_eq!(
+            Links::from_pairs(3, &[(2, 2)]),
+            Err(SimError::SelfLink { node: 2 })
+        );
+        assert!(matches!(
+            Links::star(300),
+            Err(SimError::DegreeTooHigh { max: 255, .. })
+        ));
+        assert_eq!(
+            Links::ring(2),
+            Err(SimError::TooFewNodes { min: 3, got: 2 })
+        );
+    }
+
+    #[test]
+    fn adjacency_lists_both_directions() {
+        let (off, tgt) = Links::chain(3).unwrap().adjacency();
+        assert_eq!(off, vec![0, 1, 3, 4]);
+        assert_eq!(tgt, vec![1, 0, 2, 1]);
+    }
+
+    #[test]
+    fn validation_names_the_bad_field() {
+        let config = Config::builder(1000, 100).build().unwrap();
+        let mut s = Scenario::new(Links::chain(4).unwrap(), config, 1e6);
+        assert_eq!(s.validate(), Ok(()));
+        s.schedule.jitter_ticks = 50;
+        assert!(matches!(
+            s.validate(),
+            Err(SimError::InvalidParameter {
+                name: "jitter_ticks",
+                ..
+            })
+        ));
+        s.schedule.jitter_ticks = 0;
+        s.crystals = Crystals::Fixed(vec![1.0; 3]);
+        assert!(matches!(
+            s.validate(),
+            Err(SimError::WrongLength {
+                needed: 4,
+                got: 3,
+                ..
+            })
+        ));
+        s.crystals = Crystals::Identical { ppm: f64::NAN };
+        assert!(s.validate().is_err());
+        s.crystals = Crystals::Identical { ppm: 0.0 };
+        s.horizon_updates = u64::MAX;
+        assert!(matches!(s.validate(), Err(SimError::HorizonTooLong { .. })));
+    }
+}

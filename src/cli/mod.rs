@@ -583,7 +583,7 @@ fn prediction_warnings(scenario: &Scenario, chosen: &Chosen, p: &Prediction) -> 
     {
         add(
             "lock_test_sufficient_only",
-            "the worst-case lock test on a graph with loops is sufficient, not exact: it may refuse gains that would lock".to_owned(),
+            "the worst-case lock test on a general graph is sufficient, exact only for trees: it may refuse gains that would lock".to_owned(),
         );
     }
     w

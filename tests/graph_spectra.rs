@@ -3,28 +3,56 @@
 #![cfg(feature = "check")]
 
 use entrain::graph::{Graph, GraphError};
-use entrain::plan::{Topology, stability, Law, Model};
+use entrain::plan::{Law, Model, Topology, stability};
 use nalgebra::{DMatrix, SymmetricEigen};
 use proptest::prelude::*;
 
 #[test]
 fn bad_edge_lists_are_errors() {
     assert_eq!(Graph::from_edges(0, &[]), Err(GraphError::NoNodes));
-    assert_eq!(Graph::from_edges(3, &[(0, 1), (1, 1)]), Err(GraphError::SelfLoop { edge: 1, node: 1 }));
-    assert_eq!(Graph::from_edges(3, &[(0, 1), (1, 0)]), Err(GraphError::DuplicateEdge { first: 0, second: 1 }));
-    assert_eq!(Graph::from_edges(3, &[(0, 3)]), Err(GraphError::NodeOutOfRange { edge: 0, node: 3, nodes: 3 }));
+    assert_eq!(
+        Graph::from_edges(3, &[(0, 1), (1, 1)]),
+        Err(GraphError::SelfLoop { edge: 1, node: 1 })
+    );
+    assert_eq!(
+        Graph::from_edges(3, &[(0, 1), (1, 0)]),
+        Err(GraphError::DuplicateEdge {
+            first: 0,
+            second: 1
+        })
+    );
+    assert_eq!(
+        Graph::from_edges(3, &[(0, 3)]),
+        Err(GraphError::NodeOutOfRange {
+            edge: 0,
+            node: 3,
+            nodes: 3
+        })
+    );
     for w in [0.0, -1.0, f64::NAN, f64::INFINITY] {
-        assert_eq!(Graph::from_weighted_edges(2, &[(0, 1, w)]), Err(GraphError::BadWeight { edge: 0 }));
+        assert_eq!(
+            Graph::from_weighted_edges(2, &[(0, 1, w)]),
+            Err(GraphError::BadWeight { edge: 0 })
+        );
     }
     let split = Graph::from_edges(4, &[(0, 1), (2, 3)]).unwrap();
     assert_eq!(split.component_count(), 2);
-    assert_eq!(split.sparse_spectrum(), Err(GraphError::Disconnected { components: 2 }));
-    assert_eq!(split.worst_flow_factor(), Err(GraphError::Disconnected { components: 2 }));
+    assert_eq!(
+        split.sparse_spectrum(),
+        Err(GraphError::Disconnected { components: 2 })
+    );
+    assert_eq!(
+        split.worst_flow_factor(),
+        Err(GraphError::Disconnected { components: 2 })
+    );
     let summary = split.spectrum().unwrap();
     assert!(!summary.connected && summary.lambda_slow == 0.0);
     // The planner refuses it with a clear error, never a NaN.
     let m = Model::p_only(Law::Linear, 0.2, 0.1, 1e-3);
-    assert_eq!(stability(&m, &summary), Err(entrain::plan::PlanError::Disconnected));
+    assert_eq!(
+        stability(&m, &summary),
+        Err(entrain::plan::PlanError::Disconnected)
+    );
     assert!(split.edge_flows(&[0.0; 3]).is_err());
     assert!(Graph::from_edges(1, &[]).unwrap().spectrum().is_err());
 }
@@ -41,7 +69,12 @@ fn reference_laplacian(n: usize, edges: &[(usize, usize, f64)]) -> DMatrix<f64> 
 }
 
 /// A connected random graph: a random spanning tree plus extra edges, random weights.
-fn random_graph(n: usize, extra: &[(usize, usize)], parents: &[usize], weights: &[f64]) -> Vec<(usize, usize, f64)> {
+fn random_graph(
+    n: usize,
+    extra: &[(usize, usize)],
+    parents: &[usize],
+    weights: &[f64],
+) -> Vec<(usize, usize, f64)> {
     let mut edges = Vec::new();
     let mut seen = std::collections::HashSet::new();
     for i in 1..n {
@@ -104,8 +137,14 @@ fn topologies_round_trip_through_graph() {
         let g = Graph::from_topology(&t).unwrap();
         let closed = t.spectrum().unwrap();
         let numeric = g.spectrum().unwrap();
-        assert!((closed.lambda_slow - numeric.lambda_slow).abs() < 1e-12, "{t:?}");
-        assert!((closed.lambda_max - numeric.lambda_max).abs() < 1e-12, "{t:?}");
+        assert!(
+            (closed.lambda_slow - numeric.lambda_slow).abs() < 1e-12,
+            "{t:?}"
+        );
+        assert!(
+            (closed.lambda_max - numeric.lambda_max).abs() < 1e-12,
+            "{t:?}"
+        );
         assert_eq!(closed.max_degree, numeric.max_degree);
         if let Ok(f) = t.worst_flow_factor() {
             assert!((g.worst_flow_factor().unwrap() - f).abs() < 1e-9, "{t:?}");
@@ -136,11 +175,63 @@ fn sparse_chain_100k_matches_closed_form() {
     let g = Graph::from_topology(&t).unwrap();
     let s = g.sparse_spectrum().unwrap();
     let want = t.lambda_slow().unwrap();
-    assert!(((s.lambda2 - want) / want).abs() < 1e-6, "{} vs {want}", s.lambda2);
+    assert!(
+        ((s.lambda2 - want) / want).abs() < 1e-6,
+        "{} vs {want}",
+        s.lambda2
+    );
     let top = t.lambda_max().unwrap();
     assert!(((s.lambda_max - top) / top).abs() < 1e-6 && s.lambda_max_upper >= top * (1.0 - 1e-12));
     // The slow mode is the half-cosine: largest at the two ends, opposite signs.
     let first = s.slow_mode[0];
     let last = s.slow_mode[n - 1];
     assert!((first.abs() - 1.0).abs() < 1e-3 && (first + last).abs() < 1e-3);
+}
+
+#[test]
+fn huge_graph_is_refused_before_allocating() {
+    assert!(matches!(
+        Graph::from_edges(usize::MAX, &[]),
+        Err(GraphError::TooManyNodes { .. })
+    ));
+}
+
+#[test]
+fn worst_pattern_loads_an_edge_to_the_flow_factor() {
+    // Dörfler, Chertkov & Bullo 2013: the worst ±w drift loads edge e to w·‖L†b_e‖₁.
+    let mut edges: Vec<(usize, usize)> = (0..9).map(|i| (i, (i + 1) % 9)).collect();
+    edges.extend([(0, 4), (2, 7), (9, 3), (10, 9), (10, 5)]);
+    let g = Graph::from_edges(11, &edges).unwrap();
+    let w = 3.0;
+    let pattern = g.worst_crystal_pattern(w).unwrap();
+    assert!(pattern.iter().all(|p| p.abs() == w));
+    let flows = g.edge_flows(&pattern).unwrap();
+    let peak = flows.iter().map(|f| f.abs()).fold(0.0, f64::max);
+    assert!((peak - w * g.worst_flow_factor().unwrap()).abs() < 1e-9);
+    // On a chain it is the first half against the second (Strogatz & Mirollo 1988).
+    let chain = Graph::from_topology(&Topology::Chain { nodes: 6 }).unwrap();
+    let p = chain.worst_crystal_pattern(1.0).unwrap();
+    assert!(
+        p == [1.0, 1.0, 1.0, -1.0, -1.0, -1.0] || p == [-1.0, -1.0, -1.0, 1.0, 1.0, 1.0],
+        "{p:?}"
+    );
+}
+
+#[test]
+fn summary_reports_everything_or_disconnection() {
+    let g = Graph::from_topology(&Topology::Ring { nodes: 12 }).unwrap();
+    let s = g.summary().unwrap();
+    assert_eq!(s.eigenvalues.as_ref().map(Vec::len), Some(12));
+    assert_eq!(s.slow_mode.len(), 12);
+    // Ring flow factor N/4 (even N), checked against nalgebra in plan_lock.rs.
+    assert!((s.worst_flow_factor.unwrap() - 3.0).abs() < 1e-9);
+    let split = Graph::from_edges(5, &[(0, 1), (1, 2), (3, 4)])
+        .unwrap()
+        .summary()
+        .unwrap();
+    assert!(
+        !split.spectrum.connected
+            && split.worst_flow_factor.is_none()
+            && split.slow_mode.is_empty()
+    );
 }

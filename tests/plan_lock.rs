@@ -6,8 +6,8 @@
 use std::f64::consts::PI;
 
 use entrain::plan::{
-    Law, Model, PlanError, Topology, chain_lock, kp_lock_minimum, lock_worst_case, pinned_chain_lock,
-    worst_chain_pattern,
+    Law, Model, PlanError, Topology, chain_lock, kp_lock_minimum, lock_worst_case,
+    pinned_chain_lock, worst_chain_pattern,
 };
 use nalgebra::DMatrix;
 
@@ -22,10 +22,20 @@ fn strogatz_mirollo_critical_coupling() {
     let omega = [1.0, 0.2, -0.5, -0.7];
     let mut offsets = [0.0; 3];
     let kc = 1.2;
-    let above = chain_lock(&unit_model(Law::Sine, 2.0 * PI * kc * 1.001), &omega, &mut offsets).unwrap();
+    let above = chain_lock(
+        &unit_model(Law::Sine, 2.0 * PI * kc * 1.001),
+        &omega,
+        &mut offsets,
+    )
+    .unwrap();
     assert!(above.locks);
     assert!((above.edge_flow_turns_per_update - kc).abs() < 1e-12);
-    let below = chain_lock(&unit_model(Law::Sine, 2.0 * PI * kc * 0.999), &omega, &mut offsets).unwrap();
+    let below = chain_lock(
+        &unit_model(Law::Sine, 2.0 * PI * kc * 0.999),
+        &omega,
+        &mut offsets,
+    )
+    .unwrap();
     assert!(!below.locks);
     // Edge offsets −arcsin(S_k/K)/(2π) with S = [1.0, 1.2, 0.7] (partial sums by hand).
     let k = 2.0;
@@ -38,7 +48,11 @@ fn strogatz_mirollo_critical_coupling() {
     // Linear law: offsets −S_k/kp, lock iff below ½ turn.
     let lin = chain_lock(&unit_model(Law::Linear, 3.0), &omega, &mut offsets).unwrap();
     assert!(lin.locks && (offsets[1] + 0.4).abs() < 1e-12);
-    assert!(!chain_lock(&unit_model(Law::Linear, 2.4), &omega, &mut offsets).unwrap().locks);
+    assert!(
+        !chain_lock(&unit_model(Law::Linear, 2.4), &omega, &mut offsets)
+            .unwrap()
+            .locks
+    );
 }
 
 #[test]
@@ -99,7 +113,9 @@ fn worst_chain_pattern_is_worst_by_brute_force() {
         let mut worst = 0.0f64;
         let mut offsets = vec![0.0; n - 1];
         for bits in 0u32..(1 << n) {
-            let omega: Vec<f64> = (0..n).map(|i| if bits >> i & 1 == 1 { w } else { -w }).collect();
+            let omega: Vec<f64> = (0..n)
+                .map(|i| if bits >> i & 1 == 1 { w } else { -w })
+                .collect();
             let l = chain_lock(&unit_model(Law::Sine, 100.0), &omega, &mut offsets).unwrap();
             worst = worst.max(l.edge_flow_turns_per_update);
         }
@@ -146,29 +162,80 @@ fn worst_case_verdict_and_pi_trims() {
     assert!((l.edge_flow_turns_per_update - 2e-3 * 4.0).abs() < 1e-15);
     assert_eq!(l.locks, 2e-3 * 4.0 <= 0.2 / (2.0 * PI));
     let kmin = kp_lock_minimum(&m, f, 20.0);
-    assert!(lock_worst_case(&Model { kp: kmin * 1.0001, ..m }, &sp, f, 20.0).unwrap().locks);
-    assert!(!lock_worst_case(&Model { kp: kmin * 0.9999, ..m }, &sp, f, 20.0).unwrap().locks);
+    assert!(
+        lock_worst_case(
+            &Model {
+                kp: kmin * 1.0001,
+                ..m
+            },
+            &sp,
+            f,
+            20.0
+        )
+        .unwrap()
+        .locks
+    );
+    assert!(
+        !lock_worst_case(
+            &Model {
+                kp: kmin * 0.9999,
+                ..m
+            },
+            &sp,
+            f,
+            20.0
+        )
+        .unwrap()
+        .locks
+    );
     // PI: zero offset; trims span ē − e_i.
-    let pi = Model { ki: 0.02, trim_limit_ppm: 50.0, ..m };
+    let pi = Model {
+        ki: 0.02,
+        trim_limit_ppm: 50.0,
+        ..m
+    };
     let mut offsets = [0.0; 3];
     let l = chain_lock(&pi, &[10.0, -5.0, 3.0, -8.0], &mut offsets).unwrap();
     assert_eq!(offsets, [0.0; 3]);
     assert!((l.trim_min_ppm - (0.0 - 10.0)).abs() < 1e-12 && (l.trim_max_ppm - 8.0).abs() < 1e-12);
     assert!(l.locks && l.max_offset_turns == 0.0);
-    let tight = Model { trim_limit_ppm: 5.0, ..pi };
-    assert!(!chain_lock(&tight, &[10.0, -5.0, 3.0, -8.0], &mut offsets).unwrap().locks);
+    let tight = Model {
+        trim_limit_ppm: 5.0,
+        ..pi
+    };
+    assert!(
+        !chain_lock(&tight, &[10.0, -5.0, 3.0, -8.0], &mut offsets)
+            .unwrap()
+            .locks
+    );
     // Slew limit below the needed correction: no lock.
-    let slow = Model { slew_limit_turns: 1e-4, ..Model::p_only(Law::Sine, 2.0, 0.1, 1e-3) };
-    assert!(!chain_lock(&slow, &[10.0, -5.0, 3.0, -8.0], &mut offsets).unwrap().slew_ok);
+    let slow = Model {
+        slew_limit_turns: 1e-4,
+        ..Model::p_only(Law::Sine, 2.0, 0.1, 1e-3)
+    };
+    assert!(
+        !chain_lock(&slow, &[10.0, -5.0, 3.0, -8.0], &mut offsets)
+            .unwrap()
+            .slew_ok
+    );
 }
 
 #[test]
 fn bad_lock_inputs_are_errors() {
     let m = unit_model(Law::Sine, 1.0);
     let mut out = [0.0; 1];
-    assert!(matches!(chain_lock(&m, &[1.0], &mut []), Err(PlanError::TooFewNodes { .. })));
-    assert!(matches!(chain_lock(&m, &[1.0, 2.0, 3.0], &mut out), Err(PlanError::WrongLength { needed: 2, got: 1 })));
-    assert!(matches!(chain_lock(&m, &[1.0, f64::NAN], &mut out), Err(PlanError::InvalidParameter { .. })));
+    assert!(matches!(
+        chain_lock(&m, &[1.0], &mut []),
+        Err(PlanError::TooFewNodes { .. })
+    ));
+    assert!(matches!(
+        chain_lock(&m, &[1.0, 2.0, 3.0], &mut out),
+        Err(PlanError::WrongLength { needed: 2, got: 1 })
+    ));
+    assert!(matches!(
+        chain_lock(&m, &[1.0, f64::NAN], &mut out),
+        Err(PlanError::InvalidParameter { .. })
+    ));
     assert!(worst_chain_pattern(-1.0, false, &mut out).is_err());
     let sp = Topology::Chain { nodes: 3 }.spectrum().unwrap();
     assert!(lock_worst_case(&m, &sp, 1.0, f64::NAN).is_err());

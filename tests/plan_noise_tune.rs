@@ -2,8 +2,8 @@
 #![cfg(feature = "plan")]
 
 use entrain::plan::{
-    Budget, Infeasibility, Law, MIN_GAIN_MARGIN, Model, PlanError, Spread, Topology, continuous_coherence,
-    mode_variance, phase_jitter, settle, stability, tune, tune_topology,
+    Budget, Infeasibility, Law, MIN_GAIN_MARGIN, Model, PlanError, Spread, Topology,
+    continuous_coherence, mode_variance, phase_jitter, settle, stability, tune, tune_topology,
 };
 use nalgebra::{DMatrix, DVector};
 
@@ -11,10 +11,16 @@ use nalgebra::{DMatrix, DVector};
 fn bamieh_p5_coherence() {
     // Bamieh, Jovanović, Mitra & Patterson, IEEE TAC 57 (2012): (σ²/2N)·Σ1/λ, P5: 0.4.
     let t = Topology::Chain { nodes: 5 };
-    assert!((continuous_coherence(1.0, 5, t.sum_inverse_eigenvalues().unwrap()) - 0.4).abs() < 1e-12);
+    assert!(
+        (continuous_coherence(1.0, 5, t.sum_inverse_eigenvalues().unwrap()) - 0.4).abs() < 1e-12
+    );
     // The discrete per-mode variance tends to it for small gains: kp/(2λ) per mode.
     let kp = 1e-5;
-    let discrete: f64 = t.nonzero_modes().map(|l| mode_variance(kp, 0.0, l) / kp).sum::<f64>() / 5.0;
+    let discrete: f64 = t
+        .nonzero_modes()
+        .map(|l| mode_variance(kp, 0.0, l) / kp)
+        .sum::<f64>()
+        / 5.0;
     assert!((discrete - 0.4).abs() < 1e-4, "{discrete}");
 }
 
@@ -28,7 +34,10 @@ fn pi_mode_variance_matches_lyapunov() {
         let k = DMatrix::identity(4, 4) - a.kronecker(&a);
         let vec_q = DVector::from_iterator(4, q.iter().copied());
         let sigma = k.lu().solve(&vec_q).unwrap();
-        assert!((mode_variance(kp, ki, lambda) - sigma[0]).abs() < 1e-10 * sigma[0], "{kp} {ki} {lambda}");
+        assert!(
+            (mode_variance(kp, ki, lambda) - sigma[0]).abs() < 1e-10 * sigma[0],
+            "{kp} {ki} {lambda}"
+        );
     }
 }
 
@@ -38,7 +47,10 @@ fn ring_jitter_scales_with_timestamp_jitter() {
     let t = Topology::Ring { nodes: 10 };
     let m = Model::p_only(Law::Linear, 0.25, 0.1, 1e-3);
     let n = phase_jitter(&m, &t.spectrum().unwrap(), t.nonzero_modes(), 1e-6).unwrap();
-    let sum: f64 = t.nonzero_modes().map(|l| 0.25f64.powi(2) / (1.0 - (1.0 - 0.25 * l).powi(2))).sum();
+    let sum: f64 = t
+        .nonzero_modes()
+        .map(|l| 0.25f64.powi(2) / (1.0 - (1.0 - 0.25 * l).powi(2)))
+        .sum();
     let want = (2.0 * 1e-6f64.powi(2) * sum / 10.0).sqrt(); // in turns·P = seconds
     assert!((n.phase_sd_s - want).abs() < 1e-12 * want.max(1e-30) + 1e-18);
     assert!(phase_jitter(&m, &t.spectrum().unwrap(), t.nonzero_modes(), -1.0).is_err());
@@ -48,7 +60,10 @@ fn ring_jitter_scales_with_timestamp_jitter() {
 fn string_budget(budget_s: f64, ppm: f64) -> Budget {
     Budget {
         lock_time_budget_s: budget_s,
-        spread: Spread { initial_spread_s: 4e-4, tolerance_s: 1e-5 },
+        spread: Spread {
+            initial_spread_s: 4e-4,
+            tolerance_s: 1e-5,
+        },
         crystal_tolerance_ppm: ppm,
     }
 }
@@ -63,7 +78,10 @@ fn tuner_recommends_gains_that_meet_the_budget() {
     let (lo, hi) = tuning.kp_range.unwrap();
     assert!(lo <= r.kp && r.kp <= hi);
     // Re-check the recommendation with the independent entry points.
-    let m = Model { kp: r.kp, ..template };
+    let m = Model {
+        kp: r.kp,
+        ..template
+    };
     let sp = t.spectrum().unwrap();
     let st = stability(&m, &sp).unwrap();
     assert!(st.stable && st.gain_margin >= MIN_GAIN_MARGIN * 0.999);
@@ -88,7 +106,10 @@ fn tuner_explains_a_short_budget() {
     // mode is antisymmetric with a node at the centre, so λ2(P_{2m+1}) = λ1(pinned m)
     // (Fiedler 1973 vs Yueh 2005); only the projection constant differs.
     let middle = tuning.alternatives.middle_reference_lock_s.unwrap();
-    assert!((middle / fastest - 1.0).abs() < 0.1, "{middle} vs {fastest}");
+    assert!(
+        (middle / fastest - 1.0).abs() < 0.1,
+        "{middle} vs {fastest}"
+    );
     // Splitting the chain in two quarters λ2's inverse: much faster.
     assert!(tuning.alternatives.split_in_two_lock_s.unwrap() < 0.5 * fastest);
 }
@@ -100,7 +121,11 @@ fn tuner_reports_cannot_lock_and_pi_trims() {
     let tuning = tune_topology(&template, &t, &string_budget(600.0, 5e4)).unwrap();
     assert_eq!(tuning.infeasibility, Some(Infeasibility::CannotLock));
     // The PI law needs no lock capacity, only trims.
-    let pi = Model { ki: 0.01, trim_limit_ppm: 200.0, ..template };
+    let pi = Model {
+        ki: 0.01,
+        trim_limit_ppm: 200.0,
+        ..template
+    };
     let ok = tune_topology(&pi, &t, &string_budget(600.0, 50.0)).unwrap();
     assert!(ok.feasible, "{ok:?}");
     let r = ok.recommended.unwrap();
@@ -113,11 +138,34 @@ fn tuner_reports_cannot_lock_and_pi_trims() {
 fn tuner_bad_inputs_are_errors() {
     let sp = Topology::Chain { nodes: 5 }.spectrum().unwrap();
     let m = Model::p_only(Law::Sine, 0.1, 0.1, 1e-3);
-    assert!(matches!(tune(&m, &sp, None, &string_budget(0.0, 1.0)), Err(PlanError::InvalidParameter { .. })));
-    assert!(matches!(tune(&m, &sp, None, &string_budget(f64::NAN, 1.0)), Err(PlanError::InvalidParameter { .. })));
-    assert!(matches!(tune(&m, &sp, None, &string_budget(1.0, -1.0)), Err(PlanError::InvalidParameter { .. })));
+    assert!(matches!(
+        tune(&m, &sp, None, &string_budget(0.0, 1.0)),
+        Err(PlanError::InvalidParameter { .. })
+    ));
+    assert!(matches!(
+        tune(&m, &sp, None, &string_budget(f64::NAN, 1.0)),
+        Err(PlanError::InvalidParameter { .. })
+    ));
+    assert!(matches!(
+        tune(&m, &sp, None, &string_budget(1.0, -1.0)),
+        Err(PlanError::InvalidParameter { .. })
+    ));
     let mut b = string_budget(1.0, 1.0);
     b.spread.tolerance_s = 1.0;
-    assert_eq!(tune(&m, &sp, None, &b), Err(PlanError::ToleranceNotBelowSpread));
-    assert!(tune(&Model { update_period_s: 0.0, ..m }, &sp, None, &string_budget(1.0, 1.0)).is_err());
+    assert_eq!(
+        tune(&m, &sp, None, &b),
+        Err(PlanError::ToleranceNotBelowSpread)
+    );
+    assert!(
+        tune(
+            &Model {
+                update_period_s: 0.0,
+                ..m
+            },
+            &sp,
+            None,
+            &string_budget(1.0, 1.0)
+        )
+        .is_err()
+    );
 }

@@ -49,7 +49,9 @@ fn edges_of(t: &Topology) -> Vec<(usize, usize)> {
         Topology::Chain { nodes } => path_edges(nodes),
         Topology::Ring { nodes } => (0..nodes).map(|i| (i, (i + 1) % nodes)).collect(),
         Topology::Star { nodes } => (1..nodes).map(|i| (0, i)).collect(),
-        Topology::Complete { nodes } => (0..nodes).flat_map(|i| (i + 1..nodes).map(move |j| (i, j))).collect(),
+        Topology::Complete { nodes } => (0..nodes)
+            .flat_map(|i| (i + 1..nodes).map(move |j| (i, j)))
+            .collect(),
         Topology::Grid { rows, cols } => {
             let mut e = Vec::new();
             for r in 0..rows {
@@ -97,14 +99,26 @@ fn path_p5_table() {
 #[test]
 fn cycle_c6_table() {
     // Brouwer & Haemers 2012 §1.4.
-    assert_close(&sorted(&Topology::Ring { nodes: 6 }), &[0.0, 1.0, 1.0, 3.0, 3.0, 4.0], TABLE_TOL);
+    assert_close(
+        &sorted(&Topology::Ring { nodes: 6 }),
+        &[0.0, 1.0, 1.0, 3.0, 3.0, 4.0],
+        TABLE_TOL,
+    );
 }
 
 #[test]
 fn star_s5_and_complete_table() {
     // Brouwer & Haemers 2012 §1.4: S5 {0,1,1,1,5}; K_N {0, N (×N−1)}.
-    assert_close(&sorted(&Topology::Star { nodes: 5 }), &[0.0, 1.0, 1.0, 1.0, 5.0], TABLE_TOL);
-    assert_close(&sorted(&Topology::Complete { nodes: 4 }), &[0.0, 4.0, 4.0, 4.0], TABLE_TOL);
+    assert_close(
+        &sorted(&Topology::Star { nodes: 5 }),
+        &[0.0, 1.0, 1.0, 1.0, 5.0],
+        TABLE_TOL,
+    );
+    assert_close(
+        &sorted(&Topology::Complete { nodes: 4 }),
+        &[0.0, 4.0, 4.0, 4.0],
+        TABLE_TOL,
+    );
 }
 
 #[test]
@@ -157,7 +171,10 @@ fn closed_forms_equal_dense_up_to_500_nodes() {
         assert_close(&sorted(&t), &dense, DENSE_TOL);
         let spec = t.spectrum().unwrap();
         assert!((spec.lambda_slow - dense[1]).abs() <= DENSE_TOL, "{t:?}");
-        assert!((spec.lambda_max - dense[dense.len() - 1]).abs() <= DENSE_TOL, "{t:?}");
+        assert!(
+            (spec.lambda_max - dense[dense.len() - 1]).abs() <= DENSE_TOL,
+            "{t:?}"
+        );
         let sum_inv: f64 = dense.iter().skip(1).map(|l| 1.0 / l).sum();
         let rel = (t.sum_inverse_eigenvalues().unwrap() - sum_inv).abs() / sum_inv;
         assert!(rel < 1e-9, "{t:?}: {rel}");
@@ -171,7 +188,14 @@ fn closed_forms_equal_dense_up_to_500_nodes() {
 #[test]
 fn path_inverse_sum_table() {
     // Bamieh, Jovanović, Mitra & Patterson 2012: path Σ 1/λ = (N² − 1)/6; P5: 4.
-    assert!((Topology::Chain { nodes: 5 }.sum_inverse_eigenvalues().unwrap() - 4.0).abs() < 1e-12);
+    assert!(
+        (Topology::Chain { nodes: 5 }
+            .sum_inverse_eigenvalues()
+            .unwrap()
+            - 4.0)
+            .abs()
+            < 1e-12
+    );
 }
 
 #[test]
@@ -213,18 +237,43 @@ fn twisted_states_table() {
 
 #[test]
 fn bad_topologies_are_errors() {
-    assert_eq!(Topology::Chain { nodes: 0 }.spectrum(), Err(PlanError::TooFewNodes { min: 2, got: 0 }));
-    assert_eq!(Topology::Ring { nodes: 2 }.validate(), Err(PlanError::TooFewNodes { min: 3, got: 2 }));
+    assert_eq!(
+        Topology::Chain { nodes: 0 }.spectrum(),
+        Err(PlanError::TooFewNodes { min: 2, got: 0 })
+    );
+    assert_eq!(
+        Topology::Ring { nodes: 2 }.validate(),
+        Err(PlanError::TooFewNodes { min: 3, got: 2 })
+    );
     assert!(Topology::Grid { rows: 0, cols: 5 }.validate().is_err());
-    assert_eq!(Topology::Grid { rows: usize::MAX, cols: 3 }.validate(), Err(PlanError::TooManyNodes));
-    assert_eq!(Topology::PinnedChain { nodes: 0 }.lambda_max(), Err(PlanError::TooFewNodes { min: 1, got: 0 }));
-    assert_eq!(Topology::Chain { nodes: 4 }.mode(4), Err(PlanError::ModeOutOfRange { index: 4, count: 4 }));
+    assert_eq!(
+        Topology::Grid {
+            rows: usize::MAX,
+            cols: 3
+        }
+        .validate(),
+        Err(PlanError::TooManyNodes)
+    );
+    assert_eq!(
+        Topology::PinnedChain { nodes: 0 }.lambda_max(),
+        Err(PlanError::TooFewNodes { min: 1, got: 0 })
+    );
+    assert_eq!(
+        Topology::Chain { nodes: 4 }.mode(4),
+        Err(PlanError::ModeOutOfRange { index: 4, count: 4 })
+    );
     let mut short = [0.0; 3];
-    assert_eq!(Topology::Chain { nodes: 4 }.eigenvalues(&mut short), Err(PlanError::WrongLength { needed: 4, got: 3 }));
+    assert_eq!(
+        Topology::Chain { nodes: 4 }.eigenvalues(&mut short),
+        Err(PlanError::WrongLength { needed: 4, got: 3 })
+    );
     assert!(tridiagonal_toeplitz_eigenvalue(1.0, -1.0, 1.0, 3, 1).is_err());
     assert!(tridiagonal_toeplitz_eigenvalue(f64::NAN, 1.0, 1.0, 3, 1).is_err());
     assert!(tridiagonal_toeplitz_eigenvalue(1.0, 1.0, 1.0, 3, 0).is_err());
-    assert_eq!(Topology::Grid { rows: 3, cols: 3 }.worst_flow_factor(), Err(PlanError::NoClosedForm));
+    assert_eq!(
+        Topology::Grid { rows: 3, cols: 3 }.worst_flow_factor(),
+        Err(PlanError::NoClosedForm)
+    );
 }
 
 proptest! {
@@ -235,7 +284,10 @@ proptest! {
         // (non-symmetric) matrix itself.
         let (b, c) = if sign { (-b, -c) } else { (b, c) };
         let m = DMatrix::from_fn(n, n, |i, j| if i == j { a } else if j == i + 1 { b } else if i == j + 1 { c } else { 0.0 });
-        let mut reference: Vec<f64> = m.complex_eigenvalues().iter().map(|z| { assert!(z.im.abs() < 1e-8); z.re }).collect();
+        // Schur with an iteration cap (the uncapped call can loop on rare inputs).
+        let schur = nalgebra::linalg::Schur::try_new(m, 1e-15, 100_000);
+        prop_assume!(schur.is_some());
+        let mut reference: Vec<f64> = schur.unwrap().complex_eigenvalues().iter().map(|z| { assert!(z.im.abs() < 1e-8); z.re }).collect();
         reference.sort_by(f64::total_cmp);
         let mut ours: Vec<f64> = (1..=n).map(|k| tridiagonal_toeplitz_eigenvalue(a, b, c, n, k).unwrap()).collect();
         ours.sort_by(f64::total_cmp);
@@ -254,4 +306,27 @@ fn middle_reference_equals_free_chain_of_twice_the_length() {
         let pinned = Topology::PinnedChain { nodes: m }.lambda_slow().unwrap();
         assert!((free - pinned).abs() < 1e-15);
     }
+}
+
+#[test]
+fn huge_counts_are_refused_not_overflowed() {
+    assert_eq!(
+        Topology::PinnedChain { nodes: usize::MAX }.spectrum(),
+        Err(PlanError::TooManyNodes)
+    );
+    assert_eq!(
+        Topology::Chain {
+            nodes: entrain::plan::MAX_NODES + 1
+        }
+        .lambda_slow(),
+        Err(PlanError::TooManyNodes)
+    );
+    assert_eq!(
+        Topology::Torus {
+            rows: 1 << 20,
+            cols: 1 << 20
+        }
+        .validate(),
+        Err(PlanError::TooManyNodes)
+    );
 }

@@ -41,12 +41,20 @@ impl Graph {
     /// [`GraphError::TooLargeForDense`] above [`DENSE_MAX_NODES`] nodes.
     pub fn laplacian_dense(&self) -> Result<DMatrix<f64>, GraphError> {
         if self.node_count() > DENSE_MAX_NODES {
-            return Err(GraphError::TooLargeForDense { nodes: self.node_count(), max: DENSE_MAX_NODES });
+            return Err(GraphError::TooLargeForDense {
+                nodes: self.node_count(),
+                max: DENSE_MAX_NODES,
+            });
         }
         let n = self.node_count();
         let mut l = DMatrix::<f64>::zeros(n, n);
         for e in self.edges() {
-            for (i, j, v) in [(e.a, e.a, e.weight), (e.b, e.b, e.weight), (e.a, e.b, -e.weight), (e.b, e.a, -e.weight)] {
+            for (i, j, v) in [
+                (e.a, e.a, e.weight),
+                (e.b, e.b, e.weight),
+                (e.a, e.b, -e.weight),
+                (e.b, e.a, -e.weight),
+            ] {
                 if let Some(x) = l.get_mut((i, j)) {
                     *x += v;
                 }
@@ -60,29 +68,47 @@ impl Graph {
     /// disconnected graphs too (then λ2 ≈ 0).
     ///
     /// # Errors
-    /// [`GraphError::TooLargeForDense`] above [`DENSE_MAX_NODES`] nodes.
+    /// [`GraphError::TooLargeForDense`] above [`DENSE_MAX_NODES`] nodes;
+    /// [`GraphError::NoConvergence`] if the eigensolver hits its iteration cap.
     pub fn dense_spectrum(&self) -> Result<DenseSpectrum, GraphError> {
         let l = self.laplacian_dense()?;
         let n = self.node_count();
-        let eig = SymmetricEigen::new(l);
+        // Capped iteration count: symmetric QR converges in O(N) sweeps, the cap only
+        // turns a pathological input into an error instead of a hang.
+        let eig = SymmetricEigen::try_new(l, f64::EPSILON, 1_000_000).ok_or(
+            GraphError::NoConvergence {
+                relative_residual: f64::NAN,
+            },
+        )?;
         let mut order: Vec<usize> = (0..n).collect();
         order.sort_by(|&a, &b| {
             let va = eig.eigenvalues.get(a).copied().unwrap_or(f64::INFINITY);
             let vb = eig.eigenvalues.get(b).copied().unwrap_or(f64::INFINITY);
             va.total_cmp(&vb)
         });
-        let eigenvalues: Vec<f64> = order.iter().filter_map(|&k| eig.eigenvalues.get(k).copied()).collect();
+        let eigenvalues: Vec<f64> = order
+            .iter()
+            .filter_map(|&k| eig.eigenvalues.get(k).copied())
+            .collect();
         let slow_mode = match order.get(1) {
-            Some(&k) if k < eig.eigenvectors.ncols() => normalise(eig.eigenvectors.column(k).iter().copied().collect()),
+            Some(&k) if k < eig.eigenvectors.ncols() => {
+                normalise(eig.eigenvectors.column(k).iter().copied().collect())
+            }
             _ => vec![0.0; n],
         };
-        Ok(DenseSpectrum { eigenvalues, slow_mode })
+        Ok(DenseSpectrum {
+            eigenvalues,
+            slow_mode,
+        })
     }
 }
 
 /// Scale so the largest magnitude is 1 and that entry is positive.
 pub(crate) fn normalise(mut v: Vec<f64>) -> Vec<f64> {
-    let peak = v.iter().copied().fold(0.0_f64, |m, x| if x.abs() > m.abs() { x } else { m });
+    let peak = v
+        .iter()
+        .copied()
+        .fold(0.0_f64, |m, x| if x.abs() > m.abs() { x } else { m });
     if peak != 0.0 {
         v.iter_mut().for_each(|x| *x /= peak);
     }

@@ -41,6 +41,13 @@ pub enum GraphError {
         /// Number of connected components (≥ 2).
         components: usize,
     },
+    /// More nodes than a graph may have ([`crate::graph::MAX_GRAPH_NODES`]).
+    TooManyNodes {
+        /// Node count that was given.
+        nodes: usize,
+        /// Largest accepted node count.
+        max: usize,
+    },
     /// The dense path was asked for more nodes than it handles.
     TooLargeForDense {
         /// Node count of the graph.
@@ -81,25 +88,47 @@ impl fmt::Display for GraphError {
         match *self {
             Self::NoNodes => f.write_str("graph has no nodes; it needs at least 2"),
             Self::NodeOutOfRange { edge, node, nodes } => {
-                write!(f, "edge {edge} names node {node}; valid nodes are 0..{nodes}")
+                write!(
+                    f,
+                    "edge {edge} names node {node}; valid nodes are 0..{nodes}"
+                )
             }
             Self::SelfLoop { edge, node } => write!(f, "edge {edge} joins node {node} to itself"),
             Self::DuplicateEdge { first, second } => {
                 write!(f, "edge {second} repeats edge {first} (same two nodes)")
             }
-            Self::BadWeight { edge } => write!(f, "edge {edge} has a weight that is not finite and > 0"),
+            Self::BadWeight { edge } => {
+                write!(f, "edge {edge} has a weight that is not finite and > 0")
+            }
             Self::Disconnected { components } => {
-                write!(f, "graph is disconnected ({components} components); its parts can never lock")
+                write!(
+                    f,
+                    "graph is disconnected ({components} components); its parts can never lock"
+                )
+            }
+            Self::TooManyNodes { nodes, max } => {
+                write!(f, "graph has {nodes} nodes; at most {max} are supported")
             }
             Self::TooLargeForDense { nodes, max } => {
-                write!(f, "graph has {nodes} nodes; the dense path handles at most {max}")
+                write!(
+                    f,
+                    "graph has {nodes} nodes; the dense path handles at most {max}"
+                )
             }
-            Self::TooSmall { nodes, min } => write!(f, "graph has {nodes} nodes; this method needs at least {min}"),
-            Self::WrongLength { needed, got } => write!(f, "slice has length {got}; it must have length {needed}"),
+            Self::TooSmall { nodes, min } => write!(
+                f,
+                "graph has {nodes} nodes; this method needs at least {min}"
+            ),
+            Self::WrongLength { needed, got } => {
+                write!(f, "slice has length {got}; it must have length {needed}")
+            }
             Self::NotFinite { name } => write!(f, "`{name}` contains a NaN or infinite value"),
             Self::Factorization => f.write_str("sparse Cholesky factorisation failed"),
             Self::NoConvergence { relative_residual } => {
-                write!(f, "eigensolver stopped at relative residual {relative_residual:e} without converging")
+                write!(
+                    f,
+                    "eigensolver stopped at relative residual {relative_residual:e} without converging"
+                )
             }
         }
     }

@@ -16,7 +16,10 @@ impl Graph {
     /// [`GraphError::Factorization`].
     pub fn edge_flows(&self, drift: &[f64]) -> Result<Vec<f64>, GraphError> {
         if drift.len() != self.node_count() {
-            return Err(GraphError::WrongLength { needed: self.node_count(), got: drift.len() });
+            return Err(GraphError::WrongLength {
+                needed: self.node_count(),
+                got: drift.len(),
+            });
         }
         if drift.iter().any(|d| !d.is_finite()) {
             return Err(GraphError::NotFinite { name: "drift" });
@@ -27,32 +30,68 @@ impl Graph {
         Ok(self
             .edges()
             .iter()
-            .map(|e| e.weight * (x.get(e.a).copied().unwrap_or(0.0) - x.get(e.b).copied().unwrap_or(0.0)))
+            .map(|e| {
+                e.weight * (x.get(e.a).copied().unwrap_or(0.0) - x.get(e.b).copied().unwrap_or(0.0))
+            })
             .collect())
     }
 
     /// Worst edge load per unit detuning: `max over edges e of ‖w_e·L†b_e‖₁`, so drifts
     /// within `±w` load no edge beyond `w ×` this (the input of
-    /// [`crate::plan::lock_worst_case`]). Dense `L†` via the eigen-decomposition; O(N³).
+    /// [`crate::plan::lock_worst_case`]). Dense `L†` via a Cholesky inverse; O(N³).
     ///
     /// # Errors
     /// [`GraphError::Disconnected`], [`GraphError::TooLargeForDense`].
     pub fn worst_flow_factor(&self) -> Result<f64, GraphError> {
+        self.worst_load().map(|(factor, _)| factor)
+    }
+
+    /// The crystal pattern within `±tolerance` (any unit) that loads the worst edge most:
+    /// `tolerance · sign(w_e·L†b_e)` for the edge e of [`Self::worst_flow_factor`]
+    /// (Dörfler, Chertkov & Bullo 2013). On a chain: the first half fast, the rest slow.
+    ///
+    /// # Errors
+    /// As [`Self::worst_flow_factor`], plus [`GraphError::NotFinite`] for a NaN tolerance.
+    pub fn worst_crystal_pattern(&self, tolerance: f64) -> Result<Vec<f64>, GraphError> {
+        if !tolerance.is_finite() {
+            return Err(GraphError::NotFinite { name: "tolerance" });
+        }
+        let (_, direction) = self.worst_load()?;
+        Ok(direction
+            .iter()
+            .map(|d| if *d >= 0.0 { tolerance } else { -tolerance })
+            .collect())
+    }
+
+    /// The worst edge load and that edge's column of `L†b_e`.
+    fn worst_load(&self) -> Result<(f64, Vec<f64>), GraphError> {
         self.require_connected()?;
         if self.node_count() > DENSE_MAX_NODES {
-            return Err(GraphError::TooLargeForDense { nodes: self.node_count(), max: DENSE_MAX_NODES });
+            return Err(GraphError::TooLargeForDense {
+                nodes: self.node_count(),
+                max: DENSE_MAX_NODES,
+            });
         }
         let n = self.node_count();
         // L† = (L + J/n)⁻¹ − J/n for a connected graph.
         let l = self.laplacian_dense()?;
         let shifted = l.add_scalar(1.0 / n as f64);
-        let inverse = shifted.cholesky().ok_or(GraphError::Factorization)?.inverse();
+        let inverse = shifted
+            .cholesky()
+            .ok_or(GraphError::Factorization)?
+            .inverse();
         let pinv = inverse.add_scalar(-1.0 / n as f64);
-        let mut worst = 0.0_f64;
+        let mut worst = (0.0_f64, vec![0.0; n]);
         for e in self.edges() {
             let (ca, cb) = (pinv.column(e.a), pinv.column(e.b));
-            let load: f64 = ca.iter().zip(cb.iter()).map(|(x, y)| (x - y).abs()).sum();
-            worst = worst.max(e.weight * load);
+            let load: f64 = e.weight
+                * ca.iter()
+                    .zip(cb.iter())
+                    .map(|(x, y)| (x - y).abs())
+                    .sum::<f64>();
+            if load > worst.0 {
+                worst = (load, ca.iter().zip(cb.iter()).map(|(x, y)| x - y).collect());
+            }
         }
         Ok(worst)
     }

@@ -36,8 +36,31 @@ pub use sparse::{SparseOptions, SparseSpectrum};
 
 use crate::plan::{Spectrum, Topology};
 
+/// Largest node count of a [`Graph`] (2^28; a larger count is refused before anything
+/// is allocated).
+pub const MAX_GRAPH_NODES: usize = 1 << 28;
+
 /// Largest node count of the dense path (an N×N matrix of `f64`: 128 MB at 4,000).
 pub const DENSE_MAX_NODES: usize = 4000;
+
+/// Node count up to which [`Graph::summary`] and [`Graph::spectrum`] take the dense path
+/// (about a second at 1,000 nodes; the dense cost grows as N³); the sparse path above.
+pub const DENSE_AUTO_MAX_NODES: usize = 1000;
+
+/// Everything the checker reports about a graph's spectrum, in one call
+/// ([`Graph::summary`]).
+#[derive(Clone, Debug, PartialEq)]
+pub struct GraphSummary {
+    /// The planner's input (λslow = λ2, λmax, degrees, connected or not).
+    pub spectrum: Spectrum,
+    /// Every eigenvalue, ascending, when the dense path ran (`node_count ≤ DENSE_AUTO_MAX_NODES`).
+    pub eigenvalues: Option<Vec<f64>>,
+    /// The slowest mode's shape (largest magnitude 1); empty for a disconnected graph.
+    pub slow_mode: Vec<f64>,
+    /// Worst edge load per unit detuning ([`Graph::worst_flow_factor`]) when the dense path
+    /// ran and the graph is connected.
+    pub worst_flow_factor: Option<f64>,
+}
 
 /// One undirected edge with its weight (coupling strength relative to a plain link).
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -76,28 +99,47 @@ impl Graph {
     /// (see [`Self::component_count`]); the spectrum methods report it.
     ///
     /// # Errors
-    /// [`GraphError::NoNodes`], [`GraphError::NodeOutOfRange`], [`GraphError::SelfLoop`],
+    /// [`GraphError::NoNodes`], [`GraphError::TooManyNodes`], [`GraphError::NodeOutOfRange`], [`GraphError::SelfLoop`],
     /// [`GraphError::DuplicateEdge`], [`GraphError::BadWeight`].
-    pub fn from_weighted_edges(nodes: usize, edges: &[(usize, usize, f64)]) -> Result<Self, GraphError> {
+    pub fn from_weighted_edges(
+        nodes: usize,
+        edges: &[(usize, usize, f64)],
+    ) -> Result<Self, GraphError> {
         if nodes == 0 {
             return Err(GraphError::NoNodes);
+        }
+        if nodes > MAX_GRAPH_NODES {
+            return Err(GraphError::TooManyNodes {
+                nodes,
+                max: MAX_GRAPH_NODES,
+            });
         }
         let mut seen = std::collections::HashMap::with_capacity(edges.len());
         let mut list = Vec::with_capacity(edges.len());
         for (index, &(a, b, weight)) in edges.iter().enumerate() {
             for node in [a, b] {
                 if node >= nodes {
-                    return Err(GraphError::NodeOutOfRange { edge: index, node, nodes });
+                    return Err(GraphError::NodeOutOfRange {
+                        edge: index,
+                        node,
+                        nodes,
+                    });
                 }
             }
             if a == b {
-                return Err(GraphError::SelfLoop { edge: index, node: a });
+                return Err(GraphError::SelfLoop {
+                    edge: index,
+                    node: a,
+                });
             }
             if !(weight.is_finite() && weight > 0.0) {
                 return Err(GraphError::BadWeight { edge: index });
             }
             if let Some(&first) = seen.get(&(a.min(b), a.max(b))) {
-                return Err(GraphError::DuplicateEdge { first, second: index });
+                return Err(GraphError::DuplicateEdge {
+                    first,
+                    second: index,
+                });
             }
             seen.insert((a.min(b), a.max(b)), index);
             list.push(Edge { a, b, weight });
@@ -133,7 +175,14 @@ impl Graph {
                 }
             }
         }
-        let mut graph = Self { nodes, edges: list, offsets, neighbours, degrees, components: 0 };
+        let mut graph = Self {
+            nodes,
+            edges: list,
+            offsets,
+            neighbours,
+            degrees,
+            components: 0,
+        };
         graph.components = graph.count_components();
         Ok(graph)
     }
@@ -229,7 +278,9 @@ impl Graph {
         if self.is_connected() {
             Ok(())
         } else {
-            Err(GraphError::Disconnected { components: self.components })
+            Err(GraphError::Disconnected {
+                components: self.components,
+            })
         }
     }
 
@@ -240,12 +291,19 @@ impl Graph {
     pub fn laplacian_times(&self, x: &[f64], y: &mut [f64]) -> Result<(), GraphError> {
         for len in [x.len(), y.len()] {
             if len != self.nodes {
-                return Err(GraphError::WrongLength { needed: self.nodes, got: len });
+                return Err(GraphError::WrongLength {
+                    needed: self.nodes,
+                    got: len,
+                });
             }
         }
         for (i, out) in y.iter_mut().enumerate() {
             let xi = x.get(i).copied().unwrap_or(0.0);
-            *out = self.neighbours(i).iter().map(|&(j, w)| w * (xi - x.get(j).copied().unwrap_or(0.0))).sum();
+            *out = self
+                .neighbours(i)
+                .iter()
+                .map(|&(j, w)| w * (xi - x.get(j).copied().unwrap_or(0.0)))
+                .sum();
         }
         Ok(())
     }
@@ -277,7 +335,66 @@ impl Graph {
         count
     }
 
-    /// Spectrum summary for the planner: dense up to [`DENSE_MAX_NODES`] nodes, sparse
+    /// The full report: spectrum summary, all eigenvalues and the flow factor where the
+    /// dense path applies (up to [`DENSE_AUTO_MAX_NODES`] nodes), the slowest mode's shape. A disconnected graph is reported with
+    /// `connected: false` (no error; the planner refuses it with
+    /// [`crate::plan::PlanError::Disconnected`]).
+    ///
+    /// # Errors
+    /// [`GraphError::TooSmall`] for a single node; sparse-path errors on large graphs.
+    pub fn summary(&self) -> Result<GraphSummary, GraphError> {
+        if self.nodes < 2 {
+            return Err(GraphError::TooSmall {
+                nodes: self.nodes,
+                min: 2,
+            });
+        }
+        let spectrum_of = |lambda_slow: f64, lambda_max: f64| Spectrum {
+            node_count: self.nodes,
+            lambda_slow,
+            lambda_max,
+            max_degree: self.max_degree(),
+            connected: self.is_connected(),
+            pinned: false,
+            stable_twisted_states: 0,
+        };
+        if self.nodes <= DENSE_AUTO_MAX_NODES {
+            let d = self.dense_spectrum()?;
+            let connected = self.is_connected();
+            let lambda_slow = if connected { d.lambda2() } else { 0.0 };
+            Ok(GraphSummary {
+                spectrum: spectrum_of(lambda_slow, d.lambda_max()),
+                slow_mode: if connected {
+                    d.slow_mode().to_vec()
+                } else {
+                    Vec::new()
+                },
+                eigenvalues: Some(d.eigenvalues().to_vec()),
+                worst_flow_factor: if connected {
+                    self.worst_flow_factor().ok()
+                } else {
+                    None
+                },
+            })
+        } else if self.is_connected() {
+            let s = self.sparse_spectrum()?;
+            Ok(GraphSummary {
+                spectrum: spectrum_of(s.lambda2, s.lambda_max_upper),
+                eigenvalues: None,
+                slow_mode: s.slow_mode,
+                worst_flow_factor: None,
+            })
+        } else {
+            Ok(GraphSummary {
+                spectrum: spectrum_of(0.0, 2.0 * self.max_degree()),
+                eigenvalues: None,
+                slow_mode: Vec::new(),
+                worst_flow_factor: None,
+            })
+        }
+    }
+
+    /// Spectrum summary for the planner: dense up to [`DENSE_AUTO_MAX_NODES`] nodes, sparse
     /// above (with `lambda_max` the sparse path's upper estimate). A disconnected graph
     /// gives `connected: false` and `lambda_slow: 0` (the planner then refuses it).
     ///
@@ -285,11 +402,21 @@ impl Graph {
     /// [`GraphError::TooSmall`] for a single node; sparse-path errors.
     pub fn spectrum(&self) -> Result<Spectrum, GraphError> {
         if self.nodes < 2 {
-            return Err(GraphError::TooSmall { nodes: self.nodes, min: 2 });
+            return Err(GraphError::TooSmall {
+                nodes: self.nodes,
+                min: 2,
+            });
         }
         let (lambda_slow, lambda_max) = if !self.is_connected() {
-            (0.0, if self.nodes <= DENSE_MAX_NODES { self.dense_spectrum()?.lambda_max() } else { 2.0 * self.max_degree() })
-        } else if self.nodes <= DENSE_MAX_NODES {
+            (
+                0.0,
+                if self.nodes <= DENSE_AUTO_MAX_NODES {
+                    self.dense_spectrum()?.lambda_max()
+                } else {
+                    2.0 * self.max_degree()
+                },
+            )
+        } else if self.nodes <= DENSE_AUTO_MAX_NODES {
             let d = self.dense_spectrum()?;
             (d.lambda2(), d.lambda_max())
         } else {

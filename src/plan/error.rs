@@ -17,7 +17,7 @@ pub enum PlanError {
         /// Node count that was given.
         got: usize,
     },
-    /// The node count does not fit the arithmetic (rows × cols overflowed `usize`).
+    /// The node count is above [`crate::plan::MAX_NODES`] (or rows × cols overflowed).
     TooManyNodes,
     /// A numeric parameter is NaN, infinite or outside its valid range.
     InvalidParameter {
@@ -62,9 +62,16 @@ impl fmt::Display for PlanError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match *self {
             Self::TooFewNodes { min, got } => {
-                write!(f, "topology has {got} nodes; this kind needs at least {min}")
+                write!(
+                    f,
+                    "topology has {got} nodes; this kind needs at least {min}"
+                )
             }
-            Self::TooManyNodes => f.write_str("node count overflows usize"),
+            Self::TooManyNodes => write!(
+                f,
+                "too many nodes; at most {} are supported",
+                super::topology::MAX_NODES
+            ),
             Self::InvalidParameter { name, valid } => {
                 write!(f, "parameter `{name}` is invalid; it must be {valid}")
             }
@@ -75,7 +82,10 @@ impl fmt::Display for PlanError {
                 write!(f, "slice has length {got}; it must have length {needed}")
             }
             Self::DelayTooLong { max, got } => {
-                write!(f, "delay of {got} updates is too long; at most {max} is supported")
+                write!(
+                    f,
+                    "delay of {got} updates is too long; at most {max} is supported"
+                )
             }
             Self::ToleranceNotBelowSpread => {
                 f.write_str("lock tolerance must be smaller than the initial spread")
@@ -98,7 +108,10 @@ pub(crate) fn positive(value: f64, name: &'static str) -> Result<f64, PlanError>
     if value.is_finite() && value > 0.0 {
         Ok(value)
     } else {
-        Err(PlanError::InvalidParameter { name, valid: "finite and > 0" })
+        Err(PlanError::InvalidParameter {
+            name,
+            valid: "finite and > 0",
+        })
     }
 }
 
@@ -107,6 +120,9 @@ pub(crate) fn non_negative(value: f64, name: &'static str) -> Result<f64, PlanEr
     if value.is_finite() && value >= 0.0 {
         Ok(value)
     } else {
-        Err(PlanError::InvalidParameter { name, valid: "finite and >= 0" })
+        Err(PlanError::InvalidParameter {
+            name,
+            valid: "finite and >= 0",
+        })
     }
 }

@@ -42,24 +42,47 @@ pub struct Locking {
 }
 
 fn offset_turns(law: Law, flow: f64, kp: f64) -> f64 {
-    match law {
-        Law::Sine => libm::asin((2.0 * PI * flow / kp).clamp(-1.0, 1.0)) / (2.0 * PI),
-        Law::Linear => (flow / kp).clamp(-0.5, 0.5),
+    Model {
+        law,
+        ..Model::p_only(law, kp, 1.0, 1.0)
     }
+    .edge_offset_turns(flow)
 }
 
-fn verdict(model: &Model, flow: f64, correction: f64, trim_min_ppm: f64, trim_max_ppm: f64) -> Locking {
+fn verdict(
+    model: &Model,
+    flow: f64,
+    correction: f64,
+    trim_min_ppm: f64,
+    trim_max_ppm: f64,
+) -> Locking {
     let pi = model.is_pi();
-    let capacity = if pi { f64::INFINITY } else { model.edge_capacity_turns_per_update() };
+    let capacity = if pi {
+        f64::INFINITY
+    } else {
+        model.edge_capacity_turns_per_update()
+    };
     let fits = match model.law {
         Law::Sine => flow <= capacity,
         Law::Linear => flow < capacity,
     };
-    let (offset, correction) = if pi { (0.0, 0.0) } else { (offset_turns(model.law, flow, model.kp), correction) };
+    let (offset, correction) = if pi {
+        (0.0, 0.0)
+    } else {
+        (offset_turns(model.law, flow, model.kp), correction)
+    };
     let slew_ok = correction <= model.slew_limit_turns;
-    let (trim_min_ppm, trim_max_ppm) = if pi { (trim_min_ppm, trim_max_ppm) } else { (0.0, 0.0) };
+    let (trim_min_ppm, trim_max_ppm) = if pi {
+        (trim_min_ppm, trim_max_ppm)
+    } else {
+        (0.0, 0.0)
+    };
     let trim_ok = trim_min_ppm >= -model.trim_limit_ppm && trim_max_ppm <= model.trim_limit_ppm;
-    let lock_margin = if flow > 0.0 { capacity / flow } else { f64::INFINITY };
+    let lock_margin = if flow > 0.0 {
+        capacity / flow
+    } else {
+        f64::INFINITY
+    };
     Locking {
         locks: fits && slew_ok && trim_ok,
         edge_flow_turns_per_update: flow,
@@ -81,10 +104,16 @@ fn mean(values: &[f64]) -> f64 {
 
 fn check_crystals(crystal_ppm: &[f64], min: usize) -> Result<(), PlanError> {
     if crystal_ppm.len() < min {
-        return Err(PlanError::TooFewNodes { min, got: crystal_ppm.len() });
+        return Err(PlanError::TooFewNodes {
+            min,
+            got: crystal_ppm.len(),
+        });
     }
     if crystal_ppm.iter().any(|e| !e.is_finite()) {
-        return Err(PlanError::InvalidParameter { name: "crystal_ppm", valid: "finite" });
+        return Err(PlanError::InvalidParameter {
+            name: "crystal_ppm",
+            valid: "finite",
+        });
     }
     Ok(())
 }
@@ -102,12 +131,19 @@ fn check_crystals(crystal_ppm: &[f64], min: usize) -> Result<(), PlanError> {
 /// # Errors
 /// [`PlanError::TooFewNodes`] for fewer than 2 crystals; [`PlanError::WrongLength`];
 /// [`PlanError::InvalidParameter`] for non-finite values; model errors.
-pub fn chain_lock(model: &Model, crystal_ppm: &[f64], offsets_turns: &mut [f64]) -> Result<Locking, PlanError> {
+pub fn chain_lock(
+    model: &Model,
+    crystal_ppm: &[f64],
+    offsets_turns: &mut [f64],
+) -> Result<Locking, PlanError> {
     model.validate()?;
     check_crystals(crystal_ppm, 2)?;
     let n = crystal_ppm.len();
     if offsets_turns.len() != n - 1 {
-        return Err(PlanError::WrongLength { needed: n - 1, got: offsets_turns.len() });
+        return Err(PlanError::WrongLength {
+            needed: n - 1,
+            got: offsets_turns.len(),
+        });
     }
     let mean_ppm = mean(crystal_ppm);
     let mut partial = 0.0_f64;
@@ -115,14 +151,19 @@ pub fn chain_lock(model: &Model, crystal_ppm: &[f64], offsets_turns: &mut [f64])
     for (e, slot) in crystal_ppm.iter().zip(offsets_turns.iter_mut()) {
         partial += model.ppm_to_turns_per_update(e - mean_ppm);
         flow = flow.max(libm::fabs(partial));
-        *slot = if model.is_pi() { 0.0 } else { -offset_turns(model.law, partial, model.kp) };
+        *slot = if model.is_pi() {
+            0.0
+        } else {
+            -offset_turns(model.law, partial, model.kp)
+        };
     }
     Ok(pattern_verdict(model, crystal_ppm, mean_ppm, flow))
 }
 
 fn pattern_verdict(model: &Model, crystal_ppm: &[f64], reference_ppm: f64, flow: f64) -> Locking {
-    let correction =
-        crystal_ppm.iter().fold(0.0_f64, |m, e| m.max(libm::fabs(model.ppm_to_turns_per_update(e - reference_ppm))));
+    let correction = crystal_ppm.iter().fold(0.0_f64, |m, e| {
+        m.max(libm::fabs(model.ppm_to_turns_per_update(e - reference_ppm)))
+    });
     let trims = crystal_ppm.iter().map(|e| reference_ppm - e);
     let trim_min = trims.clone().fold(f64::INFINITY, f64::min);
     let trim_max = trims.fold(f64::NEG_INFINITY, f64::max);
@@ -148,14 +189,21 @@ pub fn pinned_chain_lock(
     check_crystals(crystal_ppm, 1)?;
     let n = crystal_ppm.len();
     if offsets_turns.len() != n {
-        return Err(PlanError::WrongLength { needed: n, got: offsets_turns.len() });
+        return Err(PlanError::WrongLength {
+            needed: n,
+            got: offsets_turns.len(),
+        });
     }
     let mut tail = 0.0_f64;
     let mut flow = 0.0_f64;
     for (e, slot) in crystal_ppm.iter().zip(offsets_turns.iter_mut()).rev() {
         tail += model.ppm_to_turns_per_update(*e);
         flow = flow.max(libm::fabs(tail));
-        *slot = if model.is_pi() { 0.0 } else { offset_turns(model.law, tail, model.kp) };
+        *slot = if model.is_pi() {
+            0.0
+        } else {
+            offset_turns(model.law, tail, model.kp)
+        };
     }
     Ok(pattern_verdict(model, crystal_ppm, 0.0, flow))
 }
@@ -167,14 +215,22 @@ pub fn pinned_chain_lock(
 /// # Errors
 /// [`PlanError::InvalidParameter`] for a negative or NaN tolerance; [`PlanError::TooFewNodes`]
 /// for an empty slice.
-pub fn worst_chain_pattern(tolerance_ppm: f64, pinned: bool, out_ppm: &mut [f64]) -> Result<(), PlanError> {
+pub fn worst_chain_pattern(
+    tolerance_ppm: f64,
+    pinned: bool,
+    out_ppm: &mut [f64],
+) -> Result<(), PlanError> {
     non_negative(tolerance_ppm, "tolerance_ppm")?;
     if out_ppm.is_empty() {
         return Err(PlanError::TooFewNodes { min: 1, got: 0 });
     }
     let half = out_ppm.len() / 2;
     for (i, slot) in out_ppm.iter_mut().enumerate() {
-        *slot = if pinned || i < half { tolerance_ppm } else { -tolerance_ppm };
+        *slot = if pinned || i < half {
+            tolerance_ppm
+        } else {
+            -tolerance_ppm
+        };
     }
     Ok(())
 }
@@ -203,9 +259,19 @@ pub fn lock_worst_case(
     non_negative(flow_factor, "flow_factor")?;
     let w = model.ppm_to_turns_per_update(tolerance_ppm);
     let n = spectrum.node_count as f64;
-    let spread_factor = if spectrum.pinned { 1.0 } else { 2.0 * (n - 1.0) / n };
+    let spread_factor = if spectrum.pinned {
+        1.0
+    } else {
+        2.0 * (n - 1.0) / n
+    };
     let trim = tolerance_ppm * spread_factor;
-    Ok(verdict(model, w * flow_factor, w * spread_factor, -trim, trim))
+    Ok(verdict(
+        model,
+        w * flow_factor,
+        w * spread_factor,
+        -trim,
+        trim,
+    ))
 }
 
 /// Smallest `kp` at which the P-only law still locks the worst crystal pattern:

@@ -42,15 +42,17 @@ mod topology;
 mod tune;
 
 pub use error::PlanError;
-pub use lock::{Locking, chain_lock, kp_lock_minimum, lock_worst_case, pinned_chain_lock, worst_chain_pattern};
+pub use lock::{
+    Locking, chain_lock, kp_lock_minimum, lock_worst_case, pinned_chain_lock, worst_chain_pattern,
+};
 pub use model::{Law, MAX_DELAY_UPDATES, Model};
 pub use noise::{Noise, continuous_coherence, mode_variance, phase_jitter};
 pub use roots::mode_radius;
 pub use settle::{BOUND_ITERATION_CAP_UPDATES, SettleWarnings, Settling, Spread, settle};
 pub use spectrum::Spectrum;
 pub use stability::{Stability, delay_gain_bound, pi_jury_stable, stability};
-pub use topology::{Topology, tridiagonal_toeplitz_eigenvalue};
+pub use topology::{MAX_NODES, Topology, tridiagonal_toeplitz_eigenvalue};
 pub use tune::{
-    Alternatives, Budget, GainChoice, Infeasibility, KP_SCAN_POINTS, MIN_GAIN_MARGIN, PI_RATIOS, Tuning, tune,
-    tune_topology,
+    Alternatives, Budget, GainChoice, Infeasibility, KP_SCAN_POINTS, MIN_GAIN_MARGIN, PI_RATIOS,
+    Tuning, tune, tune_topology,
 };

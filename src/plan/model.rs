@@ -72,21 +72,36 @@ impl Model {
         positive(self.kp, "kp")?;
         non_negative(self.ki, "ki")?;
         if self.ki >= self.kp {
-            return Err(PlanError::InvalidParameter { name: "ki", valid: "< kp" });
+            return Err(PlanError::InvalidParameter {
+                name: "ki",
+                valid: "< kp",
+            });
         }
         positive(self.update_period_s, "update_period_s")?;
         positive(self.phase_period_s, "phase_period_s")?;
         if self.delay_updates > MAX_DELAY_UPDATES {
-            return Err(PlanError::DelayTooLong { max: MAX_DELAY_UPDATES, got: self.delay_updates });
+            return Err(PlanError::DelayTooLong {
+                max: MAX_DELAY_UPDATES,
+                got: self.delay_updates,
+            });
         }
         if !(self.success_prob > 0.0 && self.success_prob <= 1.0) {
-            return Err(PlanError::InvalidParameter { name: "success_prob", valid: "in (0, 1]" });
+            return Err(PlanError::InvalidParameter {
+                name: "success_prob",
+                valid: "in (0, 1]",
+            });
         }
         if self.slew_limit_turns.is_nan() || self.slew_limit_turns <= 0.0 {
-            return Err(PlanError::InvalidParameter { name: "slew_limit_turns", valid: "> 0" });
+            return Err(PlanError::InvalidParameter {
+                name: "slew_limit_turns",
+                valid: "> 0",
+            });
         }
         if self.trim_limit_ppm.is_nan() || self.trim_limit_ppm <= 0.0 {
-            return Err(PlanError::InvalidParameter { name: "trim_limit_ppm", valid: "> 0" });
+            return Err(PlanError::InvalidParameter {
+                name: "trim_limit_ppm",
+                valid: "> 0",
+            });
         }
         Ok(())
     }
@@ -99,7 +114,11 @@ impl Model {
     /// The same law with both gains scaled by `factor` (used for margins and the
     /// mean dynamics under loss).
     pub fn scaled(&self, factor: f64) -> Self {
-        Self { kp: self.kp * factor, ki: self.ki * factor, ..*self }
+        Self {
+            kp: self.kp * factor,
+            ki: self.ki * factor,
+            ..*self
+        }
     }
 
     /// Phase drift per update, turns, of a crystal that is `error_ppm` fast:
@@ -116,6 +135,21 @@ impl Model {
     /// Seconds to turns: `seconds / phase_period_s`.
     pub fn seconds_to_turns(&self, seconds: f64) -> f64 {
         seconds / self.phase_period_s
+    }
+
+    /// Steady phase offset across an edge carrying `flow_turns_per_update` (P-only law):
+    /// `arcsin(2π·flow/kp)/(2π)` for the sine law, `flow/kp` for the linear law
+    /// (Strogatz & Mirollo 1988), saturating at ±¼ turn (sine) or ±½ turn (linear) past the
+    /// edge capacity. For a general graph use the flows of the numeric path; exact on trees.
+    pub fn edge_offset_turns(&self, flow_turns_per_update: f64) -> f64 {
+        let kp = self.kp;
+        match self.law {
+            Law::Sine => {
+                let x = (2.0 * core::f64::consts::PI * flow_turns_per_update / kp).clamp(-1.0, 1.0);
+                libm::asin(x) / (2.0 * core::f64::consts::PI)
+            }
+            Law::Linear => (flow_turns_per_update / kp).clamp(-0.5, 0.5),
+        }
     }
 
     /// Largest per-edge steady flow the law can carry, turns per update: `kp/(2π)` for

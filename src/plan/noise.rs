@@ -50,7 +50,8 @@ pub fn mode_variance(kp: f64, ki: f64, lambda: f64) -> f64 {
     ];
     let rhs = [kp * kp, kp * ki, -ki * ki];
     let det3 = |m: &[[f64; 3]; 3]| {
-        m[0][0] * (m[1][1] * m[2][2] - m[1][2] * m[2][1]) - m[0][1] * (m[1][0] * m[2][2] - m[1][2] * m[2][0])
+        m[0][0] * (m[1][1] * m[2][2] - m[1][2] * m[2][1])
+            - m[0][1] * (m[1][0] * m[2][2] - m[1][2] * m[2][0])
             + m[0][2] * (m[1][0] * m[2][1] - m[1][1] * m[2][0])
     };
     let det = det3(&m);
@@ -59,7 +60,11 @@ pub fn mode_variance(kp: f64, ki: f64, lambda: f64) -> f64 {
         row[0] = value;
     }
     let p11 = det3(&first) / det;
-    if p11.is_finite() && p11 >= 0.0 { p11 } else { f64::INFINITY }
+    if p11.is_finite() && p11 >= 0.0 {
+        p11
+    } else {
+        f64::INFINITY
+    }
 }
 
 /// Continuous-time coherence `(σ²/2N)·Σ 1/λ_k` (Bamieh et al. 2012): per-node steady
@@ -89,7 +94,10 @@ pub fn phase_jitter(
     let mut total = 0.0_f64;
     for lambda in nonzero_modes {
         if !lambda.is_finite() || lambda <= 0.0 {
-            return Err(PlanError::InvalidParameter { name: "nonzero_modes", valid: "finite and > 0" });
+            return Err(PlanError::InvalidParameter {
+                name: "nonzero_modes",
+                valid: "finite and > 0",
+            });
         }
         let v = mode_variance(model.kp, model.ki, lambda);
         if !v.is_finite() {
@@ -99,5 +107,9 @@ pub fn phase_jitter(
     }
     let variance = q * total / spectrum.node_count as f64;
     let phase_sd_turns = libm::sqrt(variance);
-    Ok(Noise { measurement_sd_turns: sd, phase_sd_turns, phase_sd_s: phase_sd_turns * model.phase_period_s })
+    Ok(Noise {
+        measurement_sd_turns: sd,
+        phase_sd_turns,
+        phase_sd_s: phase_sd_turns * model.phase_period_s,
+    })
 }

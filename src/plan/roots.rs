@@ -17,17 +17,29 @@ impl Complex {
     const ONE: Self = Self { re: 1.0, im: 0.0 };
 
     fn add(self, o: Self) -> Self {
-        Self { re: self.re + o.re, im: self.im + o.im }
+        Self {
+            re: self.re + o.re,
+            im: self.im + o.im,
+        }
     }
     fn sub(self, o: Self) -> Self {
-        Self { re: self.re - o.re, im: self.im - o.im }
+        Self {
+            re: self.re - o.re,
+            im: self.im - o.im,
+        }
     }
     fn mul(self, o: Self) -> Self {
-        Self { re: self.re * o.re - self.im * o.im, im: self.re * o.im + self.im * o.re }
+        Self {
+            re: self.re * o.re - self.im * o.im,
+            im: self.re * o.im + self.im * o.re,
+        }
     }
     fn div(self, o: Self) -> Self {
         let d = o.re * o.re + o.im * o.im;
-        Self { re: (self.re * o.re + self.im * o.im) / d, im: (self.im * o.re - self.re * o.im) / d }
+        Self {
+            re: (self.re * o.re + self.im * o.im) / d,
+            im: (self.im * o.re - self.re * o.im) / d,
+        }
     }
     fn abs(self) -> f64 {
         libm::hypot(self.re, self.im)
@@ -44,12 +56,21 @@ fn largest_root_modulus(coeffs: &[f64]) -> f64 {
         None => return f64::NAN,
     };
     let eval = |z: Complex| {
-        coeffs.iter().rev().fold(Complex::ZERO, |acc, &c| acc.mul(z).add(Complex { re: c, im: 0.0 }))
+        coeffs.iter().rev().fold(Complex::ZERO, |acc, &c| {
+            acc.mul(z).add(Complex { re: c, im: 0.0 })
+        })
     };
     // Start on a circle a little larger than the Cauchy bound, at non-symmetric angles.
-    let bound = 1.0 + coeffs.iter().take(degree).fold(0.0_f64, |m, c| m.max(libm::fabs(*c)));
+    let bound = 1.0
+        + coeffs
+            .iter()
+            .take(degree)
+            .fold(0.0_f64, |m, c| m.max(libm::fabs(*c)));
     let seed = Complex { re: 0.4, im: 0.9 };
-    let mut power = Complex { re: bound.min(2.0), im: 0.0 };
+    let mut power = Complex {
+        re: bound.min(2.0),
+        im: 0.0,
+    };
     for r in roots.iter_mut() {
         *r = power;
         power = power.mul(seed);
@@ -64,7 +85,14 @@ fn largest_root_modulus(coeffs: &[f64]) -> f64 {
                     denom = denom.mul(zi.sub(*zj));
                 }
             }
-            let step = if denom.abs() == 0.0 { Complex { re: 1e-12, im: 1e-12 } } else { eval(zi).div(denom) };
+            let step = if denom.abs() == 0.0 {
+                Complex {
+                    re: 1e-12,
+                    im: 1e-12,
+                }
+            } else {
+                eval(zi).div(denom)
+            };
             if let Some(slot) = roots.get_mut(i) {
                 *slot = zi.sub(step);
             }
@@ -136,4 +164,35 @@ pub fn mode_radius(kp: f64, ki: f64, delay_updates: u32, lambda: f64) -> f64 {
         d + 2
     };
     coeffs.get(..=degree).map_or(f64::NAN, largest_root_modulus)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn durand_kerner_on_known_roots() {
+        // (z − 0.5)(z + 0.3) = z² − 0.2z − 0.15: largest |root| 0.5.
+        assert!((largest_root_modulus(&[-0.15, -0.2, 1.0]) - 0.5).abs() < 1e-12);
+        // (z² + 0.81)(z − 0.2): roots ±0.9i and 0.2.
+        assert!((largest_root_modulus(&[-0.162, 0.81, -0.2, 1.0]) - 0.9).abs() < 1e-12);
+        // Double root (z − 0.7)²: converges, slower, to 0.7.
+        assert!((largest_root_modulus(&[0.49, -1.4, 1.0]) - 0.7).abs() < 1e-6);
+    }
+
+    #[test]
+    fn delay_zero_closed_forms_match_the_iteration() {
+        // The d = 0 closed forms against the generic root finder on the same polynomials.
+        for (a, b) in [(0.3, 0.0), (1.7, 0.0), (0.4, 0.05), (0.9, 0.4), (0.2, 0.01)] {
+            let closed = mode_radius(a, b, 0, 1.0);
+            let iterated = if b == 0.0 {
+                libm::fabs(1.0 - a)
+            } else {
+                largest_root_modulus(&[1.0 - a + b, -(2.0 - a), 1.0])
+            };
+            assert!((closed - iterated).abs() < 1e-9, "a {a} b {b}");
+        }
+        assert!(mode_radius(f64::NAN, 0.0, 0, 1.0).is_nan());
+        assert!(mode_radius(0.1, 0.0, MAX_DELAY_UPDATES + 1, 1.0).is_nan());
+    }
 }

@@ -8,8 +8,8 @@ use core::f64::consts::PI;
 
 use super::error::{PlanError, positive};
 use super::model::{Law, MAX_DELAY_UPDATES, Model};
-use super::stability::radii;
 use super::spectrum::Spectrum;
+use super::stability::radii;
 
 /// Largest asymptotic update count for which the worst-case bound of a PI or delayed law
 /// is computed by running the mode recurrences (the horizon is 4× this).
@@ -181,7 +181,13 @@ pub(crate) fn settle_with(
         } else if per_mode.is_finite() && per_mode <= BOUND_ITERATION_CAP_UPDATES {
             let horizon = to_updates(4.0 * per_mode + 100.0);
             let run = |lambda: f64| {
-                last_exceedance(model.kp * lambda, model.ki * lambda, model.delay_updates, threshold, horizon)
+                last_exceedance(
+                    model.kp * lambda,
+                    model.ki * lambda,
+                    model.delay_updates,
+                    threshold,
+                    horizon,
+                )
             };
             Some(run(spectrum.lambda_slow).max(run(spectrum.lambda_max)) as f64)
         } else {
@@ -208,7 +214,11 @@ pub(crate) fn settle_with(
     warnings.spread_half_turn_or_more = e0 >= 0.5;
     warnings.twisted_states_possible = spectrum.stable_twisted_states > 0 && e0 >= 0.5;
     warnings.slew_limited = model.kp * spectrum.max_degree * e0 > model.slew_limit_turns;
-    let shrink_per_update = if spectrum.pinned { model.slew_limit_turns } else { 2.0 * model.slew_limit_turns };
+    let shrink_per_update = if spectrum.pinned {
+        model.slew_limit_turns
+    } else {
+        2.0 * model.slew_limit_turns
+    };
     let slew_floor = (e0 - tol) / shrink_per_update;
 
     let bound_updates = bound.map(to_updates);

@@ -97,7 +97,11 @@ pub(crate) fn radii(model: &Model, spectrum: &Spectrum) -> (f64, f64, f64) {
     let d = model.delay_updates;
     let slow = mode_radius(model.kp, model.ki, d, spectrum.lambda_slow);
     let fast = mode_radius(model.kp, model.ki, d, spectrum.lambda_max);
-    (slow, fast, worst_radius(&model.scaled(model.success_prob), spectrum, d))
+    (
+        slow,
+        fast,
+        worst_radius(&model.scaled(model.success_prob), spectrum, d),
+    )
 }
 
 /// Whether `model` is stable on `spectrum` with `delay_updates` of delay.

@@ -62,6 +62,10 @@ pub enum Topology {
     },
 }
 
+/// Largest node count any topology accepts (2^30, so index arithmetic such as `2N + 1`
+/// cannot overflow even where `usize` is 32 bits).
+pub const MAX_NODES: usize = 1 << 30;
+
 /// `2 − 2cos(x)`, written as `4 sin²(x/2)` so small eigenvalues keep full relative precision.
 fn two_minus_two_cos(x: f64) -> f64 {
     let s = libm::sin(x / 2.0);
@@ -93,7 +97,7 @@ impl Topology {
     ///
     /// # Errors
     /// [`PlanError::TooFewNodes`] below each kind's minimum (see the variants);
-    /// [`PlanError::TooManyNodes`] if `rows·cols` overflows.
+    /// [`PlanError::TooManyNodes`] above [`MAX_NODES`] nodes (or if `rows·cols` overflows).
     pub fn validate(&self) -> Result<(), PlanError> {
         let (min, got) = match *self {
             Self::Chain { nodes } | Self::Star { nodes } | Self::Complete { nodes } => (2, nodes),
@@ -110,6 +114,8 @@ impl Topology {
         };
         if got < min {
             Err(PlanError::TooFewNodes { min, got })
+        } else if self.node_count() > MAX_NODES {
+            Err(PlanError::TooManyNodes)
         } else {
             Ok(())
         }
@@ -172,8 +178,12 @@ impl Topology {
                 }
             }
             // λ(G□H) = λ_i(G) + λ_j(H), Brouwer & Haemers 2012 §1.4.
-            Self::Grid { rows, cols } => path_eigenvalue(rows, k / cols) + path_eigenvalue(cols, k % cols),
-            Self::Torus { rows, cols } => cycle_eigenvalue(rows, k / cols) + cycle_eigenvalue(cols, k % cols),
+            Self::Grid { rows, cols } => {
+                path_eigenvalue(rows, k / cols) + path_eigenvalue(cols, k % cols)
+            }
+            Self::Torus { rows, cols } => {
+                cycle_eigenvalue(rows, k / cols) + cycle_eigenvalue(cols, k % cols)
+            }
             // Yueh 2005: 2 − 2cos((2k−1)π/(2N+1)), k = 1..N (here k is 0-based).
             Self::PinnedChain { nodes } => {
                 two_minus_two_cos((2 * k + 1) as f64 * PI / (2 * nodes + 1) as f64)
@@ -189,7 +199,10 @@ impl Topology {
         self.validate()?;
         let count = self.node_count();
         if out.len() != count {
-            return Err(PlanError::WrongLength { needed: count, got: out.len() });
+            return Err(PlanError::WrongLength {
+                needed: count,
+                got: out.len(),
+            });
         }
         for (k, slot) in out.iter_mut().enumerate() {
             *slot = self.mode(k)?;
@@ -365,7 +378,10 @@ impl Topology {
         self.validate()?;
         let count = self.node_count();
         if out.len() != count {
-            return Err(PlanError::WrongLength { needed: count, got: out.len() });
+            return Err(PlanError::WrongLength {
+                needed: count,
+                got: out.len(),
+            });
         }
         let mut peak = 0.0_f64;
         for (node, slot) in out.iter_mut().enumerate() {
@@ -423,13 +439,18 @@ impl Topology {
         self.validate()?;
         match *self {
             Self::Chain { nodes } => {
-                let half = nodes / 2;
-                Ok(2.0 * (half * (nodes - half)) as f64 / nodes as f64)
+                let half = (nodes / 2) as f64;
+                let n = nodes as f64;
+                Ok(2.0 * half * (n - half) / n)
             }
             Self::PinnedChain { nodes } => Ok(nodes as f64),
             Self::Ring { nodes } => {
                 let n = nodes as f64;
-                Ok(if nodes % 2 == 0 { n / 4.0 } else { (n * n - 1.0) / (4.0 * n) })
+                Ok(if nodes % 2 == 0 {
+                    n / 4.0
+                } else {
+                    (n * n - 1.0) / (4.0 * n)
+                })
             }
             Self::Star { nodes } => Ok(2.0 * (nodes as f64 - 1.0) / nodes as f64),
             Self::Complete { nodes } => Ok(2.0 / nodes as f64),
@@ -456,7 +477,13 @@ impl Topology {
 /// # Errors
 /// [`PlanError::InvalidParameter`] unless `a`, `b`, `c` are finite with `b·c > 0` (real
 /// spectrum), [`PlanError::ModeOutOfRange`] unless `1 ≤ k ≤ n`.
-pub fn tridiagonal_toeplitz_eigenvalue(a: f64, b: f64, c: f64, n: usize, k: usize) -> Result<f64, PlanError> {
+pub fn tridiagonal_toeplitz_eigenvalue(
+    a: f64,
+    b: f64,
+    c: f64,
+    n: usize,
+    k: usize,
+) -> Result<f64, PlanError> {
     let bc = b * c;
     if !(a.is_finite() && bc.is_finite() && bc > 0.0) {
         return Err(PlanError::InvalidParameter {

@@ -113,7 +113,11 @@ struct Candidate {
 }
 
 fn lock_time(settling: &Settling, loss_slowdown: f64) -> f64 {
-    settling.bound_s.unwrap_or(settling.asymptotic_s).max(settling.asymptotic_s) * loss_slowdown
+    settling
+        .bound_s
+        .unwrap_or(settling.asymptotic_s)
+        .max(settling.asymptotic_s)
+        * loss_slowdown
 }
 
 fn slowdown(settling: &Settling) -> f64 {
@@ -125,21 +129,39 @@ fn slowdown(settling: &Settling) -> f64 {
 }
 
 /// Visit every scanned gain pair (no storage, so the scan also runs on a small stack).
-fn scan(template: &Model, spectrum: &Spectrum, flow_factor: Option<f64>, budget: &Budget, mut visit: impl FnMut(Candidate)) {
+fn scan(
+    template: &Model,
+    spectrum: &Spectrum,
+    flow_factor: Option<f64>,
+    budget: &Budget,
+    mut visit: impl FnMut(Candidate),
+) {
     let ratios: &[f64] = if template.is_pi() { &PI_RATIOS } else { &[0.0] };
     for &ratio in ratios {
-        let unit = Model { kp: 1.0, ki: ratio, ..*template };
+        let unit = Model {
+            kp: 1.0,
+            ki: ratio,
+            ..*template
+        };
         let kp_limit = margin_of(&unit, spectrum);
         for i in 0..KP_SCAN_POINTS {
             let exponent = -4.0 * (1.0 - i as f64 / (KP_SCAN_POINTS - 1) as f64);
             let kp = 0.999 * kp_limit * libm::pow(10.0, exponent);
-            let model = Model { kp, ki: ratio * kp, ..*template };
-            let Ok(settling) = settle_with(&model, spectrum, &budget.spread, false) else { continue };
+            let model = Model {
+                kp,
+                ki: ratio * kp,
+                ..*template
+            };
+            let Ok(settling) = settle_with(&model, spectrum, &budget.spread, false) else {
+                continue;
+            };
             let locks = match flow_factor {
-                Some(f) => lock_worst_case(&model, spectrum, f, budget.crystal_tolerance_ppm).is_ok_and(|l| l.locks),
+                Some(f) => lock_worst_case(&model, spectrum, f, budget.crystal_tolerance_ppm)
+                    .is_ok_and(|l| l.locks),
                 None => true,
             };
-            let delay_ok = stable_with_delay(&model, spectrum, template.delay_updates.saturating_add(1));
+            let delay_ok =
+                stable_with_delay(&model, spectrum, template.delay_updates.saturating_add(1));
             visit(Candidate {
                 kp,
                 ki: ratio * kp,
@@ -168,13 +190,19 @@ fn widen(range: Option<(f64, f64)>, x: f64) -> Option<(f64, f64)> {
     })
 }
 
-fn summarise(template: &Model, spectrum: &Spectrum, flow_factor: Option<f64>, budget: &Budget) -> Summary {
+fn summarise(
+    template: &Model,
+    spectrum: &Spectrum,
+    flow_factor: Option<f64>,
+    budget: &Budget,
+) -> Summary {
     let mut sum = Summary::default();
     scan(template, spectrum, flow_factor, budget, |c| {
         if !c.locks {
             return;
         }
-        let feasible = c.delay_ok && c.margin >= MIN_GAIN_MARGIN && c.lock_s <= budget.lock_time_budget_s;
+        let feasible =
+            c.delay_ok && c.margin >= MIN_GAIN_MARGIN && c.lock_s <= budget.lock_time_budget_s;
         if feasible {
             sum.kp_range = widen(sum.kp_range, c.kp);
             sum.ki_range = widen(sum.ki_range, c.ki);
@@ -189,14 +217,30 @@ fn summarise(template: &Model, spectrum: &Spectrum, flow_factor: Option<f64>, bu
     sum
 }
 
-fn choice(template: &Model, spectrum: &Spectrum, flow_factor: Option<f64>, budget: &Budget, kp: f64, ki: f64) -> Option<GainChoice> {
-    let model = Model { kp, ki, ..*template };
+fn choice(
+    template: &Model,
+    spectrum: &Spectrum,
+    flow_factor: Option<f64>,
+    budget: &Budget,
+    kp: f64,
+    ki: f64,
+) -> Option<GainChoice> {
+    let model = Model {
+        kp,
+        ki,
+        ..*template
+    };
     let settling = settle(&model, spectrum, &budget.spread).ok()?;
-    let locking = flow_factor.and_then(|f| lock_worst_case(&model, spectrum, f, budget.crystal_tolerance_ppm).ok());
+    let locking = flow_factor
+        .and_then(|f| lock_worst_case(&model, spectrum, f, budget.crystal_tolerance_ppm).ok());
     let mut extra = 0;
     let base = template.delay_updates;
     while base.saturating_add(extra) < super::model::MAX_DELAY_UPDATES
-        && stable_with_delay(&model, spectrum, base.saturating_add(extra).saturating_add(1))
+        && stable_with_delay(
+            &model,
+            spectrum,
+            base.saturating_add(extra).saturating_add(1),
+        )
     {
         extra += 1;
     }
@@ -211,8 +255,15 @@ fn choice(template: &Model, spectrum: &Spectrum, flow_factor: Option<f64>, budge
     })
 }
 
-fn fastest_lock_s(template: &Model, spectrum: &Spectrum, flow_factor: Option<f64>, budget: &Budget) -> Option<f64> {
-    summarise(template, spectrum, flow_factor, budget).fastest.map(|c| c.lock_s)
+fn fastest_lock_s(
+    template: &Model,
+    spectrum: &Spectrum,
+    flow_factor: Option<f64>,
+    budget: &Budget,
+) -> Option<f64> {
+    summarise(template, spectrum, flow_factor, budget)
+        .fastest
+        .map(|c| c.lock_s)
 }
 
 /// Tune the gains of `template` (its `kp` is ignored; `ki > 0` asks for the PI law and
@@ -230,7 +281,12 @@ fn fastest_lock_s(template: &Model, spectrum: &Spectrum, flow_factor: Option<f64
 /// # Errors
 /// Invalid budget values ([`PlanError::InvalidParameter`], [`PlanError::ToleranceNotBelowSpread`])
 /// and spectrum errors.
-pub fn tune(template: &Model, spectrum: &Spectrum, flow_factor: Option<f64>, budget: &Budget) -> Result<Tuning, PlanError> {
+pub fn tune(
+    template: &Model,
+    spectrum: &Spectrum,
+    flow_factor: Option<f64>,
+    budget: &Budget,
+) -> Result<Tuning, PlanError> {
     positive(budget.lock_time_budget_s, "lock_time_budget_s")?;
     non_negative(budget.crystal_tolerance_ppm, "crystal_tolerance_ppm")?;
     positive(budget.spread.initial_spread_s, "initial_spread_s")?;
@@ -244,24 +300,41 @@ pub fn tune(template: &Model, spectrum: &Spectrum, flow_factor: Option<f64>, bud
     }
     // Validate the rest of the template with a placeholder gain pair.
     let probe_ki = if template.is_pi() { 0.1 } else { 0.0 };
-    Model { kp: 1.0, ki: probe_ki, ..*template }.validate()?;
+    Model {
+        kp: 1.0,
+        ki: probe_ki,
+        ..*template
+    }
+    .validate()?;
 
-    let Summary { fastest, best, kp_range, ki_range } = summarise(template, spectrum, flow_factor, budget);
+    let Summary {
+        fastest,
+        best,
+        kp_range,
+        ki_range,
+    } = summarise(template, spectrum, flow_factor, budget);
     let fastest = fastest.as_ref();
     let best = best.as_ref();
 
-    let pi_trims_fit = !template.is_pi() || budget.crystal_tolerance_ppm * 2.0 <= template.trim_limit_ppm;
+    let pi_trims_fit =
+        !template.is_pi() || budget.crystal_tolerance_ppm * 2.0 <= template.trim_limit_ppm;
     let infeasibility = if best.is_some() {
         None
     } else if fastest.is_none() {
-        Some(if template.is_pi() && !pi_trims_fit { Infeasibility::TrimOutOfRange } else { Infeasibility::CannotLock })
+        Some(if template.is_pi() && !pi_trims_fit {
+            Infeasibility::TrimOutOfRange
+        } else {
+            Infeasibility::CannotLock
+        })
     } else if fastest.is_some_and(|c| c.lock_s > budget.lock_time_budget_s) {
         Some(Infeasibility::BudgetTooShort)
     } else {
         Some(Infeasibility::MarginTooSmall)
     };
-    let fastest_choice = fastest.and_then(|c| choice(template, spectrum, flow_factor, budget, c.kp, c.ki));
-    let recommended = best.and_then(|c| choice(template, spectrum, flow_factor, budget, c.kp, c.ki));
+    let fastest_choice =
+        fastest.and_then(|c| choice(template, spectrum, flow_factor, budget, c.kp, c.ki));
+    let recommended =
+        best.and_then(|c| choice(template, spectrum, flow_factor, budget, c.kp, c.ki));
     let update_rate_factor = match fastest {
         Some(c) => (c.lock_s / budget.lock_time_budget_s).max(1.0),
         None => f64::INFINITY,
@@ -273,7 +346,11 @@ pub fn tune(template: &Model, spectrum: &Spectrum, flow_factor: Option<f64>, bud
         recommended,
         fastest: fastest_choice,
         infeasibility,
-        alternatives: Alternatives { update_rate_factor, middle_reference_lock_s: None, split_in_two_lock_s: None },
+        alternatives: Alternatives {
+            update_rate_factor,
+            middle_reference_lock_s: None,
+            split_in_two_lock_s: None,
+        },
     })
 }
 
@@ -284,14 +361,22 @@ pub fn tune(template: &Model, spectrum: &Spectrum, flow_factor: Option<f64>, bud
 ///
 /// # Errors
 /// As [`tune`], plus the topology's validate error.
-pub fn tune_topology(template: &Model, topology: &Topology, budget: &Budget) -> Result<Tuning, PlanError> {
+pub fn tune_topology(
+    template: &Model,
+    topology: &Topology,
+    budget: &Budget,
+) -> Result<Tuning, PlanError> {
     let spectrum = topology.spectrum()?;
     let flow = topology.worst_flow_factor().ok();
     let mut tuning = tune(template, &spectrum, flow, budget)?;
     if let Topology::Chain { nodes } = *topology {
         let others = nodes - 1;
-        let pinned_half = Topology::PinnedChain { nodes: others - others / 2 };
-        let split = Topology::Chain { nodes: nodes.div_ceil(2) };
+        let pinned_half = Topology::PinnedChain {
+            nodes: others - others / 2,
+        };
+        let split = Topology::Chain {
+            nodes: nodes.div_ceil(2),
+        };
         let fastest_on = |t: Topology| {
             let spec = t.spectrum().ok()?;
             fastest_lock_s(template, &spec, t.worst_flow_factor().ok(), budget)

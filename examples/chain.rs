@@ -31,12 +31,20 @@ fn main() -> Result<(), entrain::ConfigError> {
             *t = t.wrapping_add((i64::from(UPDATE_TICKS) * (1_000_000 + ppm) / 1_000_000) as u32);
         }
         // Every node beacons its phase to both neighbours (no delay in this demo).
-        let phases: Vec<Phase> =
-            nodes.iter().zip(ticks).map(|(n, t)| n.phase_at(t)).collect();
+        let phases: Vec<Phase> = nodes
+            .iter()
+            .zip(ticks)
+            .map(|(n, t)| n.phase_at(t))
+            .collect();
         for i in 0..NODES {
             for j in [i.wrapping_sub(1), i + 1] {
                 if let Some(&phase) = phases.get(j) {
-                    let obs = Observation { from: j as u16, phase, rx_ticks: ticks[i], delay_ticks: 0 };
+                    let obs = Observation {
+                        from: j as u16,
+                        phase,
+                        rx_ticks: ticks[i],
+                        delay_ticks: 0,
+                    };
                     nodes[i].advance_to(ticks[i]);
                     if let Err(full) = nodes[i].observe(obs) {
                         eprintln!("node {i}: {full}");
@@ -54,7 +62,10 @@ fn main() -> Result<(), entrain::ConfigError> {
                 .max()
                 .unwrap_or(0);
             let turns = f64::from(worst) / 4_294_967_296.0;
-            println!("{step:6}   {turns:>11.8} turn  {:>10.3} µs", turns * 100_000.0);
+            println!(
+                "{step:6}   {turns:>11.8} turn  {:>10.3} µs",
+                turns * 100_000.0
+            );
         }
     }
     Ok(())

@@ -323,24 +323,19 @@ pub fn choose(scenario: &Scenario, shape: &Shape) -> Result<Chosen, CliError> {
 /// The simulator's scenario for `scenario` at node constants `constants`.
 ///
 /// # Errors
-/// [`CliError::Unavailable`] for a pinned chain (the simulator has no reference node);
 /// [`CliError::Input`] for values the simulator refuses.
 pub fn sim_scenario(
     scenario: &Scenario,
+    shape: &Shape,
     constants: &NodeConstants,
 ) -> Result<sim::Scenario, CliError> {
     let input = |message: String| CliError::input(&scenario.path, message);
-    let links = match &scenario.network {
-        Network::Chain { nodes } => sim::Links::chain(*nodes),
-        Network::Ring { nodes } => sim::Links::ring(*nodes),
-        Network::Star { nodes } => sim::Links::star(*nodes),
-        Network::Complete { nodes } => sim::Links::complete(*nodes),
-        Network::Grid { rows, cols } => sim::Links::grid(*rows, *cols, false),
-        Network::Torus { rows, cols } => sim::Links::grid(*rows, *cols, true),
-        Network::EdgeList { nodes, edges, .. } => sim::Links::from_pairs(*nodes, edges),
-        Network::PinnedChain { .. } => {
+    let links = match (&shape.topology, &shape.graph) {
+        (Some(t), _) => sim::Links::from_topology(t),
+        (None, Some(g)) => sim::Links::from_graph(g),
+        (None, None) => {
             return Err(CliError::Unavailable(
-                "simulation of a pinned chain (a reference clock) is not available in this build".to_owned(),
+                "simulation needs a topology or a graph".to_owned(),
             ));
         }
     }

@@ -443,7 +443,7 @@ pub fn check(
     let mut verification = None;
     let mut ran = 0;
     if runs > 0 {
-        match assess::sim_scenario(&scenario, &prediction.constants) {
+        match assess::sim_scenario(&scenario, &shape, &prediction.constants) {
             Ok(sim_scenario) => {
                 progress.start(u64::from(runs));
                 let tick = |p: crate::sim::Progress| progress.set(p.done as u64);
@@ -624,7 +624,7 @@ fn write_plots(result: &CheckResult, dir: &Path) -> Result<Vec<PathBuf>, CliErro
 
     // Sample runs: the same runs as the Monte Carlo's first ones, traced.
     if let Some(v) = &result.verification {
-        let sim_scenario = assess::sim_scenario(s, &result.prediction.constants)?;
+        let sim_scenario = assess::sim_scenario(s, &result.shape, &result.prediction.constants)?;
         let mut traces = Vec::new();
         for run in 0..PLOTTED_RUNS.min(u64::from(result.runs)) {
             let (_, trace) = crate::sim::trace_run(&sim_scenario, v.seed, run, false)

@@ -2,37 +2,19 @@
 
 use core::fmt;
 
+use crate::graph::GraphError;
+use crate::plan::PlanError;
+
 /// A scenario or run request the simulator cannot carry out; nothing panics on bad input.
 #[derive(Clone, Copy, Debug, PartialEq)]
 #[non_exhaustive]
 pub enum SimError {
-    /// The network has fewer nodes than it needs (`min`), for example a ring below 3.
-    TooFewNodes {
-        /// Smallest node count accepted.
-        min: usize,
-        /// Node count given.
-        got: usize,
-    },
     /// More nodes than node ids ([`crate::NodeId`] is `u16`: at most 65,536 nodes).
     TooManyNodes {
         /// Largest node count accepted.
         max: usize,
         /// Node count given.
         got: usize,
-    },
-    /// A link names a node that does not exist.
-    LinkOutOfRange {
-        /// Index of the link in the list.
-        link: usize,
-        /// The node index that is out of range.
-        node: usize,
-        /// Number of nodes (valid indices are `0..nodes`).
-        nodes: usize,
-    },
-    /// A link from a node to itself.
-    SelfLink {
-        /// The node.
-        node: usize,
     },
     /// A node has more neighbours than a node's table can hold (255).
     DegreeTooHigh {
@@ -65,32 +47,20 @@ pub enum SimError {
         /// The largest horizon accepted for this update interval, in updates.
         max_updates: u64,
     },
+    /// The links could not be built: the checker's graph error.
+    Graph(GraphError),
+    /// The prediction for the scenario failed: the checker's planning error.
+    Plan(PlanError),
     /// A Monte-Carlo request for zero runs.
     NoRuns,
-    /// The run index asked for is not below the number of runs.
-    RunOutOfRange {
-        /// The run index asked for.
-        run: usize,
-        /// Number of runs.
-        runs: usize,
-    },
 }
 
 impl fmt::Display for SimError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match *self {
-            SimError::TooFewNodes { min, got } => {
-                write!(f, "too few nodes: {got} given, at least {min} needed")
-            }
             SimError::TooManyNodes { max, got } => {
                 write!(f, "too many nodes: {got} given, at most {max} accepted")
             }
-            SimError::LinkOutOfRange { link, node, nodes } => write!(
-                f,
-                "link {link} names node {node}, but node indices run from 0 to {}",
-                nodes.saturating_sub(1)
-            ),
-            SimError::SelfLink { node } => write!(f, "node {node} is linked to itself"),
             SimError::DegreeTooHigh { node, degree, max } => write!(
                 f,
                 "node {node} has {degree} neighbours, a node table holds at most {max}"
@@ -107,14 +77,9 @@ impl fmt::Display for SimError {
             SimError::HorizonTooLong { max_updates } => {
                 write!(f, "horizon too long: at most {max_updates} updates")
             }
+            SimError::Graph(e) => write!(f, "links: {e}"),
+            SimError::Plan(e) => write!(f, "prediction: {e}"),
             SimError::NoRuns => f.write_str("number of runs must be at least 1"),
-            SimError::RunOutOfRange { run, runs } => {
-                write!(
-                    f,
-                    "run {run} asked for, but runs are numbered 0 to {}",
-                    runs.saturating_sub(1)
-                )
-            }
         }
     }
 }

@@ -35,6 +35,7 @@ mod lock;
 mod monte_carlo;
 mod network;
 mod outcome;
+mod predict;
 mod scenario;
 mod trace;
 
@@ -43,6 +44,7 @@ pub use lock::{Lock, LockTracker, largest_neighbour_diff, largest_pairwise_diff,
 pub use monte_carlo::{Percentiles, Progress, Summary, monte_carlo, run_once, trace_run};
 pub use network::{Network, Sample, phase_from_turns};
 pub use outcome::{RunOutcome, RunStats};
+pub use predict::{Prediction, chain_offsets, model_of, predict, start_spread_turns};
 pub use scenario::{
     Beacons, Crystals, Links, LockCriterion, MAX_DEGREE, MAX_NODES, Reboot, Scenario, Schedule,
     StartPhases,

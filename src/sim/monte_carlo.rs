@@ -11,6 +11,7 @@ use rayon::prelude::*;
 use super::error::SimError;
 use super::network::Network;
 use super::outcome::RunOutcome;
+use super::predict::{Prediction, predict};
 use super::scenario::Scenario;
 use super::trace::Trace;
 
@@ -151,12 +152,21 @@ pub struct Summary {
     pub neighbour_updates: u64,
     /// Every run's outcome, in run order.
     pub outcomes: Vec<RunOutcome>,
+    /// The checker's prediction for the same scenario, or why it refused.
+    pub prediction: Result<Prediction, SimError>,
+    /// The accuracy figure: simulated median lock time over the predicted lock time
+    /// ([`Prediction::lock_updates`]); `None` without both.
+    pub accuracy: Option<f64>,
 }
 
 impl Summary {
     /// Combine run outcomes (in run order).
     #[must_use]
-    pub fn from_outcomes(outcomes: Vec<RunOutcome>, update_period_s: f64) -> Summary {
+    pub fn from_outcomes(
+        outcomes: Vec<RunOutcome>,
+        update_period_s: f64,
+        prediction: Result<Prediction, SimError>,
+    ) -> Summary {
         let runs = outcomes.len();
         let locks: Vec<_> = outcomes.iter().filter_map(|o| o.lock).collect();
         let mut times: Vec<f64> = locks.iter().map(|l| l.at_updates as f64).collect();
@@ -180,6 +190,11 @@ impl Summary {
             jitter_turns: median(locks.iter().map(|l| l.jitter_turns).collect()),
             neighbour_updates: outcomes.iter().map(|o| o.stats.neighbour_updates).sum(),
             outcomes,
+            accuracy: match (&prediction, lock_updates) {
+                (Ok(p), Some(sim)) if p.lock_updates > 0 => Some(sim.p50 / p.lock_updates as f64),
+                _ => None,
+            },
+            prediction,
         }
     }
 }
@@ -216,6 +231,7 @@ pub fn monte_carlo(
     Ok(Summary::from_outcomes(
         outcomes?,
         scenario.update_period_s(),
+        predict(scenario),
     ))
 }
 

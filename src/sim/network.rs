@@ -14,6 +14,12 @@
 //! updates and zero latency every node uses its neighbours' phases of the same instant
 //! (a Jacobi step, x⁺ = (I − kp·L)x for the linear law).
 //!
+//! Reception timestamps are the receiver's timer to the *nearest* tick (error within
+//! ±½ tick, zero mean), plus the scenario's timestamp jitter. A firmware that reads the
+//! completed tick count should add half a tick: left in, the half-tick bias makes every
+//! node see every neighbour slightly ahead, and the PI integrators then ramp the whole
+//! network's rate until the trim limit.
+//!
 //! The network error is sampled once per nominal update interval, half an interval after
 //! each nominal update instant: sample k, at `(k + ½)` intervals, sees the state after
 //! the k-th update round (round 0 has no beacons yet, so sample 0 is the start spread).
@@ -30,7 +36,7 @@ use super::lock::{
 use super::outcome::{RunOutcome, RunStats};
 use super::scenario::{Crystals, Scenario, StartPhases};
 use super::trace::Trace;
-use crate::{Config, Node, NodeId, Observation, Phase};
+use crate::{Config, Node, NodeId, Observation, Phase, UpdateReport};
 
 /// Sub-ticks per nominal tick.
 const SUB: u64 = 1 << 16;
@@ -77,6 +83,12 @@ impl Timer {
         self.l0 + ((span * u128::from(self.fwd)) >> 48) as u64
     }
 
+    /// Local ticks (unwrapped) nearest to real time `t`: an unbiased reception timestamp.
+    fn nearest_at(&self, t: u64) -> u64 {
+        let span = u128::from(t.saturating_sub(self.t0));
+        self.l0 + ((span * u128::from(self.fwd) + (1 << 47)) >> 48) as u64
+    }
+
     /// Real time, sub-ticks, at which the timer reads `local`.
     fn real_at(&self, local: u64) -> u64 {
         let span = u128::from(local.saturating_sub(self.l0));
@@ -93,6 +105,8 @@ struct Station<const N: usize> {
     next_local: u64,
     ppm: f64,
     alive: bool,
+    /// A pinned chain's reference: beacons, never takes observations or updates.
+    reference: bool,
 }
 
 /// A reboot as two timed events.
@@ -186,13 +200,18 @@ impl<const N: usize> Network<N> {
         let n = scenario.nodes();
         let config = scenario.config;
         let update_ticks = u64::from(config.update_ticks());
-        let ppm: Vec<f64> = match &scenario.crystals {
+        let reference = scenario.links.reference();
+        let mut ppm: Vec<f64> = match &scenario.crystals {
             Crystals::Identical { ppm } => vec![*ppm; n],
             Crystals::Uniform { tolerance_ppm } => (0..n)
                 .map(|_| (rng.random::<f64>() * 2.0 - 1.0) * tolerance_ppm)
                 .collect(),
             Crystals::Fixed(v) => v.clone(),
         };
+        // The reference is a disciplined clock: nominal rate.
+        if let Some(e) = reference.and_then(|r| ppm.get_mut(r)) {
+            *e = 0.0;
+        }
         let start: Vec<Phase> = match &scenario.start {
             StartPhases::Uniform { spread_turns } => (0..n)
                 .map(|_| phase_from_turns((rng.random::<f64>() - 0.5) * spread_turns))
@@ -200,7 +219,7 @@ impl<const N: usize> Network<N> {
             StartPhases::Fixed(v) => v.iter().map(|&t| phase_from_turns(t)).collect(),
         };
         let mut stations = Vec::with_capacity(n);
-        for (&e, &phase) in ppm.iter().zip(&start) {
+        for (i, (&e, &phase)) in ppm.iter().zip(&start).enumerate() {
             let l0 = u64::from(rng.random::<u32>());
             let offset = if scenario.schedule.random_start {
                 rng.random_range(0..update_ticks)
@@ -213,6 +232,7 @@ impl<const N: usize> Network<N> {
                 next_local: l0 + offset,
                 ppm: e,
                 alive: true,
+                reference: reference == Some(i),
             });
         }
         let mut queue: Vec<(u64, u16)> = stations
@@ -441,6 +461,9 @@ impl<const N: usize> Network<N> {
         let node = &mut st.node;
         let delay = self.latency_ticks;
         let mut full = 0u64;
+        if st.reference {
+            inbox.clear();
+        }
         inbox.retain(|b| {
             if b.arrive < t {
                 let obs = Observation {
@@ -457,10 +480,14 @@ impl<const N: usize> Network<N> {
                 true
             }
         });
-        let report = node.update(local);
+        let report = if st.reference {
+            UpdateReport::default()
+        } else {
+            self.stats.node_updates += 1;
+            node.update(local)
+        };
         let phase = node.phase();
         self.stats.table_full += full;
-        self.stats.node_updates += 1;
         self.stats.neighbour_updates += u64::from(report.used);
         self.stats.slew_limited += u64::from(report.slew_limited);
         // Next update: one interval of this node's own ticks, plus jitter.
@@ -493,7 +520,7 @@ impl<const N: usize> Network<N> {
                 self.stats.beacons_lost += 1;
                 continue;
             }
-            let mut rx_ticks = rx.timer.local_at(arrive) as u32;
+            let mut rx_ticks = rx.timer.nearest_at(arrive) as u32;
             if self.ts_jitter > 0 {
                 let j = self.ts_jitter as i32;
                 rx_ticks = rx_ticks.wrapping_add_signed(self.rng.random_range(-j..=j));
@@ -521,7 +548,7 @@ impl<const N: usize> Network<N> {
             st.node.advance_to(local);
             let lo = self.offsets.get(i).copied().unwrap_or(0);
             let hi = self.offsets.get(i + 1).copied().unwrap_or(lo);
-            if !first {
+            if !first && !st.reference {
                 // Beacons of the previous round: sent at local − m, received `latency`
                 // ticks later by this node's (ideal) timer.
                 let rx_ticks = local.wrapping_sub(m as u32).wrapping_add(latency);
@@ -546,10 +573,12 @@ impl<const N: usize> Network<N> {
                     }
                 }
             }
-            let report = st.node.update(local);
-            self.stats.node_updates += 1;
-            self.stats.neighbour_updates += u64::from(report.used);
-            self.stats.slew_limited += u64::from(report.slew_limited);
+            if !st.reference {
+                let report = st.node.update(local);
+                self.stats.node_updates += 1;
+                self.stats.neighbour_updates += u64::from(report.used);
+                self.stats.slew_limited += u64::from(report.slew_limited);
+            }
             st.next_local += m;
         }
         for (st, sent) in self.stations.iter().zip(self.sent.iter_mut()) {

@@ -6,6 +6,8 @@
 
 use super::error::SimError;
 use crate::Config;
+use crate::graph::Graph;
+use crate::plan::Topology;
 
 /// Largest node count: node ids are `u16`.
 pub const MAX_NODES: usize = 1 << 16;
@@ -13,175 +15,114 @@ pub const MAX_NODES: usize = 1 << 16;
 /// Largest neighbour count of one node: the node table's capacity limit.
 pub const MAX_DEGREE: usize = 255;
 
-/// The undirected links beacons travel along (each link carries beacons both ways).
-#[derive(Clone, Debug, PartialEq, Eq)]
+/// The undirected links beacons travel along (each link carries beacons both ways),
+/// built from the checker's shared graph types so the prediction and the simulation see
+/// the same network.
+#[derive(Clone, Debug, PartialEq)]
 pub struct Links {
-    nodes: usize,
+    graph: Graph,
+    topology: Option<Topology>,
     pairs: Vec<(usize, usize)>,
-    ring: bool,
+    reference: Option<usize>,
 }
 
 impl Links {
-    /// Links from a list of node pairs over `nodes` nodes (duplicates are kept once).
+    /// The links of a closed-form topology (node numbering as in [`Topology`]). A pinned
+    /// chain gets its reference as the last node: it beacons at the nominal rate and never
+    /// adjusts its phase.
     ///
     /// # Errors
-    /// [`SimError::TooFewNodes`] below 1 node, [`SimError::TooManyNodes`] above
-    /// [`MAX_NODES`], [`SimError::LinkOutOfRange`], [`SimError::SelfLink`],
-    /// [`SimError::DegreeTooHigh`] above [`MAX_DEGREE`] neighbours.
-    pub fn from_pairs(nodes: usize, pairs: &[(usize, usize)]) -> Result<Links, SimError> {
-        if nodes < 1 {
-            return Err(SimError::TooFewNodes { min: 1, got: nodes });
+    /// [`SimError::Graph`] for an invalid topology; [`SimError::TooManyNodes`] above
+    /// [`MAX_NODES`]; [`SimError::DegreeTooHigh`] above [`MAX_DEGREE`] neighbours.
+    pub fn from_topology(topology: &Topology) -> Result<Links, SimError> {
+        let graph = Graph::from_topology(topology).map_err(SimError::Graph)?;
+        let reference = topology.is_pinned().then(|| topology.node_count());
+        Links::build(graph, Some(*topology), reference)
+    }
+
+    /// The links of an arbitrary graph. The node law weights every neighbour alike, so
+    /// every edge weight must be 1.
+    ///
+    /// # Errors
+    /// [`SimError::InvalidParameter`] for an edge weight other than 1;
+    /// [`SimError::TooManyNodes`]; [`SimError::DegreeTooHigh`].
+    pub fn from_graph(graph: &Graph) -> Result<Links, SimError> {
+        if graph.edges().iter().any(|e| e.weight != 1.0) {
+            return Err(SimError::InvalidParameter {
+                name: "edge weight",
+                valid: "1 (the node law weights every neighbour alike)",
+            });
         }
+        Links::build(graph.clone(), None, None)
+    }
+
+    /// The links of `nodes` nodes joined by `pairs` (each pair once).
+    ///
+    /// # Errors
+    /// [`SimError::Graph`] for an index out of range, a self-link or a duplicate;
+    /// [`SimError::TooManyNodes`]; [`SimError::DegreeTooHigh`].
+    pub fn from_pairs(nodes: usize, pairs: &[(usize, usize)]) -> Result<Links, SimError> {
+        let graph = Graph::from_edges(nodes, pairs).map_err(SimError::Graph)?;
+        Links::build(graph, None, None)
+    }
+
+    /// An open chain of `nodes ≥ 2` (the checker's [`Topology::Chain`]).
+    ///
+    /// # Errors
+    /// As [`Links::from_topology`].
+    pub fn chain(nodes: usize) -> Result<Links, SimError> {
+        Links::from_topology(&Topology::Chain { nodes })
+    }
+
+    /// A closed ring of `nodes ≥ 3` in node order (the checker's [`Topology::Ring`]); its
+    /// runs report a winding number.
+    ///
+    /// # Errors
+    /// As [`Links::from_topology`].
+    pub fn ring(nodes: usize) -> Result<Links, SimError> {
+        Links::from_topology(&Topology::Ring { nodes })
+    }
+
+    fn build(
+        graph: Graph,
+        topology: Option<Topology>,
+        reference: Option<usize>,
+    ) -> Result<Links, SimError> {
+        let nodes = graph.node_count();
         if nodes > MAX_NODES {
             return Err(SimError::TooManyNodes {
                 max: MAX_NODES,
                 got: nodes,
             });
         }
-        let mut clean: Vec<(usize, usize)> = Vec::with_capacity(pairs.len());
-        for (link, &(a, b)) in pairs.iter().enumerate() {
-            for node in [a, b] {
-                if node >= nodes {
-                    return Err(SimError::LinkOutOfRange { link, node, nodes });
-                }
-            }
-            if a == b {
-                return Err(SimError::SelfLink { node: a });
-            }
-            clean.push((a.min(b), a.max(b)));
-        }
-        clean.sort_unstable();
-        clean.dedup();
-        let mut degree = vec![0usize; nodes];
-        for &(a, b) in &clean {
-            for node in [a, b] {
-                if let Some(d) = degree.get_mut(node) {
-                    *d += 1;
-                    if *d > MAX_DEGREE {
-                        return Err(SimError::DegreeTooHigh {
-                            node,
-                            degree: *d,
-                            max: MAX_DEGREE,
-                        });
-                    }
-                }
+        for node in 0..nodes {
+            let degree = graph.neighbours(node).len();
+            if degree > MAX_DEGREE {
+                return Err(SimError::DegreeTooHigh {
+                    node,
+                    degree,
+                    max: MAX_DEGREE,
+                });
             }
         }
+        let mut pairs: Vec<(usize, usize)> = graph
+            .edges()
+            .iter()
+            .map(|e| (e.a.min(e.b), e.a.max(e.b)))
+            .collect();
+        pairs.sort_unstable();
         Ok(Links {
-            nodes,
-            pairs: clean,
-            ring: false,
+            graph,
+            topology,
+            pairs,
+            reference,
         })
     }
 
-    /// An open chain `0 − 1 − … − (nodes−1)`, `nodes ≥ 2`.
-    ///
-    /// # Errors
-    /// [`SimError::TooFewNodes`] below 2 nodes; [`SimError::TooManyNodes`].
-    pub fn chain(nodes: usize) -> Result<Links, SimError> {
-        if nodes < 2 {
-            return Err(SimError::TooFewNodes { min: 2, got: nodes });
-        }
-        let pairs: Vec<_> = (1..nodes).map(|i| (i - 1, i)).collect();
-        Links::from_pairs(nodes, &pairs)
-    }
-
-    /// A closed ring `0 − 1 − … − (nodes−1) − 0`, `nodes ≥ 3`. Runs on a ring report
-    /// their winding number (twisted states).
-    ///
-    /// # Errors
-    /// [`SimError::TooFewNodes`] below 3 nodes; [`SimError::TooManyNodes`].
-    pub fn ring(nodes: usize) -> Result<Links, SimError> {
-        if nodes < 3 {
-            return Err(SimError::TooFewNodes { min: 3, got: nodes });
-        }
-        let pairs: Vec<_> = (0..nodes).map(|i| (i, (i + 1) % nodes)).collect();
-        let mut links = Links::from_pairs(nodes, &pairs)?;
-        links.ring = true;
-        Ok(links)
-    }
-
-    /// A star: hub 0 linked to every other node, `2 ≤ nodes ≤ 256`.
-    ///
-    /// # Errors
-    /// [`SimError::TooFewNodes`]; [`SimError::DegreeTooHigh`] above 256 nodes.
-    pub fn star(nodes: usize) -> Result<Links, SimError> {
-        if nodes < 2 {
-            return Err(SimError::TooFewNodes { min: 2, got: nodes });
-        }
-        let pairs: Vec<_> = (1..nodes).map(|i| (0, i)).collect();
-        Links::from_pairs(nodes, &pairs)
-    }
-
-    /// Every node hears every other, `2 ≤ nodes ≤ 256`.
-    ///
-    /// # Errors
-    /// [`SimError::TooFewNodes`]; [`SimError::DegreeTooHigh`] above 256 nodes.
-    pub fn complete(nodes: usize) -> Result<Links, SimError> {
-        if nodes < 2 {
-            return Err(SimError::TooFewNodes { min: 2, got: nodes });
-        }
-        if nodes > MAX_DEGREE + 1 {
-            return Err(SimError::DegreeTooHigh {
-                node: 0,
-                degree: nodes - 1,
-                max: MAX_DEGREE,
-            });
-        }
-        let pairs: Vec<_> = (0..nodes)
-            .flat_map(|a| (a + 1..nodes).map(move |b| (a, b)))
-            .collect();
-        Links::from_pairs(nodes, &pairs)
-    }
-
-    /// A `rows × cols` grid (node `r·cols + c`), or with `wrap` a torus (`rows, cols ≥ 3`).
-    ///
-    /// # Errors
-    /// [`SimError::TooFewNodes`] for fewer than 2 nodes (or a torus side below 3);
-    /// [`SimError::TooManyNodes`].
-    pub fn grid(rows: usize, cols: usize, wrap: bool) -> Result<Links, SimError> {
-        let nodes = rows.checked_mul(cols).ok_or(SimError::TooManyNodes {
-            max: MAX_NODES,
-            got: usize::MAX,
-        })?;
-        if wrap && rows.min(cols) < 3 {
-            return Err(SimError::TooFewNodes {
-                min: 3,
-                got: rows.min(cols),
-            });
-        }
-        if nodes < 2 {
-            return Err(SimError::TooFewNodes { min: 2, got: nodes });
-        }
-        if nodes > MAX_NODES {
-            return Err(SimError::TooManyNodes {
-                max: MAX_NODES,
-                got: nodes,
-            });
-        }
-        let mut pairs = Vec::with_capacity(2 * nodes);
-        for r in 0..rows {
-            for c in 0..cols {
-                let here = r * cols + c;
-                if c + 1 < cols {
-                    pairs.push((here, here + 1));
-                } else if wrap {
-                    pairs.push((here, r * cols));
-                }
-                if r + 1 < rows {
-                    pairs.push((here, here + cols));
-                } else if wrap {
-                    pairs.push((here, c));
-                }
-            }
-        }
-        Links::from_pairs(nodes, &pairs)
-    }
-
-    /// Number of nodes.
+    /// Number of nodes (with a pinned chain's reference).
     #[must_use]
     pub fn nodes(&self) -> usize {
-        self.nodes
+        self.graph.node_count()
     }
 
     /// The links, each as `(smaller index, larger index)`, sorted.
@@ -190,44 +131,54 @@ impl Links {
         &self.pairs
     }
 
-    /// True for a ring built by [`Links::ring`] (nodes in cyclic order), whose runs report
-    /// a winding number.
+    /// The graph, for the checker's numeric spectrum.
+    #[must_use]
+    pub fn graph(&self) -> &Graph {
+        &self.graph
+    }
+
+    /// The closed-form topology these links were built from, if any.
+    #[must_use]
+    pub fn topology(&self) -> Option<Topology> {
+        self.topology
+    }
+
+    /// The reference node of a pinned chain (beacons, never adjusts).
+    #[must_use]
+    pub fn reference(&self) -> Option<usize> {
+        self.reference
+    }
+
+    /// True for a ring (nodes in cyclic order), whose runs report a winding number.
     #[must_use]
     pub fn is_ring(&self) -> bool {
-        self.ring
+        matches!(self.topology, Some(Topology::Ring { .. }))
     }
 
     /// The largest number of neighbours of any node.
     #[must_use]
     pub fn max_degree(&self) -> usize {
-        let mut degree = vec![0usize; self.nodes];
-        for &(a, b) in &self.pairs {
-            for node in [a, b] {
-                if let Some(d) = degree.get_mut(node) {
-                    *d += 1;
-                }
-            }
-        }
-        degree.into_iter().max().unwrap_or(0)
+        (0..self.nodes())
+            .map(|i| self.graph.neighbours(i).len())
+            .max()
+            .unwrap_or(0)
     }
 
     /// Neighbour lists in compressed form: node i's neighbours are
     /// `targets[offsets[i]..offsets[i+1]]`, ascending.
     pub(crate) fn adjacency(&self) -> (Vec<usize>, Vec<u16>) {
-        let mut lists: Vec<Vec<u16>> = vec![Vec::new(); self.nodes];
-        for &(a, b) in &self.pairs {
-            // Node indices are below MAX_NODES = 2^16 (checked at construction).
-            if let Some(l) = lists.get_mut(a) {
-                l.push(b as u16);
-            }
-            if let Some(l) = lists.get_mut(b) {
-                l.push(a as u16);
-            }
-        }
-        let mut offsets = Vec::with_capacity(self.nodes + 1);
+        let n = self.nodes();
+        let mut offsets = Vec::with_capacity(n + 1);
         let mut targets = Vec::with_capacity(2 * self.pairs.len());
         offsets.push(0);
-        for mut l in lists {
+        for i in 0..n {
+            let mut l: Vec<u16> = self
+                .graph
+                .neighbours(i)
+                .iter()
+                // Node indices are below MAX_NODES = 2^16 (checked at construction).
+                .map(|&(j, _)| j as u16)
+                .collect();
             l.sort_unstable();
             targets.extend_from_slice(&l);
             offsets.push(targets.len());
@@ -513,40 +464,34 @@ mod tests {
     use super::*;
 
     #[test]
-    fn grid_and_torus_have_the_right_link_counts() {
+    fn links_follow_the_shared_topologies() {
         // A rows×cols grid has rows(cols−1) + cols(rows−1) links; a torus 2·rows·cols.
-        assert_eq!(
-            Links::grid(3, 4, false).unwrap().pairs().len(),
-            3 * 3 + 4 * 2
-        );
-        assert_eq!(Links::grid(3, 4, true).unwrap().pairs().len(), 24);
-        assert_eq!(Links::grid(3, 4, true).unwrap().max_degree(), 4);
-        assert_eq!(Links::complete(5).unwrap().pairs().len(), 10);
-        assert_eq!(Links::star(5).unwrap().max_degree(), 4);
+        let grid = Links::from_topology(&Topology::Grid { rows: 3, cols: 4 }).unwrap();
+        assert_eq!(grid.pairs().len(), 3 * 3 + 4 * 2);
+        let torus = Links::from_topology(&Topology::Torus { rows: 3, cols: 4 }).unwrap();
+        assert_eq!((torus.pairs().len(), torus.max_degree()), (24, 4));
+        let pinned = Links::from_topology(&Topology::PinnedChain { nodes: 3 }).unwrap();
+        assert_eq!((pinned.nodes(), pinned.reference()), (4, Some(3)));
+        assert!(Links::ring(5).unwrap().is_ring());
+        assert!(!Links::chain(5).unwrap().is_ring());
     }
 
     #[test]
     fn bad_links_are_named() {
-        assert_eq!(
-            Links::from_pairs(3, &[(0, 1), (1, 3)]),
-            Err(SimError::LinkOutOfRange {
-                link: 1,
-                node: 3,
-                nodes: 3
-            })
-        );
-        assert_eq!(
-            Links::from_pairs(3, &[(2, 2)]),
-            Err(SimError::SelfLink { node: 2 })
-        );
         assert!(matches!(
-            Links::star(300),
+            Links::from_pairs(3, &[(0, 1), (1, 3)]),
+            Err(SimError::Graph(_))
+        ));
+        assert!(matches!(
+            Links::from_topology(&Topology::Star { nodes: 300 }),
             Err(SimError::DegreeTooHigh { max: 255, .. })
         ));
-        assert_eq!(
-            Links::ring(2),
-            Err(SimError::TooFewNodes { min: 3, got: 2 })
-        );
+        assert!(matches!(Links::ring(2), Err(SimError::Graph(_))));
+        let weighted = Graph::from_weighted_edges(2, &[(0, 1, 2.0)]).unwrap();
+        assert!(matches!(
+            Links::from_graph(&weighted),
+            Err(SimError::InvalidParameter { .. })
+        ));
     }
 
     #[test]

@@ -12,10 +12,10 @@
     )
 )]
 
-mod config;
-mod gain;
 #[cfg(feature = "cli")]
 pub mod cli;
+mod config;
+mod gain;
 #[cfg(feature = "check")]
 pub mod graph;
 pub mod law;

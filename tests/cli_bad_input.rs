@@ -33,7 +33,11 @@ fn header(text: &str, key: &str) -> String {
 
 #[test]
 fn catalogue_is_large_enough() {
-    assert!(catalogue().len() >= 20, "only {} bad scenarios", catalogue().len());
+    assert!(
+        catalogue().len() >= 20,
+        "only {} bad scenarios",
+        catalogue().len()
+    );
 }
 
 #[test]
@@ -48,11 +52,16 @@ fn every_bad_scenario_exits_2_with_its_message() {
             let stderr = String::from_utf8_lossy(&out.stderr);
             let name = file.file_name().unwrap().to_string_lossy();
             if out.status.code() != Some(2) {
-                failures.push(format!("{name} ({command}): status {:?}, stderr {stderr}", out.status.code()));
+                failures.push(format!(
+                    "{name} ({command}): status {:?}, stderr {stderr}",
+                    out.status.code()
+                ));
                 continue;
             }
             if !stderr.contains(&expect) {
-                failures.push(format!("{name} ({command}): message missing `{expect}` in: {stderr}"));
+                failures.push(format!(
+                    "{name} ({command}): message missing `{expect}` in: {stderr}"
+                ));
             }
             if stderr.contains("panicked") || stderr.contains("RUST_BACKTRACE") {
                 failures.push(format!("{name} ({command}): panic: {stderr}"));
@@ -64,7 +73,9 @@ fn every_bad_scenario_exits_2_with_its_message() {
                     col.parse::<u32>().unwrap()
                 );
                 if !stderr.contains(&place) {
-                    failures.push(format!("{name} ({command}): place `{place}` missing in: {stderr}"));
+                    failures.push(format!(
+                        "{name} ({command}): place `{place}` missing in: {stderr}"
+                    ));
                 }
             } else if !stderr.contains(&*name) && !stderr.contains(".edges") {
                 failures.push(format!("{name} ({command}): file not named in: {stderr}"));
@@ -76,7 +87,10 @@ fn every_bad_scenario_exits_2_with_its_message() {
 
 #[test]
 fn missing_scenario_file_exits_2() {
-    let out = entrain().args(["check", "no/such/scenario.toml"]).output().unwrap();
+    let out = entrain()
+        .args(["check", "no/such/scenario.toml"])
+        .output()
+        .unwrap();
     assert_eq!(out.status.code(), Some(2));
     let stderr = String::from_utf8_lossy(&out.stderr);
     assert!(stderr.contains("no/such/scenario.toml"), "{stderr}");

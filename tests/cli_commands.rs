@@ -22,8 +22,12 @@ fn entrain() -> Command {
 fn json(args: &[&str]) -> (Value, i32) {
     let out = entrain().args(args).arg("--json").output().unwrap();
     let status = out.status.code().unwrap();
-    let v: Value = serde_json::from_slice(&out.stdout)
-        .unwrap_or_else(|e| panic!("{args:?}: not JSON ({e}): {}", String::from_utf8_lossy(&out.stderr)));
+    let v: Value = serde_json::from_slice(&out.stdout).unwrap_or_else(|e| {
+        panic!(
+            "{args:?}: not JSON ({e}): {}",
+            String::from_utf8_lossy(&out.stderr)
+        )
+    });
     assert_eq!(v["schema_version"], 1);
     (v, status)
 }
@@ -63,7 +67,9 @@ fn spectrum_of_the_courtyard_ring_is_the_cycle_spectrum() {
     let (v, _) = json(&["spectrum", "examples/courtyard.toml"]);
     let ev: Vec<f64> = v["eigenvalues"].as_array().unwrap().iter().map(f).collect();
     // C_N: λ_k = 2 − 2cos(2πk/N) (Brouwer & Haemers 2012 §1.4); C12 sorted by hand.
-    let mut want: Vec<f64> = (0..12).map(|k| 2.0 - 2.0 * (2.0 * PI * k as f64 / 12.0).cos()).collect();
+    let mut want: Vec<f64> = (0..12)
+        .map(|k| 2.0 - 2.0 * (2.0 * PI * k as f64 / 12.0).cos())
+        .collect();
     want.sort_by(f64::total_cmp);
     for (a, b) in ev.iter().zip(&want) {
         assert!((a - b).abs() < 1e-12);
@@ -77,7 +83,10 @@ fn spectrum_of_the_greenhouse_grid_and_the_text_report() {
     // P10 □ P10: λ2 = λ2(P10), λmax = 2·λmax(P10) (Brouwer & Haemers §1.4).
     assert!((f(&v["spectrum"]["lambda_slow"]) - path_eigenvalue(10, 1)).abs() < TOL);
     assert!((f(&v["spectrum"]["lambda_max"]) - 2.0 * path_eigenvalue(10, 9)).abs() < TOL);
-    let out = entrain().args(["spectrum", "examples/greenhouse.toml"]).output().unwrap();
+    let out = entrain()
+        .args(["spectrum", "examples/greenhouse.toml"])
+        .output()
+        .unwrap();
     let text = String::from_utf8(out.stdout).unwrap();
     assert!(text.contains("Slowest mode along the network"));
     assert!(text.contains("Caution:"));
@@ -87,7 +96,7 @@ fn spectrum_of_the_greenhouse_grid_and_the_text_report() {
 fn footbridge_model() -> Model {
     Model {
         law: plan::Law::Sine,
-        kp: 16_384.0 / 65_536.0,                     // 0.25 in Q16.16
+        kp: 16_384.0 / 65_536.0,                      // 0.25 in Q16.16
         ki: (0.02_f64 * 65_536.0).round() / 65_536.0, // 1311 / 65536
         update_period_s: 0.1,
         phase_period_s: 0.001,
@@ -116,7 +125,10 @@ fn check_footbridge_matches_the_planner_and_the_simulator() {
     let se = plan::settle(
         &model,
         &spectrum,
-        &Spread { initial_spread_s: 0.0004, tolerance_s: 0.00002 },
+        &Spread {
+            initial_spread_s: 0.0004,
+            tolerance_s: 0.00002,
+        },
     )
     .unwrap();
     assert!((f(&p["settling"]["asymptotic_s"]) - se.asymptotic_s).abs() < 1e-9);
@@ -133,16 +145,31 @@ fn check_footbridge_matches_the_planner_and_the_simulator() {
         .build()
         .unwrap();
     let mut s = sim::Scenario::new(sim::Links::chain(24).unwrap(), config, 1e6);
-    s.crystals = sim::Crystals::Uniform { tolerance_ppm: 20.0 };
-    s.schedule = sim::Schedule { random_start: true, jitter_ticks: 0 };
-    s.beacons = sim::Beacons { latency_ticks: 400, timestamp_jitter_ticks: 1, success_prob: 0.98 };
+    s.crystals = sim::Crystals::Uniform {
+        tolerance_ppm: 20.0,
+    };
+    s.schedule = sim::Schedule {
+        random_start: true,
+        jitter_ticks: 0,
+    };
+    s.beacons = sim::Beacons {
+        latency_ticks: 400,
+        timestamp_jitter_ticks: 1,
+        success_prob: 0.98,
+    };
     s.start = sim::StartPhases::Uniform { spread_turns: 0.4 };
-    s.lock = sim::LockCriterion { tolerance_turns: 0.02, ..s.lock };
+    s.lock = sim::LockCriterion {
+        tolerance_turns: 0.02,
+        ..s.lock
+    };
     s.horizon_updates = 4_800; // 2 × the 240 s budget at 10 Hz
     let summary = sim::monte_carlo(&s, 24, 2024, &|_| {}).unwrap();
     let m = &v["simulation"];
     assert_eq!(m["runs"], 24);
-    assert_eq!(m["locked_runs"].as_u64().unwrap() as usize, summary.locked_runs);
+    assert_eq!(
+        m["locked_runs"].as_u64().unwrap() as usize,
+        summary.locked_runs
+    );
     let lock = summary.lock_s.unwrap();
     assert!((f(&m["lock_s"]["p50"]) - lock.p50).abs() < 1e-9);
     assert!((f(&m["lock_s"]["max"]) - lock.max).abs() < 1e-9);
@@ -151,10 +178,16 @@ fn check_footbridge_matches_the_planner_and_the_simulator() {
 
 #[test]
 fn check_report_reads_verdict_first_and_ends_with_the_caution() {
-    let out = entrain().args(["check", "examples/courtyard.toml"]).output().unwrap();
+    let out = entrain()
+        .args(["check", "examples/courtyard.toml"])
+        .output()
+        .unwrap();
     assert_eq!(out.status.code(), Some(0));
     let text = String::from_utf8(out.stdout).unwrap();
-    let at = |s: &str| text.find(s).unwrap_or_else(|| panic!("no `{s}` in:\n{text}"));
+    let at = |s: &str| {
+        text.find(s)
+            .unwrap_or_else(|| panic!("no `{s}` in:\n{text}"))
+    };
     assert!(at("VERDICT: PASS") < at("Margins"));
     assert!(at("Margins") < at("Figures"));
     assert!(at("Figures") < at("Warnings"));
@@ -165,7 +198,8 @@ fn check_report_reads_verdict_first_and_ends_with_the_caution() {
 
 fn variant(name: &str, from: &str, edits: &[(&str, &str)]) -> tempfile::TempDir {
     let dir = tempfile::tempdir().unwrap();
-    let mut text = std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join(from)).unwrap();
+    let mut text =
+        std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join(from)).unwrap();
     for (a, b) in edits {
         assert!(text.contains(a), "{a}");
         text = text.replace(a, b);
@@ -177,21 +211,37 @@ fn variant(name: &str, from: &str, edits: &[(&str, &str)]) -> tempfile::TempDir 
 #[test]
 fn check_fails_with_status_1_when_unstable() {
     // kp·λmax = 0.9 × 3.98 > 2: the fastest mode grows (Xiao & Boyd 2004).
-    let dir = variant("x.toml", "examples/footbridge.toml", &[("kp = 0.25", "kp = 0.9")]);
+    let dir = variant(
+        "x.toml",
+        "examples/footbridge.toml",
+        &[("kp = 0.25", "kp = 0.9")],
+    );
     let file = dir.path().join("x.toml");
     let (v, status) = json(&["check", file.to_str().unwrap(), "--no-simulate"]);
     assert_eq!(status, 1);
     assert_eq!(v["verdict"]["pass"], false);
-    let codes: Vec<&str> = v["verdict"]["reasons"].as_array().unwrap().iter().map(|r| r["code"].as_str().unwrap()).collect();
+    let codes: Vec<&str> = v["verdict"]["reasons"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|r| r["code"].as_str().unwrap())
+        .collect();
     assert!(codes.contains(&"unstable"), "{codes:?}");
     assert_eq!(v["simulation"], Value::Null);
 }
 
 #[test]
 fn check_fails_with_status_1_when_over_budget() {
-    let dir = variant("x.toml", "examples/footbridge.toml", &[("budget_s = 240", "budget_s = 5")]);
+    let dir = variant(
+        "x.toml",
+        "examples/footbridge.toml",
+        &[("budget_s = 240", "budget_s = 5")],
+    );
     let file = dir.path().join("x.toml");
-    let out = entrain().args(["check", file.to_str().unwrap(), "--runs", "4"]).output().unwrap();
+    let out = entrain()
+        .args(["check", file.to_str().unwrap(), "--runs", "4"])
+        .output()
+        .unwrap();
     assert_eq!(out.status.code(), Some(1));
     let text = String::from_utf8(out.stdout).unwrap();
     assert!(text.starts_with("entrain check"));
@@ -203,7 +253,12 @@ fn check_fails_with_status_1_when_over_budget() {
 fn tune_writes_constants_that_build_the_tuned_config() {
     let dir = tempfile::tempdir().unwrap();
     let out_file = dir.path().join("consts.rs");
-    let (v, status) = json(&["tune", "examples/courtyard.toml", "--out", out_file.to_str().unwrap()]);
+    let (v, status) = json(&[
+        "tune",
+        "examples/courtyard.toml",
+        "--out",
+        out_file.to_str().unwrap(),
+    ]);
     assert_eq!(status, 0, "{v}");
     assert_eq!(v["tuning"]["feasible"], true);
 
@@ -222,7 +277,10 @@ fn tune_writes_constants_that_build_the_tuned_config() {
     };
     let budget = plan::Budget {
         lock_time_budget_s: 20.0,
-        spread: Spread { initial_spread_s: 0.006, tolerance_s: 0.0002 },
+        spread: Spread {
+            initial_spread_s: 0.006,
+            tolerance_s: 0.0002,
+        },
         crystal_tolerance_ppm: 30.0,
     };
     let tuning = plan::tune_topology(&template, &Topology::Ring { nodes: 12 }, &budget).unwrap();
@@ -257,10 +315,19 @@ fn tune_writes_constants_that_build_the_tuned_config() {
 
 #[test]
 fn tune_without_feasible_gains_exits_1_and_writes_nothing() {
-    let dir = variant("x.toml", "examples/courtyard.toml", &[("budget_s = 20", "budget_s = 0.05")]);
+    let dir = variant(
+        "x.toml",
+        "examples/courtyard.toml",
+        &[("budget_s = 20", "budget_s = 0.05")],
+    );
     let file = dir.path().join("x.toml");
     let out_file = dir.path().join("consts.rs");
-    let (v, status) = json(&["tune", file.to_str().unwrap(), "--out", out_file.to_str().unwrap()]);
+    let (v, status) = json(&[
+        "tune",
+        file.to_str().unwrap(),
+        "--out",
+        out_file.to_str().unwrap(),
+    ]);
     assert_eq!(status, 1);
     assert_eq!(v["tuning"]["feasible"], false);
     assert!(v["tuning"]["infeasibility"].is_string());
@@ -270,7 +337,14 @@ fn tune_without_feasible_gains_exits_1_and_writes_nothing() {
 #[test]
 fn simulate_writes_three_svg_plots() {
     let dir = tempfile::tempdir().unwrap();
-    let (v, status) = json(&["simulate", "examples/courtyard.toml", "--plots", dir.path().to_str().unwrap(), "--runs", "8"]);
+    let (v, status) = json(&[
+        "simulate",
+        "examples/courtyard.toml",
+        "--plots",
+        dir.path().to_str().unwrap(),
+        "--runs",
+        "8",
+    ]);
     assert_eq!(status, 0, "{v}");
     assert_eq!(v["command"], "simulate");
     assert_eq!(v["simulation"]["runs"], 8);
@@ -303,7 +377,15 @@ fn simulate_writes_three_svg_plots() {
 fn simulate_human_report_lists_the_plots() {
     let dir = tempfile::tempdir().unwrap();
     let out = entrain()
-        .args(["simulate", "examples/greenhouse.toml", "--runs", "3", "--seed", "5", "--plots"])
+        .args([
+            "simulate",
+            "examples/greenhouse.toml",
+            "--runs",
+            "3",
+            "--seed",
+            "5",
+            "--plots",
+        ])
         .arg(dir.path())
         .output()
         .unwrap();
@@ -316,8 +398,18 @@ fn simulate_human_report_lists_the_plots() {
 
 #[test]
 fn every_example_checks_and_passes() {
-    for file in ["examples/footbridge.toml", "examples/courtyard.toml", "examples/greenhouse.toml", "examples/conveyor.toml"] {
+    for file in [
+        "examples/footbridge.toml",
+        "examples/courtyard.toml",
+        "examples/greenhouse.toml",
+        "examples/conveyor.toml",
+    ] {
         let out = entrain().args(["check", file]).output().unwrap();
-        assert_eq!(out.status.code(), Some(0), "{file}: {}", String::from_utf8_lossy(&out.stdout));
+        assert_eq!(
+            out.status.code(),
+            Some(0),
+            "{file}: {}",
+            String::from_utf8_lossy(&out.stdout)
+        );
     }
 }

@@ -29,7 +29,12 @@ fn included_constants_make_the_config() {
 #[test]
 fn a_node_runs_on_the_included_config() {
     let mut node: Node<2> = Node::new(consts::CONFIG, Phase::ZERO, 0);
-    let ahead = Observation { from: 1, phase: Phase::from_turns(0.01), rx_ticks: 0, delay_ticks: 0 };
+    let ahead = Observation {
+        from: 1,
+        phase: Phase::from_turns(0.01),
+        rx_ticks: 0,
+        delay_ticks: 0,
+    };
     node.observe(ahead).unwrap();
     let report = node.update(0);
     assert_eq!(report.used, 1);

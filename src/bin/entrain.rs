@@ -90,7 +90,11 @@ fn main() -> ExitCode {
         Ok(a) => a,
         Err(e) => {
             let _ = e.print();
-            return ExitCode::from(if e.use_stderr() { cli::EXIT_INPUT } else { cli::EXIT_PASS });
+            return ExitCode::from(if e.use_stderr() {
+                cli::EXIT_INPUT
+            } else {
+                cli::EXIT_PASS
+            });
         }
     };
     let (command, json) = match args.command {

@@ -131,7 +131,10 @@ pub fn modes(scenario: &Scenario, shape: &Shape) -> Result<Modes, CliError> {
         let mut slow_mode = vec![0.0; n];
         t.slow_mode_shape(&mut slow_mode)
             .map_err(|e| input(format!("spectrum: {e}")))?;
-        return Ok(Modes { eigenvalues, slow_mode });
+        return Ok(Modes {
+            eigenvalues,
+            slow_mode,
+        });
     }
     let graph = shape
         .graph
@@ -213,10 +216,14 @@ pub struct Prediction {
 ///
 /// # Errors
 /// [`CliError::Input`] for gains the node law refuses or values the planner refuses.
-pub fn predict(scenario: &Scenario, shape: &Shape, kp: f64, ki: f64) -> Result<Prediction, CliError> {
+pub fn predict(
+    scenario: &Scenario,
+    shape: &Shape,
+    kp: f64,
+    ki: f64,
+) -> Result<Prediction, CliError> {
     let input = |message: String| CliError::input(&scenario.path, message);
-    let constants =
-        NodeConstants::new(scenario, kp, ki).map_err(|e| input(format!("law: {e}")))?;
+    let constants = NodeConstants::new(scenario, kp, ki).map_err(|e| input(format!("law: {e}")))?;
     constants
         .config()
         .map_err(|e| input(format!("law: the node law refuses these values: {e}")))?;
@@ -244,7 +251,9 @@ pub fn predict(scenario: &Scenario, shape: &Shape, kp: f64, ki: f64) -> Result<P
     let jitter_sd_s = scenario.timestamp_jitter_s / 3.0_f64.sqrt();
     let noise = if stability.stable {
         match (&shape.topology, &shape.graph) {
-            (Some(t), _) => plan::phase_jitter(&m, &shape.spectrum, t.nonzero_modes(), jitter_sd_s).ok(),
+            (Some(t), _) => {
+                plan::phase_jitter(&m, &shape.spectrum, t.nonzero_modes(), jitter_sd_s).ok()
+            }
             (None, Some(g)) => g.dense_spectrum().ok().and_then(|d| {
                 let modes: Vec<f64> = d.eigenvalues().iter().skip(1).copied().collect();
                 plan::phase_jitter(&m, &shape.spectrum, modes, jitter_sd_s).ok()
@@ -302,7 +311,11 @@ pub struct Chosen {
 /// As [`tune`]; and [`CliError::Input`] when the tuner finds no stable gains at all.
 pub fn choose(scenario: &Scenario, shape: &Shape) -> Result<Chosen, CliError> {
     match scenario.gains {
-        Gains::Fixed { kp, ki } => Ok(Chosen { kp, ki, tuning: None }),
+        Gains::Fixed { kp, ki } => Ok(Chosen {
+            kp,
+            ki,
+            tuning: None,
+        }),
         Gains::Tune { pi } => {
             let tuning = tune(scenario, shape, pi)?;
             let pick = tuning.recommended.or(tuning.fastest).ok_or_else(|| {
@@ -365,7 +378,8 @@ pub fn sim_scenario(
         ..s.lock
     };
     s.horizon_updates = (scenario.duration_s * scenario.update_rate_hz).ceil() as u64;
-    s.validate().map_err(|e| input(format!("simulation: {e}")))?;
+    s.validate()
+        .map_err(|e| input(format!("simulation: {e}")))?;
     Ok(s)
 }
 

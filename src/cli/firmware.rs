@@ -128,14 +128,20 @@ impl NodeConstants {
         };
         item(
             &mut s,
-            format!("Timer ticks per phase turn ({} Hz timer, {} s turn).", scenario.timer_hz, scenario.phase_period_s),
+            format!(
+                "Timer ticks per phase turn ({} Hz timer, {} s turn).",
+                scenario.timer_hz, scenario.phase_period_s
+            ),
             "TICKS_PER_PERIOD",
             "u32",
             self.ticks_per_period.to_string(),
         );
         item(
             &mut s,
-            format!("Timer ticks between updates ({} Hz updates).", scenario.update_rate_hz),
+            format!(
+                "Timer ticks between updates ({} Hz updates).",
+                scenario.update_rate_hz
+            ),
             "UPDATE_TICKS",
             "u32",
             self.update_ticks.to_string(),

@@ -224,7 +224,11 @@ fn check_map(r: &CheckResult, command: &str) -> Map<String, Value> {
     m.insert("spectrum".into(), spectrum_json(&r.shape));
     m.insert(
         "gains_source".into(),
-        json!(if r.chosen.tuning.is_some() { "tuned" } else { "scenario" }),
+        json!(if r.chosen.tuning.is_some() {
+            "tuned"
+        } else {
+            "scenario"
+        }),
     );
     m.insert(
         "tuning".into(),
@@ -271,7 +275,12 @@ pub fn simulate(r: &CheckResult, plots: &[PathBuf]) -> String {
     let mut m = check_map(r, "simulate");
     m.insert(
         "plots".into(),
-        Value::Array(plots.iter().map(|p| json!(p.display().to_string())).collect()),
+        Value::Array(
+            plots
+                .iter()
+                .map(|p| json!(p.display().to_string()))
+                .collect(),
+        ),
     );
     pretty(&Value::Object(m))
 }

@@ -307,7 +307,11 @@ pub enum Format {
 /// # Errors
 /// A [`CliError`] for bad input, a missing capability or an unwritable output; the caller
 /// exits with [`EXIT_INPUT`].
-pub fn run(command: &Command, format: Format, progress: &dyn ProgressSink) -> Result<Output, CliError> {
+pub fn run(
+    command: &Command,
+    format: Format,
+    progress: &dyn ProgressSink,
+) -> Result<Output, CliError> {
     match command {
         Command::Check {
             file,
@@ -447,7 +451,13 @@ pub fn check(
             Ok(sim_scenario) => {
                 progress.start(u64::from(runs));
                 let tick = |p: crate::sim::Progress| progress.set(p.done as u64);
-                let v = assess::verify(&scenario, &sim_scenario, runs, seed.unwrap_or(scenario.seed), &tick);
+                let v = assess::verify(
+                    &scenario,
+                    &sim_scenario,
+                    runs,
+                    seed.unwrap_or(scenario.seed),
+                    &tick,
+                );
                 progress.finish();
                 let v = v?;
                 simulation_warnings(&v, &mut warnings);
@@ -578,8 +588,10 @@ fn prediction_warnings(scenario: &Scenario, chosen: &Chosen, p: &Prediction) -> 
             );
         }
     }
-    if matches!(scenario.network, Network::Grid { .. } | Network::Torus { .. } | Network::EdgeList { .. })
-        && p.locking.is_some()
+    if matches!(
+        scenario.network,
+        Network::Grid { .. } | Network::Torus { .. } | Network::EdgeList { .. }
+    ) && p.locking.is_some()
     {
         add(
             "lock_test_sufficient_only",

@@ -89,7 +89,9 @@ pub fn error_traces(
         .iter()
         .flat_map(|t| t.error_s.iter().copied())
         .filter(|v| v.is_finite() && *v > 0.0);
-    let (lo, hi) = positive.fold((tolerance_s, tolerance_s), |(lo, hi), v| (lo.min(v), hi.max(v)));
+    let (lo, hi) = positive.fold((tolerance_s, tolerance_s), |(lo, hi), v| {
+        (lo.min(v), hi.max(v))
+    });
     let hi = envelope.map_or(hi, |e| hi.max(e.initial_spread_s));
     let (y_lo, y_hi) = ((lo / 3.0).max(tolerance_s * 1e-4), hi * 2.0);
 
@@ -118,7 +120,12 @@ pub fn error_traces(
         )))
         .map_err(|e| fail(e.to_string()))?
         .label(format!("lock tolerance ({})", seconds(tolerance_s)))
-        .legend(|(x, y)| Rectangle::new([(x, y - 5), (x + 20, y + 5)], RGBColor(44, 160, 44).mix(0.3).filled()));
+        .legend(|(x, y)| {
+            Rectangle::new(
+                [(x, y - 5), (x + 20, y + 5)],
+                RGBColor(44, 160, 44).mix(0.3).filled(),
+            )
+        });
     chart
         .draw_series(LineSeries::new(
             [(budget_s, y_lo), (budget_s, y_hi)],
@@ -234,13 +241,30 @@ pub fn lock_histogram(
         .draw()
         .map_err(|e| fail(e.to_string()))?;
     chart
-        .draw_series(counts.iter().enumerate().filter(|(_, c)| **c > 0).map(|(i, c)| {
-            let x0 = i as f64 * width;
-            Rectangle::new([(x0, 0), (x0 + width * 0.94, *c)], RGBColor(31, 119, 180).filled())
-        }))
+        .draw_series(
+            counts
+                .iter()
+                .enumerate()
+                .filter(|(_, c)| **c > 0)
+                .map(|(i, c)| {
+                    let x0 = i as f64 * width;
+                    Rectangle::new(
+                        [(x0, 0), (x0 + width * 0.94, *c)],
+                        RGBColor(31, 119, 180).filled(),
+                    )
+                }),
+        )
         .map_err(|e| fail(e.to_string()))?
-        .label(format!("simulated runs that locked ({})", lock_times_s.len()))
-        .legend(|(x, y)| Rectangle::new([(x, y - 5), (x + 20, y + 5)], RGBColor(31, 119, 180).filled()));
+        .label(format!(
+            "simulated runs that locked ({})",
+            lock_times_s.len()
+        ))
+        .legend(|(x, y)| {
+            Rectangle::new(
+                [(x, y - 5), (x + 20, y + 5)],
+                RGBColor(31, 119, 180).filled(),
+            )
+        });
     chart
         .draw_series(LineSeries::new(
             [(budget_s, 0), (budget_s, tallest + tallest / 5 + 1)],
@@ -284,7 +308,10 @@ pub fn mode_shape(path: &Path, title: &str, shape: &[f64]) -> Result<(), PlotErr
         .draw()
         .map_err(|e| fail(e.to_string()))?;
     chart
-        .draw_series(LineSeries::new([(-0.5, 0.0), (last + 0.5, 0.0)], BLACK.mix(0.4)))
+        .draw_series(LineSeries::new(
+            [(-0.5, 0.0), (last + 0.5, 0.0)],
+            BLACK.mix(0.4),
+        ))
         .map_err(|e| fail(e.to_string()))?;
     let points: Vec<(f64, f64)> = shape
         .iter()
@@ -292,7 +319,10 @@ pub fn mode_shape(path: &Path, title: &str, shape: &[f64]) -> Result<(), PlotErr
         .map(|(i, v)| (i as f64, *v))
         .collect();
     chart
-        .draw_series(LineSeries::new(points.iter().copied(), BLUE.stroke_width(2)))
+        .draw_series(LineSeries::new(
+            points.iter().copied(),
+            BLUE.stroke_width(2),
+        ))
         .map_err(|e| fail(e.to_string()))?;
     chart
         .draw_series(points.iter().map(|p| Circle::new(*p, 3, BLUE.filled())))

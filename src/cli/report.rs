@@ -130,7 +130,12 @@ pub fn check(r: &CheckResult, command: &str) -> String {
             &updates(i64::from(d) - i64::from(sc.delay_updates())),
             &format!("extra link delay tolerated (stable up to {d} updates)"),
         ),
-        None => row(&mut s, "delay margin", "none", "unstable even without delay"),
+        None => row(
+            &mut s,
+            "delay margin",
+            "none",
+            "unstable even without delay",
+        ),
     }
     if let Some(l) = &p.locking {
         row(
@@ -251,7 +256,12 @@ pub fn check(r: &CheckResult, command: &str) -> String {
                 "larger of worst-case bound and with-loss estimate",
             );
         }
-        row(&mut s, "  slowest-mode estimate", &seconds(se.asymptotic_s), "");
+        row(
+            &mut s,
+            "  slowest-mode estimate",
+            &seconds(se.asymptotic_s),
+            "",
+        );
         if let Some(b) = se.bound_s {
             row(&mut s, "  worst-case bound", &seconds(b), "");
         }
@@ -335,11 +345,7 @@ pub fn check(r: &CheckResult, command: &str) -> String {
                 row(
                     &mut s,
                     "simulated lock time",
-                    &format!(
-                        "p50 {}, p90 {}",
-                        seconds(pc.p50),
-                        seconds(pc.p90)
-                    ),
+                    &format!("p50 {}, p90 {}", seconds(pc.p50), seconds(pc.p90)),
                     &format!("p99 {}, max {}", seconds(pc.p99), seconds(pc.max)),
                 );
             }
@@ -381,10 +387,20 @@ fn alternatives(s: &mut String, t: &crate::plan::Tuning, budget_s: f64) {
         );
     }
     if let Some(m) = a.middle_reference_lock_s {
-        row(s, "with a reference mid-chain", &seconds(m), "fastest lock time");
+        row(
+            s,
+            "with a reference mid-chain",
+            &seconds(m),
+            "fastest lock time",
+        );
     }
     if let Some(h) = a.split_in_two_lock_s {
-        row(s, "with the chain split in two", &seconds(h), "fastest lock time");
+        row(
+            s,
+            "with the chain split in two",
+            &seconds(h),
+            "fastest lock time",
+        );
     }
 }
 
@@ -507,7 +523,9 @@ pub fn tune(r: &TuneResult) -> String {
         }
         _ => {
             let _ = writeln!(s, "VERDICT: FAIL");
-            let why = t.infeasibility.map_or("no gains meet the budget", infeasibility);
+            let why = t
+                .infeasibility
+                .map_or("no gains meet the budget", infeasibility);
             let _ = writeln!(s, "  - {why}");
             if r.written.is_none() {
                 let _ = writeln!(s, "  - no firmware constants written");
@@ -562,7 +580,12 @@ pub fn spectrum(r: &SpectrumResult) -> String {
     header(&mut s, "spectrum", sc);
     heading(&mut s, "Summary");
     row(&mut s, "network", &sc.network.describe(), "");
-    row(&mut s, "source", &r.shape.source.keyword().replace('_', " "), "");
+    row(
+        &mut s,
+        "source",
+        &r.shape.source.keyword().replace('_', " "),
+        "",
+    );
     row(
         &mut s,
         "slowest mode λslow",
@@ -607,7 +630,10 @@ pub fn spectrum(r: &SpectrumResult) -> String {
     for chunk in shown.chunks(6) {
         let _ = writeln!(s, "  {}", chunk.join("  "));
     }
-    heading(&mut s, "Slowest mode along the network (largest magnitude 1)");
+    heading(
+        &mut s,
+        "Slowest mode along the network (largest magnitude 1)",
+    );
     let shape = &r.modes.slow_mode;
     let step = shape.len().div_ceil(48).max(1);
     for (i, v) in shape.iter().enumerate().step_by(step) {

@@ -344,8 +344,10 @@ impl Network {
             Network::EdgeList { path, nodes, edges } => format!(
                 "{nodes} nodes, {} edges from {}",
                 edges.len(),
-                path.file_name()
-                    .map_or_else(|| path.display().to_string(), |n| n.to_string_lossy().into_owned())
+                path.file_name().map_or_else(
+                    || path.display().to_string(),
+                    |n| n.to_string_lossy().into_owned()
+                )
             ),
         }
     }
@@ -556,10 +558,10 @@ fn check(loc: &Locator<'_>, raw: RawScenario) -> Result<Scenario, ScenarioError>
     }
     let name = match &raw.name {
         Some(n) => n.get_ref().clone(),
-        None => loc
-            .file
-            .file_stem()
-            .map_or_else(|| "scenario".to_owned(), |s| s.to_string_lossy().into_owned()),
+        None => loc.file.file_stem().map_or_else(
+            || "scenario".to_owned(),
+            |s| s.to_string_lossy().into_owned(),
+        ),
     };
 
     let network = check_network(loc, &raw.network)?;
@@ -620,7 +622,9 @@ fn check(loc: &Locator<'_>, raw: RawScenario) -> Result<Scenario, ScenarioError>
             return Err(refuse(
                 loc,
                 law.coupling.span(),
-                format!("law.coupling = \"{other}\" is not known: it must be \"sine\" or \"linear\""),
+                format!(
+                    "law.coupling = \"{other}\" is not known: it must be \"sine\" or \"linear\""
+                ),
             ));
         }
     };
@@ -646,7 +650,14 @@ fn check(loc: &Locator<'_>, raw: RawScenario) -> Result<Scenario, ScenarioError>
         None => 200.0,
     };
     let neighbour_timeout_updates = match &law.neighbour_timeout_updates {
-        Some(v) => int_in(loc, v, "law.neighbour_timeout_updates", 1, 1_000, " updates")?,
+        Some(v) => int_in(
+            loc,
+            v,
+            "law.neighbour_timeout_updates",
+            1,
+            1_000,
+            " updates",
+        )?,
         None => 5,
     };
     if update_ticks * neighbour_timeout_updates as f64 > f64::from(i32::MAX as u32) {
@@ -829,7 +840,9 @@ fn check_gains(loc: &Locator<'_>, law: &RawLaw) -> Result<Gains, ScenarioError> 
                 return Err(refuse(
                     loc,
                     law.kp.span(),
-                    format!("law.kp = {kp} is out of range: it must be above 0 and below 2, or \"tune\""),
+                    format!(
+                        "law.kp = {kp} is out of range: it must be above 0 and below 2, or \"tune\""
+                    ),
                 ));
             }
             let ki = match ki {
@@ -877,7 +890,9 @@ fn count_key(
                 Err(refuse(
                     loc,
                     v.span(),
-                    format!("network.{key} = {n} is out of range: a {kind} needs from {min} to {max}"),
+                    format!(
+                        "network.{key} = {n} is out of range: a {kind} needs from {min} to {max}"
+                    ),
                 ))
             }
         }
@@ -928,17 +943,29 @@ fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Network, Scen
             return Err(refuse(
                 loc,
                 net.span(),
-                format!("network.rows × network.cols = {total} nodes is out of range: a {kind} needs from 2 to {MAX_NODES}"),
+                format!(
+                    "network.rows × network.cols = {total} nodes is out of range: a {kind} needs from 2 to {MAX_NODES}"
+                ),
             ));
         }
         Ok((rows, cols))
     };
     Ok(match topology {
-        "chain" => Network::Chain { nodes: linear("chain", 2, max)? },
-        "ring" => Network::Ring { nodes: linear("ring", 3, max)? },
-        "star" => Network::Star { nodes: linear("star", 2, dense)? },
-        "complete" => Network::Complete { nodes: linear("complete graph", 2, dense)? },
-        "pinned_chain" => Network::PinnedChain { nodes: linear("pinned chain", 1, max)? },
+        "chain" => Network::Chain {
+            nodes: linear("chain", 2, max)?,
+        },
+        "ring" => Network::Ring {
+            nodes: linear("ring", 3, max)?,
+        },
+        "star" => Network::Star {
+            nodes: linear("star", 2, dense)?,
+        },
+        "complete" => Network::Complete {
+            nodes: linear("complete graph", 2, dense)?,
+        },
+        "pinned_chain" => Network::PinnedChain {
+            nodes: linear("pinned chain", 1, max)?,
+        },
         "grid" => {
             let (rows, cols) = mesh("grid", 1)?;
             Network::Grid { rows, cols }
@@ -959,7 +986,15 @@ fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Network, Scen
                 ));
             };
             let nodes = match &n.nodes {
-                Some(v) => Some(count_key(loc, net, "nodes", Some(v), 2, max, "edge-list graph")?),
+                Some(v) => Some(count_key(
+                    loc,
+                    net,
+                    "nodes",
+                    Some(v),
+                    2,
+                    max,
+                    "edge-list graph",
+                )?),
                 None => None,
             };
             let base = loc.file.parent().unwrap_or_else(|| Path::new(""));
@@ -968,11 +1003,18 @@ fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Network, Scen
                 if e.line.is_none() {
                     // Point at the key when the file itself is the problem.
                     let at = loc.at(Some(file.span()), String::new());
-                    e = ScenarioError { message: format!("network.edge_list_file: {}", e.message), ..at };
+                    e = ScenarioError {
+                        message: format!("network.edge_list_file: {}", e.message),
+                        ..at
+                    };
                 }
                 e
             })?;
-            Network::EdgeList { path, nodes: count, edges }
+            Network::EdgeList {
+                path,
+                nodes: count,
+                edges,
+            }
         }
         other => {
             return Err(refuse(
@@ -1018,7 +1060,10 @@ pub fn read_edge_list(
         let body = raw_line.split('#').next().unwrap_or("");
         let mut fields = Vec::new();
         let mut start = None;
-        for (at, ch) in body.char_indices().chain(std::iter::once((body.len(), ' '))) {
+        for (at, ch) in body
+            .char_indices()
+            .chain(std::iter::once((body.len(), ' ')))
+        {
             let sep = ch.is_whitespace() || ch == ',';
             match (start, sep) {
                 (None, false) => start = Some(at),
@@ -1050,7 +1095,9 @@ pub fn read_edge_list(
                 here(
                     line_no,
                     column_of(*at),
-                    format!("\"{field}\" is not a node number: node numbers are whole numbers from 0"),
+                    format!(
+                        "\"{field}\" is not a node number: node numbers are whole numbers from 0"
+                    ),
                 )
             })?;
             let limit = nodes.unwrap_or(MAX_NODES);
@@ -1058,13 +1105,21 @@ pub fn read_edge_list(
                 return Err(here(
                     line_no,
                     column_of(*at),
-                    format!("node {} is out of range: node numbers must be from 0 to {}", *slot, limit - 1),
+                    format!(
+                        "node {} is out of range: node numbers must be from 0 to {}",
+                        *slot,
+                        limit - 1
+                    ),
                 ));
             }
         }
         let [a, b] = ends;
         if a == b {
-            return Err(here(line_no, 1, format!("edge {a} {b} joins a node to itself")));
+            return Err(here(
+                line_no,
+                1,
+                format!("edge {a} {b} joins a node to itself"),
+            ));
         }
         if !seen.insert((a.min(b), a.max(b))) {
             return Err(here(line_no, 1, format!("edge {a} {b} is listed twice")));
@@ -1166,8 +1221,12 @@ budget_s = 30
 
     #[test]
     fn tune_words() {
-        let s = parse(&GOOD.replace("kp = 0.4", "kp = \"tune\"").replace("ki = 0.05", "ki = \"tune\""))
-            .unwrap();
+        let s = parse(
+            &GOOD
+                .replace("kp = 0.4", "kp = \"tune\"")
+                .replace("ki = 0.05", "ki = \"tune\""),
+        )
+        .unwrap();
         assert_eq!(s.gains, Gains::Tune { pi: true });
         let e = parse(&GOOD.replace("kp = 0.4", "kp = \"fast\"")).unwrap_err();
         assert!(e.message.contains("\"tune\""), "{}", e.message);

@@ -14,6 +14,8 @@
 
 #[cfg(feature = "beacon")]
 pub mod beacon;
+#[cfg(feature = "cli")]
+pub mod cli;
 mod config;
 mod gain;
 #[cfg(feature = "check")]

@@ -1,0 +1,329 @@
+//! `--json` output: one JSON object per command, schema [`SCHEMA_VERSION`].
+//!
+//! The schema is documented in the README (section "JSON, schema version 1"). Within one schema version fields are only
+//! ever added, never renamed or removed; a reader should ignore fields it does not know
+//! and refuse a `schema_version` greater than the one it was written for. Non-finite
+//! numbers (an unlimited margin, say) are written as `null`. Times are seconds, phase
+//! errors seconds of phase unless the key ends in `_turns`.
+
+use super::assess::Prediction;
+use super::report::{CAUTION, PHASE_ERROR_NOTE, infeasibility_code};
+use super::scenario::{Gains, Network, Scenario};
+use super::{CheckResult, SpectrumResult, TuneResult, Warning};
+use crate::plan::{GainChoice, Tuning};
+use serde_json::{Map, Value, json};
+use std::path::PathBuf;
+
+/// Version of the JSON schema this build writes.
+pub const SCHEMA_VERSION: u32 = 1;
+
+fn num(x: f64) -> Value {
+    if x.is_finite() { json!(x) } else { Value::Null }
+}
+
+fn opt(x: Option<f64>) -> Value {
+    x.map_or(Value::Null, num)
+}
+
+fn pretty(v: &Value) -> String {
+    let mut s = serde_json::to_string_pretty(v).unwrap_or_else(|_| "{}".to_owned());
+    s.push('\n');
+    s
+}
+
+fn envelope(command: &str, scenario: &Scenario) -> Map<String, Value> {
+    let mut m = Map::new();
+    m.insert("schema_version".into(), json!(SCHEMA_VERSION));
+    m.insert("command".into(), json!(command));
+    m.insert("scenario".into(), scenario_json(scenario));
+    m
+}
+
+fn scenario_json(s: &Scenario) -> Value {
+    let (rows, cols) = match s.network {
+        Network::Grid { rows, cols } | Network::Torus { rows, cols } => (json!(rows), json!(cols)),
+        _ => (Value::Null, Value::Null),
+    };
+    let (gains_mode, kp, ki) = match s.gains {
+        Gains::Fixed { kp, ki } => ("fixed", num(kp), num(ki)),
+        Gains::Tune { pi: true } => ("tune_pi", Value::Null, Value::Null),
+        Gains::Tune { pi: false } => ("tune_p", Value::Null, Value::Null),
+    };
+    json!({
+        "file": s.path.display().to_string(),
+        "name": s.name,
+        "version": super::scenario::SCENARIO_VERSION,
+        "topology": s.network.keyword(),
+        "nodes": s.network.node_count(),
+        "rows": rows,
+        "cols": cols,
+        "update_rate_hz": num(s.update_rate_hz),
+        "phase_period_s": num(s.phase_period_s),
+        "timer_hz": s.timer_hz,
+        "coupling": s.coupling.keyword(),
+        "gains": gains_mode,
+        "kp": kp,
+        "ki": ki,
+        "slew_limit_turns": num(s.slew_limit_turns),
+        "trim_limit_ppm": num(s.trim_limit_ppm),
+        "neighbour_timeout_updates": s.neighbour_timeout_updates,
+        "crystal_tolerance_ppm": num(s.crystal_tolerance_ppm),
+        "timestamp_jitter_s": num(s.timestamp_jitter_s),
+        "latency_s": num(s.latency_s),
+        "delay_updates": s.delay_updates(),
+        "loss_fraction": num(s.loss_fraction),
+        "initial_spread_s": num(s.initial_spread_s),
+        "lock_tolerance_s": num(s.lock_tolerance_s),
+        "lock_budget_s": num(s.lock_budget_s),
+        "runs": s.runs,
+        "seed": s.seed,
+        "duration_s": num(s.duration_s),
+    })
+}
+
+fn spectrum_json(r: &super::assess::Shape) -> Value {
+    let sp = &r.spectrum;
+    json!({
+        "source": r.source.keyword(),
+        "node_count": sp.node_count,
+        "lambda_slow": num(sp.lambda_slow),
+        "lambda_max": num(sp.lambda_max),
+        "max_degree": num(sp.max_degree),
+        "pinned": sp.pinned,
+        "stable_twisted_states": sp.stable_twisted_states,
+        "flow_factor": opt(r.flow_factor),
+    })
+}
+
+fn prediction_json(p: &Prediction) -> Value {
+    let st = &p.stability;
+    let settling = p.settling.map_or(Value::Null, |s| {
+        json!({
+            "asymptotic_s": num(s.asymptotic_s),
+            "asymptotic_updates": s.asymptotic_updates,
+            "bound_s": opt(s.bound_s),
+            "bound_updates": s.bound_updates,
+            "with_loss_s": num(s.with_loss_s),
+            "sine_s": opt(s.sine_s),
+            "sine_rate_factor": opt(s.sine_rate_factor),
+            "slew_floor_updates": s.slew_floor_updates,
+        })
+    });
+    let locking = p.locking.map_or(Value::Null, |l| {
+        json!({
+            "locks": l.locks,
+            "lock_margin": num(l.lock_margin),
+            "edge_flow_turns_per_update": num(l.edge_flow_turns_per_update),
+            "edge_capacity_turns_per_update": num(l.edge_capacity_turns_per_update),
+            "max_offset_s": num(l.max_offset_s),
+            "max_correction_turns_per_update": num(l.max_correction_turns_per_update),
+            "slew_ok": l.slew_ok,
+            "trim_min_ppm": num(l.trim_min_ppm),
+            "trim_max_ppm": num(l.trim_max_ppm),
+            "trim_ok": l.trim_ok,
+        })
+    });
+    let noise = p.noise.map_or(Value::Null, |n| {
+        json!({
+            "phase_sd_s": num(n.phase_sd_s),
+            "measurement_sd_turns": num(n.measurement_sd_turns),
+        })
+    });
+    let c = &p.constants;
+    json!({
+        "gains": {
+            "kp": num(p.kp),
+            "ki": num(p.ki),
+            "kp_q16": c.kp_q16,
+            "ki_q16": c.ki_q16,
+        },
+        "node_constants": constants_json(p),
+        "stability": {
+            "stable": st.stable,
+            "radius": num(st.radius),
+            "radius_slow": num(st.radius_slow),
+            "radius_fast": num(st.radius_fast),
+            "mean_radius_with_loss": num(st.mean_radius_with_loss),
+            "loss_slowdown": num(st.loss_slowdown),
+            "gain_margin": num(st.gain_margin),
+            "kp_limit": num(st.kp_limit),
+            "delay_limit_updates": st.delay_limit_updates,
+        },
+        "settling": settling,
+        "locking": locking,
+        "noise": noise,
+        "lock_s": opt(p.lock_s),
+    })
+}
+
+fn constants_json(p: &Prediction) -> Value {
+    let c = &p.constants;
+    json!({
+        "ticks_per_period": c.ticks_per_period,
+        "update_ticks": c.update_ticks,
+        "kp_q16": c.kp_q16,
+        "ki_q16": c.ki_q16,
+        "slew_limit_counts": c.slew_limit_counts,
+        "trim_limit_ppb": c.trim_limit_ppb,
+        "timeout_ticks": c.timeout_ticks,
+        "law": match c.law { crate::Law::Linear => "linear", _ => "sine" },
+    })
+}
+
+fn warnings_json(list: &[Warning]) -> Value {
+    Value::Array(
+        list.iter()
+            .map(|w| json!({ "code": w.code, "message": w.message }))
+            .collect(),
+    )
+}
+
+fn choice_json(c: &Option<GainChoice>) -> Value {
+    c.as_ref().map_or(Value::Null, |c| {
+        json!({
+            "kp": num(c.kp),
+            "ki": num(c.ki),
+            "lock_s": num(c.lock_s),
+            "gain_margin": num(c.gain_margin),
+            "delay_margin_updates": c.delay_margin_updates,
+            "locks": c.locking.map(|l| l.locks),
+        })
+    })
+}
+
+fn tuning_json(t: &Tuning) -> Value {
+    let range = |r: Option<(f64, f64)>| r.map_or(Value::Null, |(a, b)| json!([num(a), num(b)]));
+    json!({
+        "feasible": t.feasible,
+        "infeasibility": t.infeasibility.map(infeasibility_code),
+        "kp_range": range(t.kp_range),
+        "ki_range": range(t.ki_range),
+        "recommended": choice_json(&t.recommended),
+        "fastest": choice_json(&t.fastest),
+        "alternatives": {
+            "update_rate_factor": num(t.alternatives.update_rate_factor),
+            "middle_reference_lock_s": opt(t.alternatives.middle_reference_lock_s),
+            "split_in_two_lock_s": opt(t.alternatives.split_in_two_lock_s),
+        },
+    })
+}
+
+fn check_map(r: &CheckResult, command: &str) -> Map<String, Value> {
+    let mut m = envelope(command, &r.scenario);
+    let budget = r.scenario.lock_budget_s;
+    m.insert(
+        "verdict".into(),
+        json!({
+            "pass": r.verdict.pass,
+            "reasons": r.verdict.reasons.iter().map(|x| json!({
+                "code": x.code(),
+                "message": x.message(budget),
+            })).collect::<Vec<_>>(),
+        }),
+    );
+    m.insert("spectrum".into(), spectrum_json(&r.shape));
+    m.insert(
+        "gains_source".into(),
+        json!(if r.chosen.tuning.is_some() {
+            "tuned"
+        } else {
+            "scenario"
+        }),
+    );
+    m.insert(
+        "tuning".into(),
+        r.chosen.tuning.as_ref().map_or(Value::Null, tuning_json),
+    );
+    m.insert("prediction".into(), prediction_json(&r.prediction));
+    let sim = r.verification.as_ref().map_or(Value::Null, |v| {
+        let s = &v.summary;
+        let pct = |p: Option<crate::sim::Percentiles>| {
+            p.map_or(Value::Null, |p| {
+                json!({ "p50": num(p.p50), "p90": num(p.p90), "p99": num(p.p99), "max": num(p.max) })
+            })
+        };
+        json!({
+            "runs": s.runs,
+            "seed": v.seed,
+            "locked_runs": s.locked_runs,
+            "never_locked_fraction": num(s.never_locked_fraction),
+            "twisted_fraction": opt(s.twisted_fraction),
+            "lock_s": pct(s.lock_s),
+            "lock_updates": pct(s.lock_updates),
+            "lock_times_s": v.lock_times_s.iter().map(|t| num(*t)).collect::<Vec<_>>(),
+            "residual_turns": opt(s.residual_turns),
+            "residual_link_turns": opt(s.residual_link_turns),
+            "jitter_turns": opt(s.jitter_turns),
+        })
+    });
+    m.insert("simulation".into(), sim);
+    m.insert("warnings".into(), warnings_json(&r.warnings));
+    m.insert("phase_error".into(), json!(PHASE_ERROR_NOTE));
+    m.insert("caution".into(), json!(CAUTION));
+    m
+}
+
+/// JSON of `check`.
+#[must_use]
+pub fn check(r: &CheckResult, command: &str) -> String {
+    pretty(&Value::Object(check_map(r, command)))
+}
+
+/// JSON of `simulate`: the check object plus the plots written.
+#[must_use]
+pub fn simulate(r: &CheckResult, plots: &[PathBuf]) -> String {
+    let mut m = check_map(r, "simulate");
+    m.insert(
+        "plots".into(),
+        Value::Array(
+            plots
+                .iter()
+                .map(|p| json!(p.display().to_string()))
+                .collect(),
+        ),
+    );
+    pretty(&Value::Object(m))
+}
+
+/// JSON of `tune`.
+#[must_use]
+pub fn tune(r: &TuneResult) -> String {
+    let mut m = envelope("tune", &r.scenario);
+    m.insert(
+        "verdict".into(),
+        json!({ "pass": r.tuning.feasible, "reasons": match r.tuning.infeasibility {
+            Some(i) => vec![json!({ "code": infeasibility_code(i), "message": super::report::infeasibility(i) })],
+            None => vec![],
+        }}),
+    );
+    m.insert("spectrum".into(), spectrum_json(&r.shape));
+    m.insert("tuning".into(), tuning_json(&r.tuning));
+    m.insert(
+        "prediction".into(),
+        r.prediction.as_ref().map_or(Value::Null, prediction_json),
+    );
+    m.insert(
+        "firmware_constants_file".into(),
+        r.written
+            .as_ref()
+            .map_or(Value::Null, |p| json!(p.display().to_string())),
+    );
+    m.insert("caution".into(), json!(CAUTION));
+    pretty(&Value::Object(m))
+}
+
+/// JSON of `spectrum`.
+#[must_use]
+pub fn spectrum(r: &SpectrumResult) -> String {
+    let mut m = envelope("spectrum", &r.scenario);
+    m.insert("spectrum".into(), spectrum_json(&r.shape));
+    m.insert(
+        "eigenvalues".into(),
+        Value::Array(r.modes.eigenvalues.iter().map(|v| num(*v)).collect()),
+    );
+    m.insert(
+        "slow_mode".into(),
+        Value::Array(r.modes.slow_mode.iter().map(|v| num(*v)).collect()),
+    );
+    pretty(&Value::Object(m))
+}

@@ -1,0 +1,1240 @@
+//! The scenario file: a TOML description of one deployment, read and checked in one place.
+//!
+//! The file is parsed into a raw form that mirrors the TOML exactly (every key spanned,
+//! unknown keys refused), then [`Scenario::from_toml`] checks every value against its
+//! range and returns a [`Scenario`] in plain SI units. Every refusal is a
+//! [`ScenarioError`] naming the file, line and column, what is wrong and the valid range.
+//!
+//! Versioning: the file's `version` key must be [`SCENARIO_VERSION`]. A reader of this
+//! version refuses a newer file outright (with a message saying which version it reads)
+//! rather than guessing at keys it does not know.
+
+use serde::Deserialize;
+use serde::de::{self, Deserializer, Visitor};
+use std::fmt;
+use std::ops::Range;
+use std::path::{Path, PathBuf};
+use toml::Spanned;
+
+/// The scenario-file version this build reads.
+pub const SCENARIO_VERSION: i64 = 1;
+
+/// Largest node count accepted for any topology (keeps the simulator's work bounded).
+pub const MAX_NODES: usize = 10_000;
+
+/// Largest node count of a star or complete graph: a node's neighbour table holds at most
+/// 255 neighbours.
+pub const MAX_DENSE_NODES: usize = 256;
+
+/// Largest neighbour-table size of a node (the node law's own limit).
+pub const MAX_NEIGHBOURS: usize = 255;
+
+/// Largest number of Monte-Carlo runs.
+pub const MAX_RUNS: u32 = 10_000;
+
+/// Largest simulated duration in updates (`duration_s × update_rate_hz`).
+pub const MAX_SIM_UPDATES: f64 = 1.0e6;
+
+/// Longest link latency, in whole update intervals, the planner handles.
+pub const MAX_LATENCY_UPDATES: f64 = 30.0;
+
+/// A scenario that could not be read: where and why.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct ScenarioError {
+    /// The file the problem is in.
+    pub file: PathBuf,
+    /// 1-based line, when the problem has a place in the file.
+    pub line: Option<usize>,
+    /// 1-based column (in characters), when the problem has a place in the file.
+    pub column: Option<usize>,
+    /// What is wrong and what is valid.
+    pub message: String,
+}
+
+impl fmt::Display for ScenarioError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(f, "{}", self.file.display())?;
+        if let (Some(line), Some(column)) = (self.line, self.column) {
+            write!(f, ":{line}:{column}")?;
+        }
+        write!(f, ": {}", self.message)
+    }
+}
+
+impl std::error::Error for ScenarioError {}
+
+/// 1-based line and column (in characters) of byte `offset` in `text`.
+#[must_use]
+pub fn line_column(text: &str, offset: usize) -> (usize, usize) {
+    let mut line = 1;
+    let mut column = 1;
+    for (at, ch) in text.char_indices() {
+        if at >= offset {
+            break;
+        }
+        if ch == '\n' {
+            line += 1;
+            column = 1;
+        } else {
+            column += 1;
+        }
+    }
+    (line, column)
+}
+
+/// Builds errors that point into one file's text.
+struct Locator<'a> {
+    file: &'a Path,
+    text: &'a str,
+}
+
+impl Locator<'_> {
+    fn at(&self, span: Option<Range<usize>>, message: impl Into<String>) -> ScenarioError {
+        let (line, column) = match span {
+            Some(span) => {
+                let (l, c) = line_column(self.text, span.start);
+                (Some(l), Some(c))
+            }
+            None => (None, None),
+        };
+        ScenarioError {
+            file: self.file.to_path_buf(),
+            line,
+            column,
+            message: message.into(),
+        }
+    }
+}
+
+/// A gain as written: a number, or the word `"tune"`.
+#[derive(Clone, Copy, Debug, PartialEq)]
+enum RawGain {
+    Value(f64),
+    Tune,
+}
+
+impl<'de> Deserialize<'de> for RawGain {
+    fn deserialize<D: Deserializer<'de>>(deserializer: D) -> Result<Self, D::Error> {
+        struct GainVisitor;
+        impl Visitor<'_> for GainVisitor {
+            type Value = RawGain;
+            fn expecting(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+                f.write_str("a gain (a number) or the string \"tune\"")
+            }
+            fn visit_f64<E: de::Error>(self, v: f64) -> Result<RawGain, E> {
+                Ok(RawGain::Value(v))
+            }
+            fn visit_i64<E: de::Error>(self, v: i64) -> Result<RawGain, E> {
+                Ok(RawGain::Value(v as f64))
+            }
+            fn visit_u64<E: de::Error>(self, v: u64) -> Result<RawGain, E> {
+                Ok(RawGain::Value(v as f64))
+            }
+            fn visit_str<E: de::Error>(self, v: &str) -> Result<RawGain, E> {
+                if v == "tune" {
+                    Ok(RawGain::Tune)
+                } else {
+                    Err(E::invalid_value(de::Unexpected::Str(v), &self))
+                }
+            }
+        }
+        deserializer.deserialize_any(GainVisitor)
+    }
+}
+
+/// A real number as written; TOML integers are accepted where a real is expected.
+#[derive(Clone, Copy, Debug, PartialEq)]
+struct Real(f64);
+
+impl<'de> Deserialize<'de> for Real {
+    fn deserialize<D: Deserializer<'de>>(deserializer: D) -> Result<Self, D::Error> {
+        struct RealVisitor;
+        impl Visitor<'_> for RealVisitor {
+            type Value = Real;
+            fn expecting(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+                f.write_str("a number")
+            }
+            fn visit_f64<E: de::Error>(self, v: f64) -> Result<Real, E> {
+                Ok(Real(v))
+            }
+            fn visit_i64<E: de::Error>(self, v: i64) -> Result<Real, E> {
+                Ok(Real(v as f64))
+            }
+            fn visit_u64<E: de::Error>(self, v: u64) -> Result<Real, E> {
+                Ok(Real(v as f64))
+            }
+        }
+        deserializer.deserialize_any(RealVisitor)
+    }
+}
+
+type S<T> = Spanned<T>;
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawScenario {
+    version: S<i64>,
+    name: Option<S<String>>,
+    network: S<RawNetwork>,
+    timing: S<RawTiming>,
+    law: S<RawLaw>,
+    clock: Option<S<RawClock>>,
+    link: Option<S<RawLink>>,
+    lock: S<RawLock>,
+    monte_carlo: Option<S<RawMonteCarlo>>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawNetwork {
+    topology: S<String>,
+    nodes: Option<S<i64>>,
+    rows: Option<S<i64>>,
+    cols: Option<S<i64>>,
+    edge_list_file: Option<S<String>>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawTiming {
+    update_rate_hz: S<Real>,
+    phase_period_s: S<Real>,
+    timer_hz: Option<S<i64>>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawLaw {
+    coupling: S<String>,
+    kp: S<RawGain>,
+    ki: Option<S<RawGain>>,
+    slew_limit_turns: Option<S<Real>>,
+    trim_limit_ppm: Option<S<Real>>,
+    neighbour_timeout_updates: Option<S<i64>>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawClock {
+    crystal_tolerance_ppm: Option<S<Real>>,
+    timestamp_jitter_s: Option<S<Real>>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawLink {
+    latency_s: Option<S<Real>>,
+    loss_fraction: Option<S<Real>>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawLock {
+    initial_spread_s: S<Real>,
+    tolerance_s: S<Real>,
+    budget_s: S<Real>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawMonteCarlo {
+    runs: Option<S<i64>>,
+    seed: Option<S<i64>>,
+    duration_s: Option<S<Real>>,
+}
+
+/// The coupling graph a scenario describes.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub enum Network {
+    /// Open chain of `nodes` (node `i` hears `i − 1` and `i + 1`).
+    Chain {
+        /// Number of nodes.
+        nodes: usize,
+    },
+    /// Closed ring of `nodes`.
+    Ring {
+        /// Number of nodes.
+        nodes: usize,
+    },
+    /// One hub (node 0) heard by and hearing every other node.
+    Star {
+        /// Number of nodes including the hub.
+        nodes: usize,
+    },
+    /// Every node hears every other.
+    Complete {
+        /// Number of nodes.
+        nodes: usize,
+    },
+    /// `rows × cols` mesh, each node hearing its four compass neighbours.
+    Grid {
+        /// Rows.
+        rows: usize,
+        /// Columns.
+        cols: usize,
+    },
+    /// `rows × cols` mesh with wrap-around edges.
+    Torus {
+        /// Rows.
+        rows: usize,
+        /// Columns.
+        cols: usize,
+    },
+    /// Chain whose node 0 also hears a reference clock that never moves.
+    PinnedChain {
+        /// Number of nodes, not counting the reference.
+        nodes: usize,
+    },
+    /// An arbitrary undirected graph read from an edge-list file.
+    EdgeList {
+        /// The edge-list file (resolved against the scenario's folder).
+        path: PathBuf,
+        /// Number of nodes (`0..nodes`).
+        nodes: usize,
+        /// Undirected edges `(a, b)`, `a ≠ b`, each listed once.
+        edges: Vec<(usize, usize)>,
+    },
+}
+
+impl Network {
+    /// Number of nodes that adjust their phase.
+    #[must_use]
+    pub fn node_count(&self) -> usize {
+        match *self {
+            Network::Chain { nodes }
+            | Network::Ring { nodes }
+            | Network::Star { nodes }
+            | Network::Complete { nodes }
+            | Network::PinnedChain { nodes }
+            | Network::EdgeList { nodes, .. } => nodes,
+            Network::Grid { rows, cols } | Network::Torus { rows, cols } => {
+                rows.saturating_mul(cols)
+            }
+        }
+    }
+
+    /// The topology's keyword in the scenario file.
+    #[must_use]
+    pub fn keyword(&self) -> &'static str {
+        match self {
+            Network::Chain { .. } => "chain",
+            Network::Ring { .. } => "ring",
+            Network::Star { .. } => "star",
+            Network::Complete { .. } => "complete",
+            Network::Grid { .. } => "grid",
+            Network::Torus { .. } => "torus",
+            Network::PinnedChain { .. } => "pinned_chain",
+            Network::EdgeList { .. } => "edge_list",
+        }
+    }
+
+    /// A short description, e.g. `chain of 24 nodes` or `grid 10 × 10`.
+    #[must_use]
+    pub fn describe(&self) -> String {
+        match self {
+            Network::Chain { nodes } => format!("chain of {nodes} nodes"),
+            Network::Ring { nodes } => format!("ring of {nodes} nodes"),
+            Network::Star { nodes } => format!("star of {nodes} nodes (hub is node 0)"),
+            Network::Complete { nodes } => format!("complete graph of {nodes} nodes"),
+            Network::Grid { rows, cols } => format!("grid {rows} × {cols}"),
+            Network::Torus { rows, cols } => format!("torus {rows} × {cols}"),
+            Network::PinnedChain { nodes } => {
+                format!("chain of {nodes} nodes pinned to a reference at node 0")
+            }
+            Network::EdgeList { path, nodes, edges } => format!(
+                "{nodes} nodes, {} edges from {}",
+                edges.len(),
+                path.file_name().map_or_else(
+                    || path.display().to_string(),
+                    |n| n.to_string_lossy().into_owned()
+                )
+            ),
+        }
+    }
+}
+
+/// The coupling function a scenario asks for.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Coupling {
+    /// Sine (Kuramoto-type) coupling, integer path.
+    Sine,
+    /// Linear consensus on the wrapped difference.
+    Linear,
+}
+
+impl Coupling {
+    /// The keyword in the scenario file.
+    #[must_use]
+    pub fn keyword(self) -> &'static str {
+        match self {
+            Coupling::Sine => "sine",
+            Coupling::Linear => "linear",
+        }
+    }
+}
+
+/// Gains as the scenario gives them.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum Gains {
+    /// Fixed per-update gains, `0 < kp < 2`, `0 ≤ ki < kp` (`ki = 0`: P-only law).
+    Fixed {
+        /// Proportional gain per update.
+        kp: f64,
+        /// Integral (rate-trim) gain per update.
+        ki: f64,
+    },
+    /// Let the tuner choose; `pi` asks for the PI law (rate trim on).
+    Tune {
+        /// Tune `ki` too (PI law) rather than `ki = 0` (P-only law).
+        pi: bool,
+    },
+}
+
+/// A checked scenario, every quantity in SI units (seconds, hertz, ppm, turns).
+#[derive(Clone, Debug, PartialEq)]
+pub struct Scenario {
+    /// The file it was read from.
+    pub path: PathBuf,
+    /// Free-text name (the file stem when not given).
+    pub name: String,
+    /// The coupling graph.
+    pub network: Network,
+    /// Updates per second of every node.
+    pub update_rate_hz: f64,
+    /// Duration of one phase turn, seconds.
+    pub phase_period_s: f64,
+    /// Node timer frequency, ticks per second.
+    pub timer_hz: u32,
+    /// Timer ticks per phase turn (`timer_hz × phase_period_s`, rounded).
+    pub ticks_per_period: u32,
+    /// Timer ticks per update (`timer_hz / update_rate_hz`, rounded).
+    pub update_ticks: u32,
+    /// Coupling function.
+    pub coupling: Coupling,
+    /// Gains, fixed or to be tuned.
+    pub gains: Gains,
+    /// Largest phase step per update, turns.
+    pub slew_limit_turns: f64,
+    /// Largest rate trim either way, ppm.
+    pub trim_limit_ppm: f64,
+    /// Silence, in update intervals, after which a neighbour is dropped.
+    pub neighbour_timeout_updates: u32,
+    /// Crystal tolerance, ± ppm.
+    pub crystal_tolerance_ppm: f64,
+    /// Standard deviation of one timestamp, seconds.
+    pub timestamp_jitter_s: f64,
+    /// Link latency from send to receive, seconds.
+    pub latency_s: f64,
+    /// Fraction of beacons lost, `0 ≤ loss < 1`.
+    pub loss_fraction: f64,
+    /// Largest pairwise phase difference at power-up, seconds.
+    pub initial_spread_s: f64,
+    /// Largest pairwise phase difference counted as locked, seconds.
+    pub lock_tolerance_s: f64,
+    /// Longest acceptable time from power-up to lock, seconds.
+    pub lock_budget_s: f64,
+    /// Monte-Carlo runs.
+    pub runs: u32,
+    /// Seed of the first run (run `i` uses `seed + i`).
+    pub seed: u64,
+    /// Simulated time per run, seconds.
+    pub duration_s: f64,
+}
+
+impl Scenario {
+    /// Read and check the scenario file at `path`.
+    ///
+    /// # Errors
+    /// A [`ScenarioError`] when the file cannot be read, is not valid TOML, has an unknown
+    /// or missing key, a value of the wrong type or out of range, or names an edge list
+    /// that cannot be read.
+    pub fn load(path: &Path) -> Result<Scenario, ScenarioError> {
+        let text = std::fs::read_to_string(path).map_err(|e| ScenarioError {
+            file: path.to_path_buf(),
+            line: None,
+            column: None,
+            message: format!("cannot read the scenario file: {e}"),
+        })?;
+        Scenario::from_toml(path, &text)
+    }
+
+    /// Check scenario `text`, read from `path` (used in messages and to resolve the edge
+    /// list file).
+    ///
+    /// # Errors
+    /// As [`Scenario::load`].
+    pub fn from_toml(path: &Path, text: &str) -> Result<Scenario, ScenarioError> {
+        let loc = Locator { file: path, text };
+        let raw: RawScenario = toml::from_str(text).map_err(|e| {
+            let message = e.message().trim_end().replace('\n', " ");
+            loc.at(e.span(), tidy_parse_message(&message))
+        })?;
+        check(&loc, raw)
+    }
+
+    /// Time between updates, seconds.
+    #[must_use]
+    pub fn update_period_s(&self) -> f64 {
+        1.0 / self.update_rate_hz
+    }
+
+    /// The link latency in whole update intervals (the age of a neighbour's value when it
+    /// is used, beyond the update it was sent in).
+    #[must_use]
+    pub fn delay_updates(&self) -> u32 {
+        // Bounded by MAX_LATENCY_UPDATES at validation.
+        (self.latency_s * self.update_rate_hz).floor() as u32
+    }
+}
+
+/// Make serde's wording a little plainer for people who write TOML, not Rust.
+fn tidy_parse_message(message: &str) -> String {
+    message
+        .replace("invalid type: floating point", "wrong type: a number")
+        .replace("invalid type: integer", "wrong type: an integer")
+        .replace("invalid type: string", "wrong type: a string")
+        .replace("invalid type: boolean", "wrong type: a boolean")
+        .replace("invalid type: sequence", "wrong type: an array")
+        .replace("invalid type: map", "wrong type: a table")
+        .replace("i64", "an integer")
+}
+
+/// Range checks with messages that name the key and the valid range.
+fn real_in(
+    loc: &Locator<'_>,
+    value: &S<Real>,
+    key: &str,
+    ok: impl Fn(f64) -> bool,
+    range: &str,
+) -> Result<f64, ScenarioError> {
+    let v = value.get_ref().0;
+    if v.is_finite() && ok(v) {
+        Ok(v)
+    } else {
+        Err(loc.at(
+            Some(value.span()),
+            format!("{key} = {v} is out of range: it must be {range}"),
+        ))
+    }
+}
+
+fn int_in(
+    loc: &Locator<'_>,
+    value: &S<i64>,
+    key: &str,
+    min: i64,
+    max: i64,
+    unit: &str,
+) -> Result<i64, ScenarioError> {
+    let v = *value.get_ref();
+    if (min..=max).contains(&v) {
+        Ok(v)
+    } else {
+        Err(loc.at(
+            Some(value.span()),
+            format!("{key} = {v} is out of range: it must be from {min} to {max}{unit}"),
+        ))
+    }
+}
+
+fn missing(loc: &Locator<'_>, table: Range<usize>, key: &str, why: &str) -> ScenarioError {
+    loc.at(Some(table), format!("missing key {key}: {why}"))
+}
+
+fn refuse(loc: &Locator<'_>, span: Range<usize>, message: String) -> ScenarioError {
+    loc.at(Some(span), message)
+}
+
+fn check(loc: &Locator<'_>, raw: RawScenario) -> Result<Scenario, ScenarioError> {
+    let version = *raw.version.get_ref();
+    if version != SCENARIO_VERSION {
+        return Err(refuse(
+            loc,
+            raw.version.span(),
+            format!(
+                "version = {version} is not supported: this build reads scenario version {SCENARIO_VERSION}"
+            ),
+        ));
+    }
+    let name = match &raw.name {
+        Some(n) => n.get_ref().clone(),
+        None => loc.file.file_stem().map_or_else(
+            || "scenario".to_owned(),
+            |s| s.to_string_lossy().into_owned(),
+        ),
+    };
+
+    let network = check_network(loc, &raw.network)?;
+
+    // Timing.
+    let timing = raw.timing.get_ref();
+    let update_rate_hz = real_in(
+        loc,
+        &timing.update_rate_hz,
+        "timing.update_rate_hz",
+        |v| v > 0.0 && v <= 10_000.0,
+        "above 0 and at most 10000 Hz",
+    )?;
+    let phase_period_s = real_in(
+        loc,
+        &timing.phase_period_s,
+        "timing.phase_period_s",
+        |v| v > 0.0 && v <= 3_600.0,
+        "above 0 and at most 3600 s",
+    )?;
+    let timer_hz = match &timing.timer_hz {
+        Some(t) => int_in(loc, t, "timing.timer_hz", 1_000, i64::from(u32::MAX), " Hz")?,
+        None => 1_000_000,
+    };
+    let timer_span = timing
+        .timer_hz
+        .as_ref()
+        .map_or_else(|| raw.timing.span(), Spanned::span);
+    let ticks_per_period = (timer_hz as f64 * phase_period_s).round();
+    if !(2.0..=f64::from(u32::MAX)).contains(&ticks_per_period) {
+        return Err(refuse(
+            loc,
+            timer_span,
+            format!(
+                "timing.timer_hz × timing.phase_period_s = {ticks_per_period} ticks per phase turn is out of range: it must be from 2 to {}",
+                u32::MAX
+            ),
+        ));
+    }
+    let update_ticks = (timer_hz as f64 / update_rate_hz).round();
+    if !(1.0..=f64::from(i32::MAX as u32)).contains(&update_ticks) {
+        return Err(refuse(
+            loc,
+            timer_span,
+            format!(
+                "timing.timer_hz / timing.update_rate_hz = {update_ticks} ticks per update is out of range: it must be from 1 to {}",
+                i32::MAX
+            ),
+        ));
+    }
+
+    // Law.
+    let law = raw.law.get_ref();
+    let coupling = match law.coupling.get_ref().as_str() {
+        "sine" => Coupling::Sine,
+        "linear" => Coupling::Linear,
+        other => {
+            return Err(refuse(
+                loc,
+                law.coupling.span(),
+                format!(
+                    "law.coupling = \"{other}\" is not known: it must be \"sine\" or \"linear\""
+                ),
+            ));
+        }
+    };
+    let gains = check_gains(loc, law)?;
+    let slew_limit_turns = match &law.slew_limit_turns {
+        Some(v) => real_in(
+            loc,
+            v,
+            "law.slew_limit_turns",
+            |v| v > 0.0 && v < 0.5,
+            "above 0 and below 0.5 turn",
+        )?,
+        None => 1.0 / 16.0,
+    };
+    let trim_limit_ppm = match &law.trim_limit_ppm {
+        Some(v) => real_in(
+            loc,
+            v,
+            "law.trim_limit_ppm",
+            |v| v > 0.0 && v <= 100_000.0,
+            "above 0 and at most 100000 ppm",
+        )?,
+        None => 200.0,
+    };
+    let neighbour_timeout_updates = match &law.neighbour_timeout_updates {
+        Some(v) => int_in(
+            loc,
+            v,
+            "law.neighbour_timeout_updates",
+            1,
+            1_000,
+            " updates",
+        )?,
+        None => 5,
+    };
+    if update_ticks * neighbour_timeout_updates as f64 > f64::from(i32::MAX as u32) {
+        return Err(refuse(
+            loc,
+            raw.law.span(),
+            format!(
+                "law.neighbour_timeout_updates × ticks per update = {} timer ticks is out of range: it must be at most {}",
+                update_ticks * neighbour_timeout_updates as f64,
+                i32::MAX
+            ),
+        ));
+    }
+
+    // Clock.
+    let (crystal_tolerance_ppm, timestamp_jitter_s) = match &raw.clock {
+        Some(c) => {
+            let c = c.get_ref();
+            let ppm = match &c.crystal_tolerance_ppm {
+                Some(v) => real_in(
+                    loc,
+                    v,
+                    "clock.crystal_tolerance_ppm",
+                    |v| (0.0..=1_000.0).contains(&v),
+                    "from 0 to 1000 ppm",
+                )?,
+                None => 0.0,
+            };
+            let jitter = match &c.timestamp_jitter_s {
+                Some(v) => real_in(
+                    loc,
+                    v,
+                    "clock.timestamp_jitter_s",
+                    |v| v >= 0.0 && v <= phase_period_s / 4.0,
+                    &format!(
+                        "from 0 to a quarter of timing.phase_period_s ({} s)",
+                        phase_period_s / 4.0
+                    ),
+                )?,
+                None => 0.0,
+            };
+            (ppm, jitter)
+        }
+        None => (0.0, 0.0),
+    };
+    // Link.
+    let (latency_s, loss_fraction) = match &raw.link {
+        Some(l) => {
+            let l = l.get_ref();
+            let latency = match &l.latency_s {
+                Some(v) => real_in(
+                    loc,
+                    v,
+                    "link.latency_s",
+                    |v| v >= 0.0 && v * update_rate_hz < MAX_LATENCY_UPDATES + 1.0,
+                    &format!(
+                        "from 0 to below {} s ({} update intervals)",
+                        (MAX_LATENCY_UPDATES + 1.0) / update_rate_hz,
+                        MAX_LATENCY_UPDATES + 1.0
+                    ),
+                )?,
+                None => 0.0,
+            };
+            let loss = match &l.loss_fraction {
+                Some(v) => real_in(
+                    loc,
+                    v,
+                    "link.loss_fraction",
+                    |v| (0.0..0.95).contains(&v),
+                    "from 0 to below 0.95",
+                )?,
+                None => 0.0,
+            };
+            (latency, loss)
+        }
+        None => (0.0, 0.0),
+    };
+
+    // Lock.
+    let lock = raw.lock.get_ref();
+    let initial_spread_s = real_in(
+        loc,
+        &lock.initial_spread_s,
+        "lock.initial_spread_s",
+        |v| v > 0.0 && v < phase_period_s,
+        &format!("above 0 and below timing.phase_period_s ({phase_period_s} s)"),
+    )?;
+    let lock_tolerance_s = real_in(
+        loc,
+        &lock.tolerance_s,
+        "lock.tolerance_s",
+        |v| v > 0.0 && v < initial_spread_s,
+        &format!("above 0 and below lock.initial_spread_s ({initial_spread_s} s)"),
+    )?;
+    let lock_budget_s = real_in(
+        loc,
+        &lock.budget_s,
+        "lock.budget_s",
+        |v| v > 0.0 && v <= 1.0e6,
+        "above 0 and at most 1000000 s",
+    )?;
+
+    // Monte Carlo.
+    let (runs, seed, duration_s) = match &raw.monte_carlo {
+        Some(m) => {
+            let m = m.get_ref();
+            let runs = match &m.runs {
+                Some(v) => int_in(loc, v, "monte_carlo.runs", 1, i64::from(MAX_RUNS), "")? as u32,
+                None => 32,
+            };
+            let seed = match &m.seed {
+                Some(v) => int_in(loc, v, "monte_carlo.seed", 0, i64::MAX, "")? as u64,
+                None => 1,
+            };
+            let duration = match &m.duration_s {
+                Some(v) => real_in(
+                    loc,
+                    v,
+                    "monte_carlo.duration_s",
+                    |v| v > 0.0 && v * update_rate_hz <= MAX_SIM_UPDATES,
+                    &format!(
+                        "above 0 and at most {} s ({MAX_SIM_UPDATES} updates at timing.update_rate_hz)",
+                        MAX_SIM_UPDATES / update_rate_hz
+                    ),
+                )?,
+                None => default_duration(lock_budget_s, update_rate_hz),
+            };
+            (runs, seed, duration)
+        }
+        None => (32, 1, default_duration(lock_budget_s, update_rate_hz)),
+    };
+
+    Ok(Scenario {
+        path: loc.file.to_path_buf(),
+        name,
+        network,
+        update_rate_hz,
+        phase_period_s,
+        timer_hz: timer_hz as u32,
+        ticks_per_period: ticks_per_period as u32,
+        update_ticks: update_ticks as u32,
+        coupling,
+        gains,
+        slew_limit_turns,
+        trim_limit_ppm,
+        neighbour_timeout_updates: neighbour_timeout_updates as u32,
+        crystal_tolerance_ppm,
+        timestamp_jitter_s,
+        latency_s,
+        loss_fraction,
+        initial_spread_s,
+        lock_tolerance_s,
+        lock_budget_s,
+        runs,
+        seed,
+        duration_s,
+    })
+}
+
+/// Twice the budget, capped at the simulator's update limit.
+fn default_duration(budget_s: f64, update_rate_hz: f64) -> f64 {
+    (2.0 * budget_s).min(MAX_SIM_UPDATES / update_rate_hz)
+}
+
+fn check_gains(loc: &Locator<'_>, law: &RawLaw) -> Result<Gains, ScenarioError> {
+    let kp = *law.kp.get_ref();
+    let ki = law.ki.as_ref().map(|k| (*k.get_ref(), k.span()));
+    match (kp, ki) {
+        (RawGain::Tune, None | Some((RawGain::Value(0.0), _))) => Ok(Gains::Tune { pi: false }),
+        (RawGain::Tune, Some((RawGain::Tune, _))) => Ok(Gains::Tune { pi: true }),
+        (RawGain::Tune, Some((RawGain::Value(v), span))) => Err(refuse(
+            loc,
+            span,
+            format!(
+                "law.ki = {v} cannot be fixed while law.kp = \"tune\": write ki = \"tune\" (PI law) or leave ki out (P-only law)"
+            ),
+        )),
+        (RawGain::Value(kp), ki) => {
+            if !(kp.is_finite() && kp > 0.0 && kp < 2.0) {
+                return Err(refuse(
+                    loc,
+                    law.kp.span(),
+                    format!(
+                        "law.kp = {kp} is out of range: it must be above 0 and below 2, or \"tune\""
+                    ),
+                ));
+            }
+            let ki = match ki {
+                None => 0.0,
+                Some((RawGain::Tune, span)) => {
+                    return Err(refuse(
+                        loc,
+                        span,
+                        "law.ki = \"tune\" needs law.kp = \"tune\" too: the tuner chooses both gains".to_owned(),
+                    ));
+                }
+                Some((RawGain::Value(ki), span)) => {
+                    if !(ki.is_finite() && ki >= 0.0 && ki < kp) {
+                        return Err(refuse(
+                            loc,
+                            span,
+                            format!(
+                                "law.ki = {ki} is out of range: it must be at least 0 and below law.kp ({kp})"
+                            ),
+                        ));
+                    }
+                    ki
+                }
+            };
+            Ok(Gains::Fixed { kp, ki })
+        }
+    }
+}
+
+fn count_key(
+    loc: &Locator<'_>,
+    net: &S<RawNetwork>,
+    key: &str,
+    value: Option<&S<i64>>,
+    min: i64,
+    max: i64,
+    kind: &str,
+) -> Result<usize, ScenarioError> {
+    match value {
+        Some(v) => {
+            let n = *v.get_ref();
+            if (min..=max).contains(&n) {
+                Ok(n as usize)
+            } else {
+                Err(refuse(
+                    loc,
+                    v.span(),
+                    format!(
+                        "network.{key} = {n} is out of range: a {kind} needs from {min} to {max}"
+                    ),
+                ))
+            }
+        }
+        None => Err(missing(
+            loc,
+            net.span(),
+            &format!("network.{key}"),
+            &format!("a {kind} needs it ({min} to {max})"),
+        )),
+    }
+}
+
+fn refuse_extra(
+    loc: &Locator<'_>,
+    value: Option<&S<impl Sized>>,
+    key: &str,
+    topology: &str,
+) -> Result<(), ScenarioError> {
+    match value {
+        Some(v) => Err(refuse(
+            loc,
+            v.span(),
+            format!("network.{key} does not apply to topology \"{topology}\": remove it"),
+        )),
+        None => Ok(()),
+    }
+}
+
+fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Network, ScenarioError> {
+    let n = net.get_ref();
+    let topology = n.topology.get_ref().as_str();
+    let max = MAX_NODES as i64;
+    let dense = MAX_DENSE_NODES as i64;
+    let side = 1_000;
+    let linear = |kind: &str, min: i64, max: i64| -> Result<usize, ScenarioError> {
+        refuse_extra(loc, n.rows.as_ref(), "rows", topology)?;
+        refuse_extra(loc, n.cols.as_ref(), "cols", topology)?;
+        refuse_extra(loc, n.edge_list_file.as_ref(), "edge_list_file", topology)?;
+        count_key(loc, net, "nodes", n.nodes.as_ref(), min, max, kind)
+    };
+    let mesh = |kind: &str, min: i64| -> Result<(usize, usize), ScenarioError> {
+        refuse_extra(loc, n.nodes.as_ref(), "nodes", topology)?;
+        refuse_extra(loc, n.edge_list_file.as_ref(), "edge_list_file", topology)?;
+        let rows = count_key(loc, net, "rows", n.rows.as_ref(), min, side, kind)?;
+        let cols = count_key(loc, net, "cols", n.cols.as_ref(), min, side, kind)?;
+        let total = rows.saturating_mul(cols);
+        if !(2..=MAX_NODES).contains(&total) {
+            return Err(refuse(
+                loc,
+                net.span(),
+                format!(
+                    "network.rows × network.cols = {total} nodes is out of range: a {kind} needs from 2 to {MAX_NODES}"
+                ),
+            ));
+        }
+        Ok((rows, cols))
+    };
+    Ok(match topology {
+        "chain" => Network::Chain {
+            nodes: linear("chain", 2, max)?,
+        },
+        "ring" => Network::Ring {
+            nodes: linear("ring", 3, max)?,
+        },
+        "star" => Network::Star {
+            nodes: linear("star", 2, dense)?,
+        },
+        "complete" => Network::Complete {
+            nodes: linear("complete graph", 2, dense)?,
+        },
+        "pinned_chain" => Network::PinnedChain {
+            nodes: linear("pinned chain", 1, max)?,
+        },
+        "grid" => {
+            let (rows, cols) = mesh("grid", 1)?;
+            Network::Grid { rows, cols }
+        }
+        "torus" => {
+            let (rows, cols) = mesh("torus", 3)?;
+            Network::Torus { rows, cols }
+        }
+        "edge_list" => {
+            refuse_extra(loc, n.rows.as_ref(), "rows", topology)?;
+            refuse_extra(loc, n.cols.as_ref(), "cols", topology)?;
+            let Some(file) = &n.edge_list_file else {
+                return Err(missing(
+                    loc,
+                    net.span(),
+                    "network.edge_list_file",
+                    "topology \"edge_list\" needs the path of its edge-list file",
+                ));
+            };
+            let nodes = match &n.nodes {
+                Some(v) => Some(count_key(
+                    loc,
+                    net,
+                    "nodes",
+                    Some(v),
+                    2,
+                    max,
+                    "edge-list graph",
+                )?),
+                None => None,
+            };
+            let base = loc.file.parent().unwrap_or_else(|| Path::new(""));
+            let path = base.join(file.get_ref());
+            let (count, edges) = read_edge_list(&path, nodes).map_err(|mut e| {
+                if e.line.is_none() {
+                    // Point at the key when the file itself is the problem.
+                    let at = loc.at(Some(file.span()), String::new());
+                    e = ScenarioError {
+                        message: format!("network.edge_list_file: {}", e.message),
+                        ..at
+                    };
+                }
+                e
+            })?;
+            Network::EdgeList {
+                path,
+                nodes: count,
+                edges,
+            }
+        }
+        other => {
+            return Err(refuse(
+                loc,
+                n.topology.span(),
+                format!(
+                    "network.topology = \"{other}\" is not known: it must be one of \"chain\", \"ring\", \"star\", \"complete\", \"grid\", \"torus\", \"pinned_chain\", \"edge_list\""
+                ),
+            ));
+        }
+    })
+}
+
+/// Read an edge-list file: one undirected edge `a b` per line (0-based node numbers,
+/// separated by spaces, tabs or a comma), `#` starts a comment, blank lines are skipped.
+/// The node count is `nodes` when given, else one more than the largest number seen.
+///
+/// # Errors
+/// A [`ScenarioError`] naming the edge-list file, line and column of a malformed line, a
+/// self-loop, a repeated edge, a node number out of range, a node with more than 255
+/// neighbours, or an empty file; or, without a line, a file that cannot be read.
+pub fn read_edge_list(
+    path: &Path,
+    nodes: Option<usize>,
+) -> Result<(usize, Vec<(usize, usize)>), ScenarioError> {
+    let text = std::fs::read_to_string(path).map_err(|e| ScenarioError {
+        file: path.to_path_buf(),
+        line: None,
+        column: None,
+        message: format!("cannot read the edge-list file {}: {e}", path.display()),
+    })?;
+    let here = |line: usize, column: usize, message: String| ScenarioError {
+        file: path.to_path_buf(),
+        line: Some(line),
+        column: Some(column),
+        message,
+    };
+    let mut edges = Vec::new();
+    let mut seen = std::collections::BTreeSet::new();
+    let mut largest = 0usize;
+    for (index, raw_line) in text.lines().enumerate() {
+        let line_no = index + 1;
+        let body = raw_line.split('#').next().unwrap_or("");
+        let mut fields = Vec::new();
+        let mut start = None;
+        for (at, ch) in body
+            .char_indices()
+            .chain(std::iter::once((body.len(), ' ')))
+        {
+            let sep = ch.is_whitespace() || ch == ',';
+            match (start, sep) {
+                (None, false) => start = Some(at),
+                (Some(s), true) => {
+                    fields.push((s, body.get(s..at).unwrap_or("")));
+                    start = None;
+                }
+                _ => {}
+            }
+        }
+        if fields.is_empty() {
+            continue;
+        }
+        let column_of = |byte: usize| body.get(..byte).map_or(1, |s| s.chars().count() + 1);
+        if fields.len() != 2 {
+            let col = fields.get(2).map_or(1, |f| column_of(f.0));
+            return Err(here(
+                line_no,
+                col,
+                format!(
+                    "an edge line holds exactly two node numbers, found {} fields",
+                    fields.len()
+                ),
+            ));
+        }
+        let mut ends = [0usize; 2];
+        for (slot, (at, field)) in ends.iter_mut().zip(&fields) {
+            *slot = field.parse::<usize>().map_err(|_| {
+                here(
+                    line_no,
+                    column_of(*at),
+                    format!(
+                        "\"{field}\" is not a node number: node numbers are whole numbers from 0"
+                    ),
+                )
+            })?;
+            let limit = nodes.unwrap_or(MAX_NODES);
+            if *slot >= limit {
+                return Err(here(
+                    line_no,
+                    column_of(*at),
+                    format!(
+                        "node {} is out of range: node numbers must be from 0 to {}",
+                        *slot,
+                        limit - 1
+                    ),
+                ));
+            }
+        }
+        let [a, b] = ends;
+        if a == b {
+            return Err(here(
+                line_no,
+                1,
+                format!("edge {a} {b} joins a node to itself"),
+            ));
+        }
+        if !seen.insert((a.min(b), a.max(b))) {
+            return Err(here(line_no, 1, format!("edge {a} {b} is listed twice")));
+        }
+        largest = largest.max(a).max(b);
+        edges.push((a, b));
+    }
+    if edges.is_empty() {
+        return Err(ScenarioError {
+            file: path.to_path_buf(),
+            line: None,
+            column: None,
+            message: "the edge-list file holds no edges".to_owned(),
+        });
+    }
+    let count = nodes.unwrap_or(largest + 1);
+    let mut degree = vec![0usize; count];
+    for &(a, b) in &edges {
+        for end in [a, b] {
+            if let Some(d) = degree.get_mut(end) {
+                *d += 1;
+                if *d > MAX_NEIGHBOURS {
+                    return Err(ScenarioError {
+                        file: path.to_path_buf(),
+                        line: None,
+                        column: None,
+                        message: format!(
+                            "node {end} has more than {MAX_NEIGHBOURS} neighbours: a node's neighbour table holds at most {MAX_NEIGHBOURS}"
+                        ),
+                    });
+                }
+            }
+        }
+    }
+    Ok((count, edges))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const GOOD: &str = r#"
+version = 1
+name = "test string"
+
+[network]
+topology = "chain"
+nodes = 5
+
+[timing]
+update_rate_hz = 10
+phase_period_s = 0.001
+
+[law]
+coupling = "sine"
+kp = 0.4
+ki = 0.05
+
+[clock]
+crystal_tolerance_ppm = 20
+
+[lock]
+initial_spread_s = 0.0004
+tolerance_s = 0.000001
+budget_s = 30
+"#;
+
+    fn parse(text: &str) -> Result<Scenario, ScenarioError> {
+        Scenario::from_toml(Path::new("t.toml"), text)
+    }
+
+    #[test]
+    fn good_file_reads() {
+        let s = parse(GOOD).unwrap();
+        assert_eq!(s.network, Network::Chain { nodes: 5 });
+        assert_eq!(s.gains, Gains::Fixed { kp: 0.4, ki: 0.05 });
+        // 1 MHz default timer: 1 ms is 1000 ticks, 10 Hz is 100000 ticks.
+        assert_eq!(s.ticks_per_period, 1_000);
+        assert_eq!(s.update_ticks, 100_000);
+        assert_eq!(s.duration_s, 60.0);
+        assert_eq!(s.runs, 32);
+    }
+
+    #[test]
+    fn line_and_column_count_characters() {
+        assert_eq!(line_column("ab\ncd", 4), (2, 2));
+        assert_eq!(line_column("é = 1\nx", 7), (2, 1));
+        assert_eq!(line_column("", 0), (1, 1));
+    }
+
+    #[test]
+    fn out_of_range_names_place_and_range() {
+        let bad = GOOD.replace("kp = 0.4", "kp = 2.5");
+        let e = parse(&bad).unwrap_err();
+        assert_eq!(e.line, Some(15));
+        assert_eq!(e.column, Some(6));
+        assert!(e.message.contains("below 2"), "{}", e.message);
+    }
+
+    #[test]
+    fn tune_words() {
+        let s = parse(
+            &GOOD
+                .replace("kp = 0.4", "kp = \"tune\"")
+                .replace("ki = 0.05", "ki = \"tune\""),
+        )
+        .unwrap();
+        assert_eq!(s.gains, Gains::Tune { pi: true });
+        let e = parse(&GOOD.replace("kp = 0.4", "kp = \"fast\"")).unwrap_err();
+        assert!(e.message.contains("\"tune\""), "{}", e.message);
+    }
+
+    #[test]
+    fn delay_is_whole_update_intervals() {
+        let s = parse(&format!("{GOOD}\n[link]\nlatency_s = 0.25\n")).unwrap();
+        assert_eq!(s.delay_updates(), 2);
+    }
+}

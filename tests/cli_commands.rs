@@ -1,0 +1,415 @@
+//! End-to-end runs of every command on the bundled examples. JSON answers are checked
+//! against published closed forms and against the library's own planner and simulator
+//! called directly (with the scenario mapping written out by hand here); SVG plots are
+//! parsed as XML.
+#![cfg(feature = "cli")]
+
+use assert_cmd::Command;
+use entrain::plan::{self, Model, Spread, Topology};
+use entrain::{Config, Gain, Law, sim};
+use serde_json::Value;
+use std::f64::consts::PI;
+use std::path::Path;
+
+const TOL: f64 = 1e-12;
+
+fn entrain() -> Command {
+    let mut c = Command::cargo_bin("entrain").unwrap();
+    c.current_dir(env!("CARGO_MANIFEST_DIR"));
+    c
+}
+
+fn json(args: &[&str]) -> (Value, i32) {
+    let out = entrain().args(args).arg("--json").output().unwrap();
+    let status = out.status.code().unwrap();
+    let v: Value = serde_json::from_slice(&out.stdout).unwrap_or_else(|e| {
+        panic!(
+            "{args:?}: not JSON ({e}): {}",
+            String::from_utf8_lossy(&out.stderr)
+        )
+    });
+    assert_eq!(v["schema_version"], 1);
+    (v, status)
+}
+
+fn f(v: &Value) -> f64 {
+    v.as_f64().unwrap_or_else(|| panic!("not a number: {v}"))
+}
+
+/// Path P_N: λ_k = 2 − 2cos(kπ/N) (Fiedler 1973; Brouwer & Haemers 2012 §1.4).
+fn path_eigenvalue(n: usize, k: usize) -> f64 {
+    2.0 - 2.0 * (k as f64 * PI / n as f64).cos()
+}
+
+#[test]
+fn spectrum_of_the_footbridge_chain_is_the_path_spectrum() {
+    let (v, status) = json(&["spectrum", "examples/footbridge.toml"]);
+    assert_eq!(status, 0);
+    assert_eq!(v["command"], "spectrum");
+    let ev: Vec<f64> = v["eigenvalues"].as_array().unwrap().iter().map(f).collect();
+    assert_eq!(ev.len(), 24);
+    for (k, l) in ev.iter().enumerate() {
+        assert!((l - path_eigenvalue(24, k)).abs() < 1e-12, "λ{k} = {l}");
+    }
+    assert!((f(&v["spectrum"]["lambda_slow"]) - path_eigenvalue(24, 1)).abs() < TOL);
+    assert!((f(&v["spectrum"]["lambda_max"]) - path_eigenvalue(24, 23)).abs() < TOL);
+    // Slowest mode of P_N: cos(π(j+½)/N) (Brouwer & Haemers §1.4), scaled to peak 1.
+    let mode: Vec<f64> = v["slow_mode"].as_array().unwrap().iter().map(f).collect();
+    let peak = (PI * 0.5 / 24.0).cos();
+    for (j, x) in mode.iter().enumerate() {
+        let want = (PI * (j as f64 + 0.5) / 24.0).cos() / peak;
+        assert!((x - want).abs() < 1e-12, "node {j}: {x} vs {want}");
+    }
+}
+
+#[test]
+fn spectrum_of_the_courtyard_ring_is_the_cycle_spectrum() {
+    let (v, _) = json(&["spectrum", "examples/courtyard.toml"]);
+    let ev: Vec<f64> = v["eigenvalues"].as_array().unwrap().iter().map(f).collect();
+    // C_N: λ_k = 2 − 2cos(2πk/N) (Brouwer & Haemers 2012 §1.4); C12 sorted by hand.
+    let mut want: Vec<f64> = (0..12)
+        .map(|k| 2.0 - 2.0 * (2.0 * PI * k as f64 / 12.0).cos())
+        .collect();
+    want.sort_by(f64::total_cmp);
+    for (a, b) in ev.iter().zip(&want) {
+        assert!((a - b).abs() < 1e-12);
+    }
+    assert_eq!(v["spectrum"]["stable_twisted_states"], 4); // |q| < 12/4: q = ±1, ±2 (Wiley et al. 2006)
+}
+
+#[test]
+fn spectrum_of_the_greenhouse_grid_and_the_text_report() {
+    let (v, _) = json(&["spectrum", "examples/greenhouse.toml"]);
+    // P10 □ P10: λ2 = λ2(P10), λmax = 2·λmax(P10) (Brouwer & Haemers §1.4).
+    assert!((f(&v["spectrum"]["lambda_slow"]) - path_eigenvalue(10, 1)).abs() < TOL);
+    assert!((f(&v["spectrum"]["lambda_max"]) - 2.0 * path_eigenvalue(10, 9)).abs() < TOL);
+    let out = entrain()
+        .args(["spectrum", "examples/greenhouse.toml"])
+        .output()
+        .unwrap();
+    let text = String::from_utf8(out.stdout).unwrap();
+    assert!(text.contains("Slowest mode along the network"));
+    assert!(text.contains("Caution:"));
+}
+
+/// The footbridge example as the planner sees it, mapped by hand from the file.
+fn footbridge_model() -> Model {
+    Model {
+        law: plan::Law::Sine,
+        kp: 16_384.0 / 65_536.0,                      // 0.25 in Q16.16
+        ki: (0.02_f64 * 65_536.0).round() / 65_536.0, // 1311 / 65536
+        update_period_s: 0.1,
+        phase_period_s: 0.001,
+        delay_updates: 0, // 0.4 ms latency at 10 Hz
+        success_prob: 0.98,
+        slew_limit_turns: 0.0625,
+        trim_limit_ppm: 200.0,
+    }
+}
+
+#[test]
+fn check_footbridge_matches_the_planner_and_the_simulator() {
+    let (v, status) = json(&["check", "examples/footbridge.toml"]);
+    assert_eq!(status, 0, "{v}");
+    assert_eq!(v["verdict"]["pass"], true);
+    assert_eq!(v["gains_source"], "scenario");
+    let p = &v["prediction"];
+    assert_eq!(p["gains"]["kp_q16"], 16_384);
+    assert_eq!(p["gains"]["ki_q16"], 1_311);
+
+    let model = footbridge_model();
+    let spectrum = Topology::Chain { nodes: 24 }.spectrum().unwrap();
+    let st = plan::stability(&model, &spectrum).unwrap();
+    assert!((f(&p["stability"]["radius"]) - st.radius).abs() < TOL);
+    assert!((f(&p["stability"]["gain_margin"]) - st.gain_margin).abs() < 1e-9);
+    let se = plan::settle(
+        &model,
+        &spectrum,
+        &Spread {
+            initial_spread_s: 0.0004,
+            tolerance_s: 0.00002,
+        },
+    )
+    .unwrap();
+    assert!((f(&p["settling"]["asymptotic_s"]) - se.asymptotic_s).abs() < 1e-9);
+    assert!((f(&p["settling"]["bound_s"]) - se.bound_s.unwrap()).abs() < 1e-9);
+
+    // The same Monte Carlo, built by hand from the file's keys.
+    let config = Config::builder(1_000, 100_000)
+        .kp(Gain::from_q16(16_384))
+        .ki(Gain::from_q16(1_311))
+        .law(Law::Sine)
+        .slew_limit(1 << 28)
+        .trim_limit_ppb(200_000)
+        .timeout_ticks(500_000)
+        .build()
+        .unwrap();
+    let mut s = sim::Scenario::new(sim::Links::chain(24).unwrap(), config, 1e6);
+    s.crystals = sim::Crystals::Uniform {
+        tolerance_ppm: 20.0,
+    };
+    s.schedule = sim::Schedule {
+        random_start: true,
+        jitter_ticks: 0,
+    };
+    s.beacons = sim::Beacons {
+        latency_ticks: 400,
+        timestamp_jitter_ticks: 1,
+        success_prob: 0.98,
+    };
+    s.start = sim::StartPhases::Uniform { spread_turns: 0.4 };
+    s.lock = sim::LockCriterion {
+        tolerance_turns: 0.02,
+        ..s.lock
+    };
+    s.horizon_updates = 4_800; // 2 × the 240 s budget at 10 Hz
+    let summary = sim::monte_carlo(&s, 24, 2024, &|_| {}).unwrap();
+    let m = &v["simulation"];
+    assert_eq!(m["runs"], 24);
+    assert_eq!(
+        m["locked_runs"].as_u64().unwrap() as usize,
+        summary.locked_runs
+    );
+    let lock = summary.lock_s.unwrap();
+    assert!((f(&m["lock_s"]["p50"]) - lock.p50).abs() < 1e-9);
+    assert!((f(&m["lock_s"]["max"]) - lock.max).abs() < 1e-9);
+    assert!(lock.max <= 240.0);
+}
+
+#[test]
+fn check_report_reads_verdict_first_and_ends_with_the_caution() {
+    let out = entrain()
+        .args(["check", "examples/courtyard.toml"])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(0));
+    let text = String::from_utf8(out.stdout).unwrap();
+    let at = |s: &str| {
+        text.find(s)
+            .unwrap_or_else(|| panic!("no `{s}` in:\n{text}"))
+    };
+    assert!(at("VERDICT: PASS") < at("Margins"));
+    assert!(at("Margins") < at("Figures"));
+    assert!(at("Figures") < at("Warnings"));
+    assert!(at("Warnings") < at("Caution:"));
+    assert!(text.contains("local codes and qualified review"));
+    assert!(text.contains("largest pairwise wrapped phase difference"));
+}
+
+fn variant(name: &str, from: &str, edits: &[(&str, &str)]) -> tempfile::TempDir {
+    let dir = tempfile::tempdir().unwrap();
+    let mut text =
+        std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join(from)).unwrap();
+    for (a, b) in edits {
+        assert!(text.contains(a), "{a}");
+        text = text.replace(a, b);
+    }
+    std::fs::write(dir.path().join(name), text).unwrap();
+    dir
+}
+
+#[test]
+fn check_fails_with_status_1_when_unstable() {
+    // kp·λmax = 0.9 × 3.98 > 2: the fastest mode grows (Xiao & Boyd 2004).
+    let dir = variant(
+        "x.toml",
+        "examples/footbridge.toml",
+        &[("kp = 0.25", "kp = 0.9")],
+    );
+    let file = dir.path().join("x.toml");
+    let (v, status) = json(&["check", file.to_str().unwrap(), "--no-simulate"]);
+    assert_eq!(status, 1);
+    assert_eq!(v["verdict"]["pass"], false);
+    let codes: Vec<&str> = v["verdict"]["reasons"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|r| r["code"].as_str().unwrap())
+        .collect();
+    assert!(codes.contains(&"unstable"), "{codes:?}");
+    assert_eq!(v["simulation"], Value::Null);
+}
+
+#[test]
+fn check_fails_with_status_1_when_over_budget() {
+    let dir = variant(
+        "x.toml",
+        "examples/footbridge.toml",
+        &[("budget_s = 240", "budget_s = 5")],
+    );
+    let file = dir.path().join("x.toml");
+    let out = entrain()
+        .args(["check", file.to_str().unwrap(), "--runs", "4"])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(1));
+    let text = String::from_utf8(out.stdout).unwrap();
+    assert!(text.starts_with("entrain check"));
+    assert!(text.contains("VERDICT: FAIL"));
+    assert!(text.contains("exceeds the budget"));
+}
+
+#[test]
+fn tune_writes_constants_that_build_the_tuned_config() {
+    let dir = tempfile::tempdir().unwrap();
+    let out_file = dir.path().join("consts.rs");
+    let (v, status) = json(&[
+        "tune",
+        "examples/courtyard.toml",
+        "--out",
+        out_file.to_str().unwrap(),
+    ]);
+    assert_eq!(status, 0, "{v}");
+    assert_eq!(v["tuning"]["feasible"], true);
+
+    // The tuner called directly on the same model (courtyard: ring of 12, 20 Hz, 20 ms
+    // turn, 3 ms latency = 0 updates, 10 % loss, slew 1/8 turn, trim ±150 ppm).
+    let template = Model {
+        law: plan::Law::Sine,
+        kp: 1.0,
+        ki: 0.1,
+        update_period_s: 0.05,
+        phase_period_s: 0.02,
+        delay_updates: 0,
+        success_prob: 0.9,
+        slew_limit_turns: 0.125,
+        trim_limit_ppm: 150.0,
+    };
+    let budget = plan::Budget {
+        lock_time_budget_s: 20.0,
+        spread: Spread {
+            initial_spread_s: 0.006,
+            tolerance_s: 0.0002,
+        },
+        crystal_tolerance_ppm: 30.0,
+    };
+    let tuning = plan::tune_topology(&template, &Topology::Ring { nodes: 12 }, &budget).unwrap();
+    let rec = tuning.recommended.unwrap();
+    assert!((f(&v["tuning"]["recommended"]["kp"]) - rec.kp).abs() < TOL);
+    assert!((f(&v["tuning"]["recommended"]["ki"]) - rec.ki).abs() < TOL);
+
+    let text = std::fs::read_to_string(&out_file).unwrap();
+    let read = |name: &str| -> u32 {
+        let prefix = format!("pub const {name}: u32 = ");
+        let line = text.lines().find(|l| l.starts_with(&prefix)).unwrap();
+        line[prefix.len()..line.len() - 1].parse().unwrap()
+    };
+    assert_eq!(read("KP_Q16"), Gain::from_f32(rec.kp as f32).unwrap().q16());
+    assert_eq!(read("KI_Q16"), Gain::from_f32(rec.ki as f32).unwrap().q16());
+    // 32768 Hz × 20 ms = 655.36 → 655 ticks; 32768 / 20 Hz = 1638.4 → 1638 ticks.
+    assert_eq!(read("TICKS_PER_PERIOD"), 655);
+    assert_eq!(read("UPDATE_TICKS"), 1638);
+    let config = Config::builder(read("TICKS_PER_PERIOD"), read("UPDATE_TICKS"))
+        .kp(Gain::from_q16(read("KP_Q16")))
+        .ki(Gain::from_q16(read("KI_Q16")))
+        .law(Law::Sine)
+        .slew_limit(read("SLEW_LIMIT_COUNTS"))
+        .trim_limit_ppb(read("TRIM_LIMIT_PPB"))
+        .timeout_ticks(read("TIMEOUT_TICKS"))
+        .build();
+    assert!(config.is_ok(), "{config:?}");
+    assert_eq!(read("SLEW_LIMIT_COUNTS"), 1 << 29); // 1/8 turn of 2^32
+    assert_eq!(read("TRIM_LIMIT_PPB"), 150_000);
+    assert_eq!(v["firmware_constants_file"], out_file.to_str().unwrap());
+}
+
+#[test]
+fn tune_without_feasible_gains_exits_1_and_writes_nothing() {
+    let dir = variant(
+        "x.toml",
+        "examples/courtyard.toml",
+        &[("budget_s = 20", "budget_s = 0.05")],
+    );
+    let file = dir.path().join("x.toml");
+    let out_file = dir.path().join("consts.rs");
+    let (v, status) = json(&[
+        "tune",
+        file.to_str().unwrap(),
+        "--out",
+        out_file.to_str().unwrap(),
+    ]);
+    assert_eq!(status, 1);
+    assert_eq!(v["tuning"]["feasible"], false);
+    assert!(v["tuning"]["infeasibility"].is_string());
+    assert!(!out_file.exists());
+}
+
+#[test]
+fn simulate_writes_three_svg_plots() {
+    let dir = tempfile::tempdir().unwrap();
+    let (v, status) = json(&[
+        "simulate",
+        "examples/courtyard.toml",
+        "--plots",
+        dir.path().to_str().unwrap(),
+        "--runs",
+        "8",
+    ]);
+    assert_eq!(status, 0, "{v}");
+    assert_eq!(v["command"], "simulate");
+    assert_eq!(v["simulation"]["runs"], 8);
+    let plots = v["plots"].as_array().unwrap();
+    assert_eq!(plots.len(), 3);
+    for (name, must) in [
+        ("phase_error.svg", "lock tolerance"),
+        ("lock_times.svg", "lock-time budget"),
+        ("slowest_mode.svg", "slowest mode"),
+    ] {
+        let text = std::fs::read_to_string(dir.path().join(name)).unwrap();
+        let doc = roxmltree::Document::parse(&text).unwrap_or_else(|e| panic!("{name}: {e}"));
+        assert_eq!(doc.root_element().tag_name().name(), "svg");
+        let texts: String = doc
+            .descendants()
+            .filter(|n| n.tag_name().name() == "text")
+            .filter_map(|n| n.text())
+            .collect::<Vec<_>>()
+            .join(" ");
+        assert!(texts.contains(must), "{name}: no `{must}` in {texts}");
+        let drawn = doc
+            .descendants()
+            .filter(|n| matches!(n.tag_name().name(), "polyline" | "path" | "rect" | "circle"))
+            .count();
+        assert!(drawn > 10, "{name}: only {drawn} shapes");
+    }
+}
+
+#[test]
+fn simulate_human_report_lists_the_plots() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = entrain()
+        .args([
+            "simulate",
+            "examples/greenhouse.toml",
+            "--runs",
+            "3",
+            "--seed",
+            "5",
+            "--plots",
+        ])
+        .arg(dir.path())
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(0));
+    let text = String::from_utf8(out.stdout).unwrap();
+    assert!(text.starts_with("entrain simulate"));
+    assert!(text.contains("seed 5"));
+    assert!(text.contains("slowest_mode.svg"));
+}
+
+#[test]
+fn every_example_checks_and_passes() {
+    for file in [
+        "examples/footbridge.toml",
+        "examples/courtyard.toml",
+        "examples/greenhouse.toml",
+        "examples/conveyor.toml",
+    ] {
+        let out = entrain().args(["check", file]).output().unwrap();
+        assert_eq!(
+            out.status.code(),
+            Some(0),
+            "{file}: {}",
+            String::from_utf8_lossy(&out.stdout)
+        );
+    }
+}

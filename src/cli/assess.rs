@@ -51,14 +51,8 @@ pub struct Shape {
 /// # Errors
 /// [`CliError::Input`] for a graph the library refuses (disconnected, too small).
 pub fn shape(scenario: &Scenario) -> Result<Shape, CliError> {
-    let topology = match scenario.network {
-        Network::Chain { nodes } => Some(Topology::Chain { nodes }),
-        Network::Ring { nodes } => Some(Topology::Ring { nodes }),
-        Network::Star { nodes } => Some(Topology::Star { nodes }),
-        Network::Complete { nodes } => Some(Topology::Complete { nodes }),
-        Network::Grid { rows, cols } => Some(Topology::Grid { rows, cols }),
-        Network::Torus { rows, cols } => Some(Topology::Torus { rows, cols }),
-        Network::PinnedChain { nodes } => Some(Topology::PinnedChain { nodes }),
+    let topology = match &scenario.network {
+        Network::Topology(t) => Some(*t),
         Network::EdgeList { .. } => None,
     };
     let input = |message: String| CliError::input(&scenario.path, message);

@@ -10,7 +10,7 @@ use super::assess::Prediction;
 use super::report::{CAUTION, PHASE_ERROR_NOTE, infeasibility_code};
 use super::scenario::{Gains, Network, Scenario};
 use super::{CheckResult, SpectrumResult, TuneResult, Warning};
-use crate::plan::{GainChoice, Tuning};
+use crate::plan::{GainChoice, Topology, Tuning};
 use serde_json::{Map, Value, json};
 use std::path::PathBuf;
 
@@ -41,7 +41,9 @@ fn envelope(command: &str, scenario: &Scenario) -> Map<String, Value> {
 
 fn scenario_json(s: &Scenario) -> Value {
     let (rows, cols) = match s.network {
-        Network::Grid { rows, cols } | Network::Torus { rows, cols } => (json!(rows), json!(cols)),
+        Network::Topology(Topology::Grid { rows, cols } | Topology::Torus { rows, cols }) => {
+            (json!(rows), json!(cols))
+        }
         _ => (Value::Null, Value::Null),
     };
     let (gains_mode, kp, ki) = match s.gains {

@@ -590,7 +590,8 @@ fn prediction_warnings(scenario: &Scenario, chosen: &Chosen, p: &Prediction) -> 
     }
     if matches!(
         scenario.network,
-        Network::Grid { .. } | Network::Torus { .. } | Network::EdgeList { .. }
+        Network::Topology(crate::plan::Topology::Grid { .. } | crate::plan::Topology::Torus { .. })
+            | Network::EdgeList { .. }
     ) && p.locking.is_some()
     {
         add(

@@ -9,6 +9,7 @@
 //! version refuses a newer file outright (with a message saying which version it reads)
 //! rather than guessing at keys it does not know.
 
+use crate::plan::Topology;
 use serde::Deserialize;
 use serde::de::{self, Deserializer, Visitor};
 use std::fmt;
@@ -246,45 +247,8 @@ struct RawMonteCarlo {
 /// The coupling graph a scenario describes.
 #[derive(Clone, Debug, PartialEq, Eq)]
 pub enum Network {
-    /// Open chain of `nodes` (node `i` hears `i − 1` and `i + 1`).
-    Chain {
-        /// Number of nodes.
-        nodes: usize,
-    },
-    /// Closed ring of `nodes`.
-    Ring {
-        /// Number of nodes.
-        nodes: usize,
-    },
-    /// One hub (node 0) heard by and hearing every other node.
-    Star {
-        /// Number of nodes including the hub.
-        nodes: usize,
-    },
-    /// Every node hears every other.
-    Complete {
-        /// Number of nodes.
-        nodes: usize,
-    },
-    /// `rows × cols` mesh, each node hearing its four compass neighbours.
-    Grid {
-        /// Rows.
-        rows: usize,
-        /// Columns.
-        cols: usize,
-    },
-    /// `rows × cols` mesh with wrap-around edges.
-    Torus {
-        /// Rows.
-        rows: usize,
-        /// Columns.
-        cols: usize,
-    },
-    /// Chain whose node 0 also hears a reference clock that never moves.
-    PinnedChain {
-        /// Number of nodes, not counting the reference.
-        nodes: usize,
-    },
+    /// One of the planner's closed-form topologies (node numbering as documented there).
+    Topology(Topology),
     /// An arbitrary undirected graph read from an edge-list file.
     EdgeList {
         /// The edge-list file (resolved against the scenario's folder).
@@ -297,19 +261,12 @@ pub enum Network {
 }
 
 impl Network {
-    /// Number of nodes that adjust their phase.
+    /// Number of nodes that adjust their phase (a pinned chain's reference not counted).
     #[must_use]
     pub fn node_count(&self) -> usize {
-        match *self {
-            Network::Chain { nodes }
-            | Network::Ring { nodes }
-            | Network::Star { nodes }
-            | Network::Complete { nodes }
-            | Network::PinnedChain { nodes }
-            | Network::EdgeList { nodes, .. } => nodes,
-            Network::Grid { rows, cols } | Network::Torus { rows, cols } => {
-                rows.saturating_mul(cols)
-            }
+        match self {
+            Network::Topology(t) => t.node_count(),
+            Network::EdgeList { nodes, .. } => *nodes,
         }
     }
 
@@ -317,13 +274,13 @@ impl Network {
     #[must_use]
     pub fn keyword(&self) -> &'static str {
         match self {
-            Network::Chain { .. } => "chain",
-            Network::Ring { .. } => "ring",
-            Network::Star { .. } => "star",
-            Network::Complete { .. } => "complete",
-            Network::Grid { .. } => "grid",
-            Network::Torus { .. } => "torus",
-            Network::PinnedChain { .. } => "pinned_chain",
+            Network::Topology(Topology::Chain { .. }) => "chain",
+            Network::Topology(Topology::Ring { .. }) => "ring",
+            Network::Topology(Topology::Star { .. }) => "star",
+            Network::Topology(Topology::Complete { .. }) => "complete",
+            Network::Topology(Topology::Grid { .. }) => "grid",
+            Network::Topology(Topology::Torus { .. }) => "torus",
+            Network::Topology(Topology::PinnedChain { .. }) => "pinned_chain",
             Network::EdgeList { .. } => "edge_list",
         }
     }
@@ -332,15 +289,17 @@ impl Network {
     #[must_use]
     pub fn describe(&self) -> String {
         match self {
-            Network::Chain { nodes } => format!("chain of {nodes} nodes"),
-            Network::Ring { nodes } => format!("ring of {nodes} nodes"),
-            Network::Star { nodes } => format!("star of {nodes} nodes (hub is node 0)"),
-            Network::Complete { nodes } => format!("complete graph of {nodes} nodes"),
-            Network::Grid { rows, cols } => format!("grid {rows} × {cols}"),
-            Network::Torus { rows, cols } => format!("torus {rows} × {cols}"),
-            Network::PinnedChain { nodes } => {
-                format!("chain of {nodes} nodes pinned to a reference at node 0")
-            }
+            Network::Topology(t) => match *t {
+                Topology::Chain { nodes } => format!("chain of {nodes} nodes"),
+                Topology::Ring { nodes } => format!("ring of {nodes} nodes"),
+                Topology::Star { nodes } => format!("star of {nodes} nodes (hub is node 0)"),
+                Topology::Complete { nodes } => format!("complete graph of {nodes} nodes"),
+                Topology::Grid { rows, cols } => format!("grid {rows} × {cols}"),
+                Topology::Torus { rows, cols } => format!("torus {rows} × {cols}"),
+                Topology::PinnedChain { nodes } => {
+                    format!("chain of {nodes} nodes pinned to a reference at node 0")
+                }
+            },
             Network::EdgeList { path, nodes, edges } => format!(
                 "{nodes} nodes, {} edges from {}",
                 edges.len(),
@@ -951,28 +910,28 @@ fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Network, Scen
         Ok((rows, cols))
     };
     Ok(match topology {
-        "chain" => Network::Chain {
+        "chain" => Network::Topology(Topology::Chain {
             nodes: linear("chain", 2, max)?,
-        },
-        "ring" => Network::Ring {
+        }),
+        "ring" => Network::Topology(Topology::Ring {
             nodes: linear("ring", 3, max)?,
-        },
-        "star" => Network::Star {
+        }),
+        "star" => Network::Topology(Topology::Star {
             nodes: linear("star", 2, dense)?,
-        },
-        "complete" => Network::Complete {
+        }),
+        "complete" => Network::Topology(Topology::Complete {
             nodes: linear("complete graph", 2, dense)?,
-        },
-        "pinned_chain" => Network::PinnedChain {
+        }),
+        "pinned_chain" => Network::Topology(Topology::PinnedChain {
             nodes: linear("pinned chain", 1, max)?,
-        },
+        }),
         "grid" => {
             let (rows, cols) = mesh("grid", 1)?;
-            Network::Grid { rows, cols }
+            Network::Topology(Topology::Grid { rows, cols })
         }
         "torus" => {
             let (rows, cols) = mesh("torus", 3)?;
-            Network::Torus { rows, cols }
+            Network::Topology(Topology::Torus { rows, cols })
         }
         "edge_list" => {
             refuse_extra(loc, n.rows.as_ref(), "rows", topology)?;
@@ -1194,7 +1153,7 @@ budget_s = 30
     #[test]
     fn good_file_reads() {
         let s = parse(GOOD).unwrap();
-        assert_eq!(s.network, Network::Chain { nodes: 5 });
+        assert_eq!(s.network, Network::Topology(Topology::Chain { nodes: 5 }));
         assert_eq!(s.gains, Gains::Fixed { kp: 0.4, ki: 0.05 });
         // 1 MHz default timer: 1 ms is 1000 ticks, 10 Hz is 100000 ticks.
         assert_eq!(s.ticks_per_period, 1_000);

@@ -349,21 +349,12 @@ impl Graph {
                 min: 2,
             });
         }
-        let spectrum_of = |lambda_slow: f64, lambda_max: f64| Spectrum {
-            node_count: self.nodes,
-            lambda_slow,
-            lambda_max,
-            max_degree: self.max_degree(),
-            connected: self.is_connected(),
-            pinned: false,
-            stable_twisted_states: 0,
-        };
         if self.nodes <= DENSE_AUTO_MAX_NODES {
             let d = self.dense_spectrum()?;
             let connected = self.is_connected();
             let lambda_slow = if connected { d.lambda2() } else { 0.0 };
             Ok(GraphSummary {
-                spectrum: spectrum_of(lambda_slow, d.lambda_max()),
+                spectrum: self.spectrum_of(lambda_slow, d.lambda_max()),
                 slow_mode: if connected {
                     d.slow_mode().to_vec()
                 } else {
@@ -379,14 +370,14 @@ impl Graph {
         } else if self.is_connected() {
             let s = self.sparse_spectrum()?;
             Ok(GraphSummary {
-                spectrum: spectrum_of(s.lambda2, s.lambda_max_upper),
+                spectrum: self.spectrum_of(s.lambda2, s.lambda_max_upper),
                 eigenvalues: None,
                 slow_mode: s.slow_mode,
                 worst_flow_factor: None,
             })
         } else {
             Ok(GraphSummary {
-                spectrum: spectrum_of(0.0, 2.0 * self.max_degree()),
+                spectrum: self.spectrum_of(0.0, 2.0 * self.max_degree()),
                 eigenvalues: None,
                 slow_mode: Vec::new(),
                 worst_flow_factor: None,
@@ -423,7 +414,12 @@ impl Graph {
             let s = self.sparse_spectrum()?;
             (s.lambda2, s.lambda_max_upper)
         };
-        Ok(Spectrum {
+        Ok(self.spectrum_of(lambda_slow, lambda_max))
+    }
+
+    /// The planner's summary of this (free, unpinned) graph with the given extremes.
+    fn spectrum_of(&self, lambda_slow: f64, lambda_max: f64) -> Spectrum {
+        Spectrum {
             node_count: self.nodes,
             lambda_slow,
             lambda_max,
@@ -431,6 +427,6 @@ impl Graph {
             connected: self.is_connected(),
             pinned: false,
             stable_twisted_states: 0,
-        })
+        }
     }
 }

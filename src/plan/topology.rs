@@ -134,6 +134,20 @@ impl Topology {
         }
     }
 
+    /// Validate, then check that a caller's output slice has one slot per node.
+    fn checked_len(&self, out: &[f64]) -> Result<(), PlanError> {
+        self.validate()?;
+        let count = self.node_count();
+        if out.len() == count {
+            Ok(())
+        } else {
+            Err(PlanError::WrongLength {
+                needed: count,
+                got: out.len(),
+            })
+        }
+    }
+
     /// Whether the network follows an external reference (no zero mode).
     pub fn is_pinned(&self) -> bool {
         matches!(self, Self::PinnedChain { .. })
@@ -196,14 +210,7 @@ impl Topology {
     /// # Errors
     /// [`PlanError::WrongLength`] if `out.len() != node_count()`, or the [`Self::validate`] error.
     pub fn eigenvalues(&self, out: &mut [f64]) -> Result<(), PlanError> {
-        self.validate()?;
-        let count = self.node_count();
-        if out.len() != count {
-            return Err(PlanError::WrongLength {
-                needed: count,
-                got: out.len(),
-            });
-        }
+        self.checked_len(out)?;
         for (k, slot) in out.iter_mut().enumerate() {
             *slot = self.mode(k)?;
         }
@@ -375,14 +382,7 @@ impl Topology {
     /// # Errors
     /// [`PlanError::WrongLength`] or the validate error.
     pub fn slow_mode_shape(&self, out: &mut [f64]) -> Result<(), PlanError> {
-        self.validate()?;
-        let count = self.node_count();
-        if out.len() != count {
-            return Err(PlanError::WrongLength {
-                needed: count,
-                got: out.len(),
-            });
-        }
+        self.checked_len(out)?;
         let mut peak = 0.0_f64;
         for (node, slot) in out.iter_mut().enumerate() {
             *slot = self.slow_mode(node)?;

@@ -1,4 +1,5 @@
-//! Puts `memory.x` where the linker finds it and links with cortex-m-rt's `link.x`.
+//! Build script shared by the Cortex-M boards (each Cargo.toml points here): puts the
+//! board's `memory.x` where the linker finds it and links with cortex-m-rt's `link.x`.
 use std::{env, fs, path::PathBuf};
 
 fn main() -> Result<(), Box<dyn std::error::Error>> {

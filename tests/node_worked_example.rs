@@ -1,4 +1,4 @@
-//! DESIGN.md's worked example of discrete consensus, reproduced by real nodes.
+//! The worked example of discrete consensus (Xiao & Boyd 2004), reproduced by real nodes.
 mod common;
 use common::{Chain, config};
 use entrain::{Law, Phase};

@@ -2,8 +2,9 @@
 #![cfg(feature = "plan")]
 
 use entrain::plan::{
-    Budget, Infeasibility, Law, MIN_GAIN_MARGIN, Model, PlanError, Spread, Topology,
-    continuous_coherence, mode_variance, phase_jitter, settle, stability, tune, tune_topology,
+    Budget, Infeasibility, Law, MIN_GAIN_MARGIN, Margins, Model, PlanError, Search, Spread,
+    Topology, continuous_coherence, mode_variance, phase_jitter, predicted_lock_s, settle,
+    stability, tune, tune_topology,
 };
 use nalgebra::{DMatrix, DVector};
 
@@ -65,17 +66,34 @@ fn string_budget(budget_s: f64, ppm: f64) -> Budget {
             tolerance_s: 1e-5,
         },
         crystal_tolerance_ppm: ppm,
+        margins: Margins::default(),
     }
+}
+
+/// The predicted lock time as the tuner defines it.
+fn lock(_: &Model, s: &entrain::plan::Settling) -> f64 {
+    predicted_lock_s(s)
 }
 
 #[test]
 fn tuner_recommends_gains_that_meet_the_budget() {
     let t = Topology::Chain { nodes: 16 };
     let template = Model::p_only(Law::Sine, 0.1, 0.1, 1e-3);
-    let tuning = tune_topology(&template, &t, &string_budget(600.0, 20.0)).unwrap();
+    let tuning = tune_topology(
+        &template,
+        &t,
+        &string_budget(600.0, 20.0),
+        Search::Kp { ki: 0.0 },
+        &mut lock,
+    )
+    .unwrap();
     assert!(tuning.feasible && tuning.infeasibility.is_none());
     let r = tuning.recommended.unwrap();
-    let (lo, hi) = tuning.kp_range.unwrap();
+    let (lo, hi) = tuning.meeting_budget_and_margins.kp.unwrap();
+    // The ranges say what they are: a P-law search sweeps kp alone.
+    assert!(tuning.meeting_budget_and_margins.ki_over_kp.is_none());
+    let (blo, bhi) = tuning.meeting_budget.kp.unwrap();
+    assert!(blo <= lo && hi <= bhi);
     assert!(lo <= r.kp && r.kp <= hi);
     // Re-check the recommendation with the independent entry points.
     let m = Model {
@@ -96,7 +114,14 @@ fn tuner_recommends_gains_that_meet_the_budget() {
 fn tuner_explains_a_short_budget() {
     let t = Topology::Chain { nodes: 64 };
     let template = Model::p_only(Law::Sine, 0.1, 0.1, 1e-3);
-    let tuning = tune_topology(&template, &t, &string_budget(5.0, 20.0)).unwrap();
+    let tuning = tune_topology(
+        &template,
+        &t,
+        &string_budget(5.0, 20.0),
+        Search::Kp { ki: 0.0 },
+        &mut lock,
+    )
+    .unwrap();
     assert!(!tuning.feasible);
     assert_eq!(tuning.infeasibility, Some(Infeasibility::BudgetTooShort));
     let fastest = tuning.fastest.unwrap().lock_s;
@@ -118,7 +143,14 @@ fn tuner_explains_a_short_budget() {
 fn tuner_reports_cannot_lock_and_pi_trims() {
     let t = Topology::Chain { nodes: 16 };
     let template = Model::p_only(Law::Sine, 0.1, 0.1, 1e-3);
-    let tuning = tune_topology(&template, &t, &string_budget(600.0, 5e4)).unwrap();
+    let tuning = tune_topology(
+        &template,
+        &t,
+        &string_budget(600.0, 5e4),
+        Search::Kp { ki: 0.0 },
+        &mut lock,
+    )
+    .unwrap();
     assert_eq!(tuning.infeasibility, Some(Infeasibility::CannotLock));
     // The PI law needs no lock capacity, only trims.
     let pi = Model {
@@ -126,12 +158,23 @@ fn tuner_reports_cannot_lock_and_pi_trims() {
         trim_limit_ppm: 200.0,
         ..template
     };
-    let ok = tune_topology(&pi, &t, &string_budget(600.0, 50.0)).unwrap();
+    let ok = tune_topology(
+        &pi,
+        &t,
+        &string_budget(600.0, 50.0),
+        Search::Both,
+        &mut lock,
+    )
+    .unwrap();
     assert!(ok.feasible, "{ok:?}");
     let r = ok.recommended.unwrap();
     assert!(r.ki > 0.0 && r.ki < r.kp);
-    let (klo, khi) = ok.ki_range.unwrap();
-    assert!(klo <= r.ki && r.ki <= khi);
+    let (klo, khi) = ok.meeting_budget_and_margins.ki_over_kp.unwrap();
+    let ratio = r.ki / r.kp;
+    assert!(
+        klo <= ratio * 1.001 && ratio <= khi * 1.001,
+        "{klo} {ratio} {khi}"
+    );
 }
 
 #[test]
@@ -139,21 +182,39 @@ fn tuner_bad_inputs_are_errors() {
     let sp = Topology::Chain { nodes: 5 }.spectrum().unwrap();
     let m = Model::p_only(Law::Sine, 0.1, 0.1, 1e-3);
     assert!(matches!(
-        tune(&m, &sp, None, &string_budget(0.0, 1.0)),
+        tune(
+            &m,
+            &sp,
+            None,
+            &string_budget(0.0, 1.0),
+            Search::Kp { ki: 0.0 }
+        ),
         Err(PlanError::InvalidParameter { .. })
     ));
     assert!(matches!(
-        tune(&m, &sp, None, &string_budget(f64::NAN, 1.0)),
+        tune(
+            &m,
+            &sp,
+            None,
+            &string_budget(f64::NAN, 1.0),
+            Search::Kp { ki: 0.0 }
+        ),
         Err(PlanError::InvalidParameter { .. })
     ));
     assert!(matches!(
-        tune(&m, &sp, None, &string_budget(1.0, -1.0)),
+        tune(
+            &m,
+            &sp,
+            None,
+            &string_budget(1.0, -1.0),
+            Search::Kp { ki: 0.0 }
+        ),
         Err(PlanError::InvalidParameter { .. })
     ));
     let mut b = string_budget(1.0, 1.0);
     b.spread.tolerance_s = 1.0;
     assert_eq!(
-        tune(&m, &sp, None, &b),
+        tune(&m, &sp, None, &b, Search::Kp { ki: 0.0 }),
         Err(PlanError::ToleranceNotBelowSpread)
     );
     assert!(
@@ -164,7 +225,8 @@ fn tuner_bad_inputs_are_errors() {
             },
             &sp,
             None,
-            &string_budget(1.0, 1.0)
+            &string_budget(1.0, 1.0),
+            Search::Kp { ki: 0.0 }
         )
         .is_err()
     );

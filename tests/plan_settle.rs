@@ -19,7 +19,7 @@ fn spread(x: &[f64]) -> f64 {
 
 #[test]
 fn xiao_boyd_p5_two_percent_in_19_steps() {
-    // Xiao & Boyd 2004 (DESIGN.md): P5 at ε* = 0.5, ρ* = 0.809016994: 2 % in 19 steps,
+    // Xiao & Boyd 2004: P5 at ε* = 0.5, ρ* = 0.809016994: 2 % in 19 steps,
     // ⌈ln(0.02)/ln ρ⌉ (standard control practice).
     let m = Model::p_only(Law::Linear, 0.5, 0.01, 1.0);
     let s = settle(

@@ -1,4 +1,4 @@
-//! Stability, convergence factors, delay, PI and loss against the DESIGN.md table, and
+//! Stability, convergence factors, delay, PI and loss against the published closed forms (docs/design.md), and
 //! the root finder against `nalgebra`'s companion-matrix eigenvalues.
 #![cfg(feature = "plan")]
 
@@ -62,7 +62,7 @@ fn delay_bound_table() {
 
 #[test]
 fn pi_p5_table() {
-    // DESIGN.md PI row (Jury criterion; cf. Schenato & Fiorentin 2011; Carli & Zampieri
+    // PI row of docs/design.md (Jury criterion; cf. Schenato & Fiorentin 2011; Carli & Zampieri
     // 2014): P5, kp = 0.4, ki = 0.05 ⇒ ρ = 0.930758774.
     let s = Topology::Chain { nodes: 5 }.spectrum().unwrap();
     let st = stability(&model(0.4, 0.05), &s).unwrap();
@@ -239,7 +239,7 @@ proptest! {
 
     #[test]
     fn jury_agrees_with_roots(kp in 0.01f64..1.5, frac in 0.01f64..0.99, lmax in 0.5f64..6.0) {
-        // DESIGN.md PI row: Jury conditions vs the quadratic's roots on (0, λmax].
+        // PI row of docs/design.md: Jury conditions vs the quadratic's roots on (0, λmax].
         let ki = frac * kp;
         let worst = (1..=200).map(|i| mode_radius(kp, ki, 0, lmax * i as f64 / 200.0)).fold(0.0, f64::max);
         let jury = pi_jury_stable(kp, ki, lmax);

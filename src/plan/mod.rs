@@ -53,6 +53,7 @@ pub use spectrum::Spectrum;
 pub use stability::{Stability, delay_gain_bound, pi_jury_stable, stability};
 pub use topology::{MAX_NODES, Topology, tridiagonal_toeplitz_eigenvalue};
 pub use tune::{
-    Alternatives, Budget, GainChoice, Infeasibility, KP_SCAN_POINTS, MIN_GAIN_MARGIN, PI_RATIOS,
-    Tuning, tune, tune_topology,
+    Alternatives, Budget, GainChoice, GainRanges, Infeasibility, KP_SCAN_POINTS,
+    MIN_DELAY_MARGIN_UPDATES, MIN_GAIN_MARGIN, Margins, PI_RATIOS, Search, Tuning, delay_margin,
+    gain_choice, predicted_lock_s, tune, tune_topology, tune_with,
 };

@@ -23,7 +23,7 @@ pub enum Law {
 /// correction is clamped to `±slew_limit_turns`, the trim to `±trim_limit_ppm`. Neighbour
 /// values are `delay_updates` updates old, and each message arrives with probability
 /// `success_prob`. Small-signal, per Laplacian mode λ the law is
-/// `z^d (z−1)² + λ(kp(z−1) + ki) = 0` (DESIGN.md's PI row for d = 0; `ki = 0` gives the
+/// `z^d (z−1)² + λ(kp(z−1) + ki) = 0` (docs/design.md, PI row, for d = 0; `ki = 0` gives the
 /// P-only law `z^{d+1} − z^d + kp·λ = 0`).
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Model {

@@ -111,7 +111,7 @@ fn largest_root_modulus(coeffs: &[f64]) -> f64 {
 /// The mode obeys `z^d (z−1)² + λ(kp(z−1) + ki) = 0`; for `ki = 0` the root `z = 1`
 /// (the unused trim) is divided out, leaving `z^{d+1} − z^d + kp·λ = 0`. Closed forms
 /// for `d = 0`: `|1 − kp·λ|` (Xiao & Boyd 2004) and the PI quadratic
-/// `z² − (2 − kp·λ)z + (1 − kp·λ + ki·λ)` (DESIGN.md, Jury). For `d ≥ 1` the roots come
+/// `z² − (2 − kp·λ)z + (1 − kp·λ + ki·λ)` (docs/design.md, Jury criterion). For `d ≥ 1` the roots come
 /// from Durand–Kerner iteration (accurate to about 1e-12). Returns NaN for a delay above
 /// [`MAX_DELAY_UPDATES`] or non-finite input.
 pub fn mode_radius(kp: f64, ki: f64, delay_updates: u32, lambda: f64) -> f64 {

@@ -47,7 +47,7 @@ pub fn delay_gain_bound(delay_updates: u32) -> f64 {
 }
 
 /// The Jury conditions for the undelayed PI law on every mode `λ ∈ (0, lambda_max]`:
-/// `0 < ki < kp`, `(kp − ki)·λmax < 2`, `(2kp − ki)·λmax < 4` (DESIGN.md PI row).
+/// `0 < ki < kp`, `(kp − ki)·λmax < 2`, `(2kp − ki)·λmax < 4` (docs/design.md, PI row).
 pub fn pi_jury_stable(kp: f64, ki: f64, lambda_max: f64) -> bool {
     ki > 0.0 && ki < kp && (kp - ki) * lambda_max < 2.0 && (2.0 * kp - ki) * lambda_max < 4.0
 }

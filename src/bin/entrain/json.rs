@@ -1,21 +1,20 @@
 //! `--json` output: one JSON object per command, schema [`SCHEMA_VERSION`].
 //!
-//! The schema is documented in the README (section "JSON, schema version 1"). Within one schema version fields are only
+//! The schema is documented in the README (section "JSON, schema version 2"). Within one schema version fields are only
 //! ever added, never renamed or removed; a reader should ignore fields it does not know
 //! and refuse a `schema_version` greater than the one it was written for. Non-finite
 //! numbers (an unlimited margin, say) are written as `null`. Times are seconds, phase
 //! errors seconds of phase unless the key ends in `_turns`.
 
-use super::assess::Prediction;
-use super::report::{CAUTION, PHASE_ERROR_NOTE, infeasibility_code};
-use super::scenario::{Gains, Network, Scenario};
-use super::{CheckResult, SpectrumResult, TuneResult, Warning};
-use crate::plan::{GainChoice, Topology, Tuning};
+use crate::report::{CAUTION, PHASE_ERROR_NOTE, infeasibility, infeasibility_code};
+use entrain::assess::{Assessment, NetworkModel, Prediction, Warning};
+use entrain::plan::{GainChoice, GainRanges, Search, Topology, Tuning};
+use entrain::scenario::{GainSetting, Layout, SCENARIO_VERSION, Scenario, law_keyword};
 use serde_json::{Map, Value, json};
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
 /// Version of the JSON schema this build writes.
-pub const SCHEMA_VERSION: u32 = 1;
+pub const SCHEMA_VERSION: u32 = 2;
 
 fn num(x: f64) -> Value {
     if x.is_finite() { json!(x) } else { Value::Null }
@@ -40,32 +39,34 @@ fn envelope(command: &str, scenario: &Scenario) -> Map<String, Value> {
 }
 
 fn scenario_json(s: &Scenario) -> Value {
-    let (rows, cols) = match s.network {
-        Network::Topology(Topology::Grid { rows, cols } | Topology::Torus { rows, cols }) => {
+    let (rows, cols) = match s.layout {
+        Layout::Topology(Topology::Grid { rows, cols } | Topology::Torus { rows, cols }) => {
             (json!(rows), json!(cols))
         }
         _ => (Value::Null, Value::Null),
     };
-    let (gains_mode, kp, ki) = match s.gains {
-        Gains::Fixed { kp, ki } => ("fixed", num(kp), num(ki)),
-        Gains::Tune { pi: true } => ("tune_pi", Value::Null, Value::Null),
-        Gains::Tune { pi: false } => ("tune_p", Value::Null, Value::Null),
+    let gain = |g: GainSetting| match g {
+        GainSetting::Fixed(v) => num(v),
+        GainSetting::Tune => json!("tune"),
     };
     json!({
         "file": s.path.display().to_string(),
         "name": s.name,
-        "version": super::scenario::SCENARIO_VERSION,
-        "topology": s.network.keyword(),
-        "nodes": s.network.node_count(),
+        "version": SCENARIO_VERSION,
+        "topology": s.layout.keyword(),
+        "nodes": s.layout.node_count(),
         "rows": rows,
         "cols": cols,
         "update_rate_hz": num(s.update_rate_hz),
         "phase_period_s": num(s.phase_period_s),
         "timer_hz": s.timer_hz,
-        "coupling": s.coupling.keyword(),
-        "gains": gains_mode,
-        "kp": kp,
-        "ki": ki,
+        "coupling": law_keyword(s.law),
+        "kp": gain(s.gains.kp),
+        "ki": gain(s.gains.ki),
+        "margins": {
+            "gain": num(s.margins.gain),
+            "delay_updates": s.margins.delay_updates,
+        },
         "slew_limit_turns": num(s.slew_limit_turns),
         "trim_limit_ppm": num(s.trim_limit_ppm),
         "neighbour_timeout_updates": s.neighbour_timeout_updates,
@@ -83,7 +84,7 @@ fn scenario_json(s: &Scenario) -> Value {
     })
 }
 
-fn spectrum_json(r: &super::assess::Shape) -> Value {
+fn spectrum_json(r: &NetworkModel) -> Value {
     let sp = &r.spectrum;
     json!({
         "source": r.source.keyword(),
@@ -134,8 +135,8 @@ fn prediction_json(p: &Prediction) -> Value {
     let c = &p.constants;
     json!({
         "gains": {
-            "kp": num(p.kp),
-            "ki": num(p.ki),
+            "kp": num(p.kp()),
+            "ki": num(p.ki()),
             "kp_q16": c.kp_q16,
             "ki_q16": c.ki_q16,
         },
@@ -150,6 +151,12 @@ fn prediction_json(p: &Prediction) -> Value {
             "gain_margin": num(st.gain_margin),
             "kp_limit": num(st.kp_limit),
             "delay_limit_updates": st.delay_limit_updates,
+        },
+        "margins": {
+            "gain": num(p.margins.gain),
+            "gain_required": num(p.margins.required.gain),
+            "delay_updates": p.margins.delay_updates,
+            "delay_updates_required": p.margins.required.delay_updates,
         },
         "settling": settling,
         "locking": locking,
@@ -168,14 +175,14 @@ fn constants_json(p: &Prediction) -> Value {
         "slew_limit_counts": c.slew_limit_counts,
         "trim_limit_ppb": c.trim_limit_ppb,
         "timeout_ticks": c.timeout_ticks,
-        "law": match c.law { crate::Law::Linear => "linear", _ => "sine" },
+        "law": law_keyword(c.law),
     })
 }
 
 fn warnings_json(list: &[Warning]) -> Value {
     Value::Array(
         list.iter()
-            .map(|w| json!({ "code": w.code, "message": w.message }))
+            .map(|w| json!({ "code": w.code(), "message": w.to_string() }))
             .collect(),
     )
 }
@@ -189,18 +196,35 @@ fn choice_json(c: &Option<GainChoice>) -> Value {
             "gain_margin": num(c.gain_margin),
             "delay_margin_updates": c.delay_margin_updates,
             "locks": c.locking.map(|l| l.locks),
+            "meets_budget": c.meets_budget,
+            "meets_margins": c.meets_margins,
         })
     })
 }
 
-fn tuning_json(t: &Tuning) -> Value {
+fn ranges_json(r: &GainRanges) -> Value {
     let range = |r: Option<(f64, f64)>| r.map_or(Value::Null, |(a, b)| json!([num(a), num(b)]));
     json!({
+        "kp": range(r.kp),
+        "ki": range(r.ki),
+        "ki_over_kp": range(r.ki_over_kp),
+    })
+}
+
+fn tuning_json(t: &Tuning) -> Value {
+    let search = match t.search {
+        Search::Kp { .. } => "kp",
+        Search::Ki { .. } => "ki",
+        Search::Both => "kp_and_ki",
+    };
+    json!({
+        "tuned": search,
         "feasible": t.feasible,
         "infeasibility": t.infeasibility.map(infeasibility_code),
-        "kp_range": range(t.kp_range),
-        "ki_range": range(t.ki_range),
+        "meeting_budget": ranges_json(&t.meeting_budget),
+        "meeting_budget_and_margins": ranges_json(&t.meeting_budget_and_margins),
         "recommended": choice_json(&t.recommended),
+        "closest": choice_json(&t.closest),
         "fastest": choice_json(&t.fastest),
         "alternatives": {
             "update_rate_factor": num(t.alternatives.update_rate_factor),
@@ -210,36 +234,29 @@ fn tuning_json(t: &Tuning) -> Value {
     })
 }
 
-fn check_map(r: &CheckResult, command: &str) -> Map<String, Value> {
+fn verdict_json(a: &Assessment) -> Value {
+    json!({
+        "pass": a.verdict.pass,
+        "reasons": a.verdict.reasons.iter().map(|x| json!({
+            "code": x.code(),
+            "message": x.to_string(),
+        })).collect::<Vec<_>>(),
+    })
+}
+
+fn check_map(r: &Assessment, command: &str) -> Map<String, Value> {
     let mut m = envelope(command, &r.scenario);
-    let budget = r.scenario.lock_budget_s;
-    m.insert(
-        "verdict".into(),
-        json!({
-            "pass": r.verdict.pass,
-            "reasons": r.verdict.reasons.iter().map(|x| json!({
-                "code": x.code(),
-                "message": x.message(budget),
-            })).collect::<Vec<_>>(),
-        }),
-    );
-    m.insert("spectrum".into(), spectrum_json(&r.shape));
-    m.insert(
-        "gains_source".into(),
-        json!(if r.chosen.tuning.is_some() {
-            "tuned"
-        } else {
-            "scenario"
-        }),
-    );
+    m.insert("verdict".into(), verdict_json(r));
+    m.insert("spectrum".into(), spectrum_json(&r.network));
+    m.insert("gains_source".into(), json!(r.gains.source.keyword()));
     m.insert(
         "tuning".into(),
-        r.chosen.tuning.as_ref().map_or(Value::Null, tuning_json),
+        r.gains.tuning.as_ref().map_or(Value::Null, tuning_json),
     );
     m.insert("prediction".into(), prediction_json(&r.prediction));
-    let sim = r.verification.as_ref().map_or(Value::Null, |v| {
+    let sim = r.simulation.as_ref().map_or(Value::Null, |v| {
         let s = &v.summary;
-        let pct = |p: Option<crate::sim::Percentiles>| {
+        let pct = |p: Option<entrain::sim::Percentiles>| {
             p.map_or(Value::Null, |p| {
                 json!({ "p50": num(p.p50), "p90": num(p.p90), "p99": num(p.p99), "max": num(p.max) })
             })
@@ -256,6 +273,7 @@ fn check_map(r: &CheckResult, command: &str) -> Map<String, Value> {
             "residual_turns": opt(s.residual_turns),
             "residual_link_turns": opt(s.residual_link_turns),
             "jitter_turns": opt(s.jitter_turns),
+            "neighbour_updates": s.neighbour_updates,
         })
     });
     m.insert("simulation".into(), sim);
@@ -267,13 +285,13 @@ fn check_map(r: &CheckResult, command: &str) -> Map<String, Value> {
 
 /// JSON of `check`.
 #[must_use]
-pub fn check(r: &CheckResult, command: &str) -> String {
+pub fn check(r: &Assessment, command: &str) -> String {
     pretty(&Value::Object(check_map(r, command)))
 }
 
 /// JSON of `simulate`: the check object plus the plots written.
 #[must_use]
-pub fn simulate(r: &CheckResult, plots: &[PathBuf]) -> String {
+pub fn simulate(r: &Assessment, plots: &[PathBuf]) -> String {
     let mut m = check_map(r, "simulate");
     m.insert(
         "plots".into(),
@@ -287,45 +305,43 @@ pub fn simulate(r: &CheckResult, plots: &[PathBuf]) -> String {
     pretty(&Value::Object(m))
 }
 
-/// JSON of `tune`.
+/// JSON of `tune`: the verdict at the tuned gains (prediction only), the tuner's answer,
+/// and the constants file written. With nothing to tune it is the `check` object.
 #[must_use]
-pub fn tune(r: &TuneResult) -> String {
-    let mut m = envelope("tune", &r.scenario);
-    m.insert(
-        "verdict".into(),
-        json!({ "pass": r.tuning.feasible, "reasons": match r.tuning.infeasibility {
-            Some(i) => vec![json!({ "code": infeasibility_code(i), "message": super::report::infeasibility(i) })],
-            None => vec![],
-        }}),
-    );
-    m.insert("spectrum".into(), spectrum_json(&r.shape));
-    m.insert("tuning".into(), tuning_json(&r.tuning));
-    m.insert(
-        "prediction".into(),
-        r.prediction.as_ref().map_or(Value::Null, prediction_json),
-    );
+pub fn tune(r: &Assessment, written: Option<&Path>) -> String {
+    let mut m = check_map(r, "tune");
+    if let Some(t) = &r.gains.tuning {
+        if let (Some(i), Value::Object(v)) = (
+            t.infeasibility,
+            m.get_mut("verdict").unwrap_or(&mut Value::Null),
+        ) {
+            v.insert(
+                "tuning".into(),
+                json!({ "code": infeasibility_code(i), "message": infeasibility(i, &r.scenario) }),
+            );
+        }
+    }
     m.insert(
         "firmware_constants_file".into(),
-        r.written
-            .as_ref()
-            .map_or(Value::Null, |p| json!(p.display().to_string())),
+        written.map_or(Value::Null, |p| json!(p.display().to_string())),
     );
-    m.insert("caution".into(), json!(CAUTION));
     pretty(&Value::Object(m))
 }
 
 /// JSON of `spectrum`.
 #[must_use]
-pub fn spectrum(r: &SpectrumResult) -> String {
-    let mut m = envelope("spectrum", &r.scenario);
-    m.insert("spectrum".into(), spectrum_json(&r.shape));
+pub fn spectrum(scenario: &Scenario, network: &NetworkModel) -> String {
+    let mut m = envelope("spectrum", scenario);
+    m.insert("spectrum".into(), spectrum_json(network));
     m.insert(
         "eigenvalues".into(),
-        Value::Array(r.modes.eigenvalues.iter().map(|v| num(*v)).collect()),
+        network.eigenvalues.as_ref().map_or(Value::Null, |e| {
+            Value::Array(e.iter().map(|v| num(*v)).collect())
+        }),
     );
     m.insert(
         "slow_mode".into(),
-        Value::Array(r.modes.slow_mode.iter().map(|v| num(*v)).collect()),
+        Value::Array(network.slow_mode.iter().map(|v| num(*v)).collect()),
     );
     pretty(&Value::Object(m))
 }

@@ -4,6 +4,7 @@
 //! Each function draws figures it is handed; it computes nothing but axis ranges and
 //! histogram bins.
 
+use entrain::assess::seconds;
 use plotters::prelude::*;
 use std::path::Path;
 
@@ -329,23 +330,4 @@ pub fn mode_shape(path: &Path, title: &str, shape: &[f64]) -> Result<(), PlotErr
         .map_err(|e| fail(e.to_string()))?;
     root.present().map_err(|e| fail(e.to_string()))?;
     Ok(())
-}
-
-/// A duration in seconds with a readable unit (`1.5 ms`, `12.0 s`).
-#[must_use]
-pub fn seconds(s: f64) -> String {
-    let a = s.abs();
-    if !s.is_finite() {
-        "never".to_owned()
-    } else if a == 0.0 {
-        "0 s".to_owned()
-    } else if a < 1e-6 {
-        format!("{:.3} ns", s * 1e9)
-    } else if a < 1e-3 {
-        format!("{:.3} µs", s * 1e6)
-    } else if a < 1.0 {
-        format!("{:.3} ms", s * 1e3)
-    } else {
-        format!("{s:.3} s")
-    }
 }

@@ -1,11 +1,11 @@
 //! The human report: verdict first, then margins, then the figures behind them, then
 //! warnings and the caution. Aligned columns, a unit on every figure.
 
-use super::plot::seconds;
-use super::{CheckResult, SpectrumResult, TuneResult, Warning};
-use crate::plan::{GainChoice, Infeasibility};
+use entrain::assess::{Assessment, GainsSource, NetworkModel, Warning, seconds};
+use entrain::plan::{GainChoice, GainRanges, Infeasibility, Search, Tuning};
+use entrain::scenario::{SCENARIO_VERSION, Scenario, law_keyword};
 use std::fmt::Write as _;
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
 /// The caution every report ends with.
 pub const CAUTION: &str = "Caution: this answer is an engineering aid, not a safety case. Where machinery is driven by these clocks, local codes and qualified review decide whether a deployment is safe.";
@@ -13,7 +13,7 @@ pub const CAUTION: &str = "Caution: this answer is an engineering aid, not a saf
 /// How phase error is measured, stated in every report.
 pub const PHASE_ERROR_NOTE: &str = "Phase error here is the largest pairwise wrapped phase difference between any two nodes (for a pinned chain: the largest offset from the reference), in seconds of phase.";
 
-const LABEL: usize = 30;
+const LABEL: usize = 34;
 const VALUE: usize = 32;
 
 fn row(s: &mut String, label: &str, value: &str, note: &str) {
@@ -29,13 +29,12 @@ fn heading(s: &mut String, title: &str) {
     let _ = writeln!(s, "{title}");
 }
 
-fn header(s: &mut String, command: &str, r: &super::scenario::Scenario) {
+fn header(s: &mut String, command: &str, r: &Scenario) {
     let _ = writeln!(s, "entrain {command}: {}", r.name);
     let _ = writeln!(
         s,
-        "scenario {} (version {})",
-        r.path.display(),
-        super::scenario::SCENARIO_VERSION
+        "scenario {} (version {SCENARIO_VERSION})",
+        r.path.display()
     );
 }
 
@@ -73,7 +72,7 @@ fn warnings(s: &mut String, list: &[Warning]) {
         let _ = writeln!(s, "  none");
     }
     for w in list {
-        let _ = writeln!(s, "  - {}", w.message);
+        let _ = writeln!(s, "  - {w}");
     }
 }
 
@@ -85,61 +84,86 @@ fn closing(s: &mut String) {
 
 /// The report of `check` (and of `simulate`, which shares it), under `command`'s name.
 #[must_use]
-pub fn check(r: &CheckResult, command: &str) -> String {
+pub fn check(r: &Assessment, command: &str) -> String {
     let sc = &r.scenario;
-    let p = &r.prediction;
     let mut s = String::new();
     header(&mut s, command, sc);
     let _ = writeln!(s);
+    verdict(&mut s, r);
+    margins(&mut s, r);
+    figures(&mut s, r);
+    if let Some(t) = &r.gains.tuning {
+        tuning(&mut s, t, sc);
+    }
+    warnings(&mut s, &r.warnings);
+    closing(&mut s);
+    s
+}
+
+fn verdict(s: &mut String, r: &Assessment) {
+    let sc = &r.scenario;
     if r.verdict.pass {
-        let how = if r.verification.is_some() {
+        let how = if r.simulation.is_some() {
             "predicted and simulated"
         } else {
             "predicted"
         };
         let _ = writeln!(
             s,
-            "VERDICT: PASS  stable, locks, and {how} lock fits the {} budget",
+            "VERDICT: PASS  stable, locks, margins met, and {how} lock fits the {} budget",
             seconds(sc.lock_budget_s)
         );
     } else {
         let _ = writeln!(s, "VERDICT: FAIL");
         for reason in &r.verdict.reasons {
-            let _ = writeln!(s, "  - {}", reason.message(sc.lock_budget_s));
+            let _ = writeln!(s, "  - {reason}");
         }
     }
+}
 
-    heading(&mut s, "Margins");
+fn margins(s: &mut String, r: &Assessment) {
+    let sc = &r.scenario;
+    let p = &r.prediction;
+    heading(s, "Margins");
     let st = &p.stability;
+    let m = &p.margins;
     row(
-        &mut s,
+        s,
         "gain margin",
-        &ratio(st.gain_margin),
-        "factor both gains may grow by before a mode stops decaying",
+        &ratio(m.gain),
+        &format!(
+            "required {} ({}): factor both gains may grow by before a mode stops decaying",
+            ratio(m.required.gain),
+            if m.gain_ok() { "met" } else { "NOT met" }
+        ),
     );
     row(
-        &mut s,
+        s,
         "largest stable kp",
         &format!("{:.6}", st.kp_limit),
         "at this ki/kp ratio and delay",
     );
     match st.delay_limit_updates {
-        Some(d) => row(
-            &mut s,
+        Some(d) if st.stable => row(
+            s,
             "delay margin",
-            &updates(i64::from(d) - i64::from(sc.delay_updates())),
-            &format!("extra link delay tolerated (stable up to {d} updates)"),
+            &updates(i64::from(m.delay_updates)),
+            &format!(
+                "required {} ({}): extra link delay tolerated (stable up to {d} updates)",
+                updates(i64::from(m.required.delay_updates)),
+                if m.delay_ok() { "met" } else { "NOT met" }
+            ),
         ),
-        None => row(
-            &mut s,
+        _ => row(
+            s,
             "delay margin",
             "none",
-            "unstable even without delay",
+            "unstable at the scenario's own delay",
         ),
     }
     if let Some(l) = &p.locking {
         row(
-            &mut s,
+            s,
             "lock margin",
             &ratio(l.lock_margin),
             "edge coupling capacity over worst crystal load",
@@ -147,36 +171,44 @@ pub fn check(r: &CheckResult, command: &str) -> String {
     }
     if let Some(lock_s) = p.lock_s {
         row(
-            &mut s,
+            s,
             "budget left, predicted",
             &seconds(sc.lock_budget_s - lock_s),
             "budget minus predicted lock time",
         );
     }
-    if let Some(v) = &r.verification {
+    if let Some(v) = &r.simulation {
         if let Some(pc) = v.summary.lock_s {
             row(
-                &mut s,
+                s,
                 "budget left, simulated",
                 &seconds(sc.lock_budget_s - pc.max),
                 &format!("budget minus the slowest of {} runs", v.summary.runs),
             );
         }
     }
+}
 
-    heading(&mut s, "Figures");
-    row(&mut s, "network", &sc.network.describe(), "");
+fn figures(s: &mut String, r: &Assessment) {
+    let sc = &r.scenario;
+    let p = &r.prediction;
+    let st = &p.stability;
+    heading(s, "Figures");
+    row(s, "network", &sc.layout.describe(), "");
     row(
-        &mut s,
-        &format!("spectrum ({})", r.shape.source.keyword().replace('_', " ")),
+        s,
+        &format!(
+            "spectrum ({})",
+            r.network.source.keyword().replace('_', " ")
+        ),
         &format!(
             "λslow {:.6}, λmax {:.6}",
-            r.shape.spectrum.lambda_slow, r.shape.spectrum.lambda_max
+            r.network.spectrum.lambda_slow, r.network.spectrum.lambda_max
         ),
         "",
     );
     row(
-        &mut s,
+        s,
         "timing",
         &format!(
             "{} Hz updates, {} phase turn, {} Hz timer",
@@ -186,30 +218,29 @@ pub fn check(r: &CheckResult, command: &str) -> String {
         ),
         "",
     );
-    let source = if r.chosen.tuning.is_some() {
-        "gains (tuned, as flashed)"
-    } else {
-        "gains (as flashed)"
+    let source = match r.gains.source {
+        GainsSource::Tuned => "gains (tuned, as flashed)",
+        GainsSource::Scenario => "gains (as flashed)",
     };
     row(
-        &mut s,
+        s,
         source,
-        &gain_text(p.kp, p.ki, p.constants.kp_q16, p.constants.ki_q16),
+        &gain_text(p.kp(), p.ki(), p.constants.kp_q16, p.constants.ki_q16),
         "",
     );
     row(
-        &mut s,
+        s,
         "law",
         &format!(
             "{} coupling, slew limit {:.6} turn, trim limit ±{}",
-            sc.coupling.keyword(),
+            law_keyword(sc.law),
             p.constants.slew_limit_turns(),
             ppm(sc.trim_limit_ppm)
         ),
         "",
     );
     row(
-        &mut s,
+        s,
         "link",
         &format!(
             "latency {} ({} updates), loss {:.1} %, timestamp jitter ±{}",
@@ -221,7 +252,7 @@ pub fn check(r: &CheckResult, command: &str) -> String {
         "",
     );
     row(
-        &mut s,
+        s,
         "convergence per update",
         &format!("{:.6}", st.radius),
         &format!(
@@ -231,7 +262,7 @@ pub fn check(r: &CheckResult, command: &str) -> String {
     );
     if sc.loss_fraction > 0.0 {
         row(
-            &mut s,
+            s,
             "convergence with loss",
             &format!("{:.6}", st.mean_radius_with_loss),
             &format!("mean dynamics, {:.2} × slower", st.loss_slowdown),
@@ -239,7 +270,7 @@ pub fn check(r: &CheckResult, command: &str) -> String {
     }
     if let Some(se) = &p.settling {
         row(
-            &mut s,
+            s,
             "spread to tolerance",
             &format!(
                 "{} → {}",
@@ -250,34 +281,29 @@ pub fn check(r: &CheckResult, command: &str) -> String {
         );
         if let Some(lock_s) = p.lock_s {
             row(
-                &mut s,
+                s,
                 "predicted lock time",
                 &seconds(lock_s),
-                "larger of worst-case bound and with-loss estimate",
+                "worst-case bound × loss slow-down",
             );
         }
-        row(
-            &mut s,
-            "  slowest-mode estimate",
-            &seconds(se.asymptotic_s),
-            "",
-        );
+        row(s, "  slowest-mode estimate", &seconds(se.asymptotic_s), "");
         if let Some(b) = se.bound_s {
-            row(&mut s, "  worst-case bound", &seconds(b), "");
+            row(s, "  worst-case bound", &seconds(b), "");
         }
         if sc.loss_fraction > 0.0 {
-            row(&mut s, "  with message loss", &seconds(se.with_loss_s), "");
+            row(s, "  with message loss", &seconds(se.with_loss_s), "");
         }
         if let Some(sine) = se.sine_s {
             row(
-                &mut s,
+                s,
                 "  sine, large spread",
                 &seconds(sine),
                 "slowest mode with the sine's weaker pull far from lock",
             );
         }
         row(
-            &mut s,
+            s,
             "  slew-limit floor",
             &seconds(se.slew_floor_updates as f64 * sc.update_period_s()),
             "no lock can come sooner",
@@ -285,14 +311,14 @@ pub fn check(r: &CheckResult, command: &str) -> String {
     }
     if let Some(l) = &p.locking {
         row(
-            &mut s,
+            s,
             "worst crystal pattern",
             &format!("±{}", ppm(sc.crystal_tolerance_ppm)),
             if l.locks { "held" } else { "NOT held" },
         );
-        if p.ki > 0.0 {
+        if p.ki() > 0.0 {
             row(
-                &mut s,
+                s,
                 "  rate trims needed",
                 &format!("{} to {}", ppm(l.trim_min_ppm), ppm(l.trim_max_ppm)),
                 &format!(
@@ -303,13 +329,13 @@ pub fn check(r: &CheckResult, command: &str) -> String {
             );
         } else {
             row(
-                &mut s,
+                s,
                 "  steady offset, worst edge",
                 &seconds(l.max_offset_s),
                 "the P law holds drift with a standing offset",
             );
             row(
-                &mut s,
+                s,
                 "  steady correction",
                 &format!("{:.3e} turn/update", l.max_correction_turns_per_update),
                 if l.slew_ok {
@@ -322,17 +348,17 @@ pub fn check(r: &CheckResult, command: &str) -> String {
     }
     if let Some(n) = &p.noise {
         row(
-            &mut s,
+            s,
             "steady jitter",
             &format!("{} rms", seconds(n.phase_sd_s)),
             "from timestamp jitter, per node about the mean",
         );
     }
-    match &r.verification {
+    match &r.simulation {
         Some(v) => {
             let sm = &v.summary;
             row(
-                &mut s,
+                s,
                 "simulated runs",
                 &format!("{} of {} locked", sm.locked_runs, sm.runs),
                 &format!(
@@ -343,7 +369,7 @@ pub fn check(r: &CheckResult, command: &str) -> String {
             );
             if let Some(pc) = sm.lock_s {
                 row(
-                    &mut s,
+                    s,
                     "simulated lock time",
                     &format!("p50 {}, p90 {}", seconds(pc.p50), seconds(pc.p90)),
                     &format!("p99 {}, max {}", seconds(pc.p99), seconds(pc.max)),
@@ -351,7 +377,7 @@ pub fn check(r: &CheckResult, command: &str) -> String {
             }
             if let Some(res) = sm.residual_turns {
                 row(
-                    &mut s,
+                    s,
                     "simulated residual",
                     &seconds(res * sc.phase_period_s),
                     "median largest pairwise difference after lock",
@@ -359,24 +385,18 @@ pub fn check(r: &CheckResult, command: &str) -> String {
             }
             if let Some(j) = sm.jitter_turns {
                 row(
-                    &mut s,
+                    s,
                     "simulated jitter",
                     &format!("{} rms", seconds(j * sc.phase_period_s)),
                     "median over locked runs",
                 );
             }
         }
-        None => row(&mut s, "simulated runs", "not run", ""),
+        None => row(s, "simulated runs", "not run", ""),
     }
-    if let Some(t) = &r.chosen.tuning {
-        alternatives(&mut s, t, sc.lock_budget_s);
-    }
-    warnings(&mut s, &r.warnings);
-    closing(&mut s);
-    s
 }
 
-fn alternatives(s: &mut String, t: &crate::plan::Tuning, budget_s: f64) {
+fn alternatives(s: &mut String, t: &Tuning, budget_s: f64) {
     let a = &t.alternatives;
     if a.update_rate_factor.is_finite() && a.update_rate_factor > 1.0 {
         row(
@@ -406,20 +426,23 @@ fn alternatives(s: &mut String, t: &crate::plan::Tuning, budget_s: f64) {
 
 /// Why the tuner found nothing, in words.
 #[must_use]
-pub fn infeasibility(i: Infeasibility) -> &'static str {
+pub fn infeasibility(i: Infeasibility, scenario: &Scenario) -> String {
     match i {
         Infeasibility::CannotLock => {
-            "no stable gains hold lock against the worst crystal pattern (or the slew limit is too tight)"
+            "no stable gains hold lock against the worst crystal pattern (or the slew limit is too tight)".to_owned()
         }
         Infeasibility::TrimOutOfRange => {
-            "the PI law would need rate trims beyond law.trim_limit_ppm"
+            "the PI law would need rate trims beyond law.trim_limit_ppm".to_owned()
         }
         Infeasibility::BudgetTooShort => {
-            "even the fastest stable, locking gains take longer than the budget"
+            "even the fastest stable, locking gains take longer than the budget".to_owned()
         }
-        Infeasibility::MarginTooSmall => {
-            "gains that meet the budget exist, but none with gain margin 2 and one update of delay margin"
-        }
+        Infeasibility::MarginTooSmall => format!(
+            "gains that meet the budget exist, but none with gain margin {} and {} of delay margin (margins.gain, margins.delay_updates)",
+            ratio(scenario.margins.gain),
+            updates(i64::from(scenario.margins.delay_updates))
+        ),
+        _ => "no gains meet the budget with the margins".to_owned(),
     }
 }
 
@@ -431,6 +454,7 @@ pub fn infeasibility_code(i: Infeasibility) -> &'static str {
         Infeasibility::TrimOutOfRange => "trim_out_of_range",
         Infeasibility::BudgetTooShort => "budget_too_short",
         Infeasibility::MarginTooSmall => "margin_too_small",
+        _ => "infeasible",
     }
 }
 
@@ -448,144 +472,132 @@ fn choice_rows(s: &mut String, label: &str, c: &GainChoice) {
     );
 }
 
-/// The report of `tune`.
-#[must_use]
-pub fn tune(r: &TuneResult) -> String {
-    let sc = &r.scenario;
-    let t = &r.tuning;
-    let mut s = String::new();
-    header(&mut s, "tune", sc);
-    let _ = writeln!(s);
-    match (&t.recommended, &r.prediction) {
-        (Some(_), Some(p)) => {
-            let _ = writeln!(
-                s,
-                "VERDICT: PASS  gains found that lock within the {} budget with margins",
-                seconds(sc.lock_budget_s)
-            );
-            heading(&mut s, "Gains to flash");
-            row(
-                &mut s,
-                "kp",
-                &format!("{:.6}", p.kp),
-                &format!("Q16.16 raw {}", p.constants.kp_q16),
-            );
-            row(
-                &mut s,
-                "ki",
-                &format!("{:.6}", p.ki),
-                &format!("Q16.16 raw {}", p.constants.ki_q16),
-            );
-            row(
-                &mut s,
-                "slew limit",
-                &format!("{} counts", p.constants.slew_limit_counts),
-                &format!("{:.6} turn per update", p.constants.slew_limit_turns()),
-            );
-            row(
-                &mut s,
-                "ticks per turn / per update",
-                &format!(
-                    "{} / {}",
-                    p.constants.ticks_per_period, p.constants.update_ticks
-                ),
-                &format!("{} Hz timer", sc.timer_hz),
-            );
-            match &r.written {
-                Some(path) => row(
-                    &mut s,
-                    "firmware constants",
-                    &path.display().to_string(),
-                    "include! it; CONFIG is checked at compile time",
-                ),
-                None => row(
-                    &mut s,
-                    "firmware constants",
-                    "not written",
-                    "pass --out FILE to write them",
-                ),
-            }
-            heading(&mut s, "Margins");
-            row(
-                &mut s,
-                "gain margin",
-                &ratio(p.stability.gain_margin),
-                "at the gains as flashed",
-            );
-            if let Some(lock_s) = p.lock_s {
-                row(
-                    &mut s,
-                    "budget left, predicted",
-                    &seconds(sc.lock_budget_s - lock_s),
-                    &format!("predicted lock time {}", seconds(lock_s)),
-                );
-            }
-        }
-        _ => {
-            let _ = writeln!(s, "VERDICT: FAIL");
-            let why = t
-                .infeasibility
-                .map_or("no gains meet the budget", infeasibility);
-            let _ = writeln!(s, "  - {why}");
-            if r.written.is_none() {
-                let _ = writeln!(s, "  - no firmware constants written");
-            }
-        }
+fn range_rows(s: &mut String, what: &str, r: &GainRanges) {
+    let text = |(lo, hi): (f64, f64)| format!("{lo:.6} to {hi:.6}");
+    if let Some(x) = r.kp {
+        row(s, &format!("kp {what}"), &text(x), "");
     }
-    heading(&mut s, "Figures");
-    row(&mut s, "network", &sc.network.describe(), "");
-    row(
-        &mut s,
-        "spectrum",
-        &format!(
-            "λslow {:.6}, λmax {:.6}",
-            r.shape.spectrum.lambda_slow, r.shape.spectrum.lambda_max
-        ),
-        r.shape.source.keyword(),
+    if let Some(x) = r.ki {
+        row(s, &format!("ki {what}"), &text(x), "");
+    }
+    if let Some(x) = r.ki_over_kp {
+        row(s, &format!("ki/kp {what}"), &text(x), "a band of ratios");
+    }
+}
+
+fn tuning(s: &mut String, t: &Tuning, sc: &Scenario) {
+    heading(s, "Tuning");
+    let tuned = match t.search {
+        Search::Kp { ki } if ki > 0.0 => format!("kp (ki fixed at {ki:.6})"),
+        Search::Kp { .. } => "kp (P law, ki = 0)".to_owned(),
+        Search::Ki { kp } => format!("ki (kp fixed at {kp:.6})"),
+        Search::Both => "kp and ki".to_owned(),
+    };
+    row(s, "tuned", &tuned, "gains given as numbers stay as given");
+    if let Some(i) = t.infeasibility {
+        row(s, "no recommendation", &infeasibility(i, sc), "");
+    }
+    range_rows(s, "meeting the budget", &t.meeting_budget);
+    range_rows(
+        s,
+        "meeting budget and margins",
+        &t.meeting_budget_and_margins,
     );
-    if let Some((lo, hi)) = t.kp_range {
-        row(
-            &mut s,
-            "kp meeting the budget",
-            &format!("{lo:.6} to {hi:.6}"),
-            "",
-        );
-    }
-    if let Some((lo, hi)) = t.ki_range {
-        row(
-            &mut s,
-            "ki meeting the budget",
-            &format!("{lo:.6} to {hi:.6}"),
-            "",
-        );
-    }
     if let Some(c) = &t.recommended {
-        choice_rows(&mut s, "recommended (unrounded)", c);
+        choice_rows(s, "recommended", c);
+    }
+    if let Some(c) = &t.closest {
+        choice_rows(s, "closest (shown)", c);
     }
     if let Some(c) = &t.fastest {
-        choice_rows(&mut s, "fastest stable, locking", c);
+        choice_rows(s, "fastest stable, locking", c);
     }
-    alternatives(&mut s, t, sc.lock_budget_s);
-    warnings(&mut s, &[]);
+    alternatives(s, t, sc.lock_budget_s);
+}
+
+/// The report of `tune`: the check report at the tuned gains (prediction only), with the
+/// gains to flash first. With nothing to tune it is the `check` report.
+#[must_use]
+pub fn tune(r: &Assessment, written: Option<&Path>) -> String {
+    let sc = &r.scenario;
+    let p = &r.prediction;
+    let mut s = String::new();
+    header(&mut s, "tune", sc);
+    if r.gains.tuning.is_none() {
+        let _ = writeln!(
+            s,
+            "nothing in the scenario is marked \"tune\": answered as `check` would, at the file's own gains"
+        );
+    }
+    let _ = writeln!(s);
+    verdict(&mut s, r);
+    heading(&mut s, "Gains to flash");
+    row(
+        &mut s,
+        "kp",
+        &format!("{:.6}", p.kp()),
+        &format!("Q16.16 raw {}", p.constants.kp_q16),
+    );
+    row(
+        &mut s,
+        "ki",
+        &format!("{:.6}", p.ki()),
+        &format!("Q16.16 raw {}", p.constants.ki_q16),
+    );
+    row(
+        &mut s,
+        "slew limit",
+        &format!("{} counts", p.constants.slew_limit_counts),
+        &format!("{:.6} turn per update", p.constants.slew_limit_turns()),
+    );
+    row(
+        &mut s,
+        "ticks per turn / per update",
+        &format!(
+            "{} / {}",
+            p.constants.ticks_per_period, p.constants.update_ticks
+        ),
+        &format!("{} Hz timer", sc.timer_hz),
+    );
+    match written {
+        Some(path) => row(
+            &mut s,
+            "firmware constants",
+            &path.display().to_string(),
+            "include! it; CONFIG is checked at compile time",
+        ),
+        None if r.verdict.pass => row(
+            &mut s,
+            "firmware constants",
+            "not written",
+            "pass --out FILE to write them",
+        ),
+        None => row(
+            &mut s,
+            "firmware constants",
+            "not written",
+            "the verdict fails: nothing is written",
+        ),
+    }
+    margins(&mut s, r);
+    figures(&mut s, r);
+    if let Some(t) = &r.gains.tuning {
+        tuning(&mut s, t, sc);
+    }
+    warnings(&mut s, &r.warnings);
     closing(&mut s);
     s
 }
 
 /// The report of `spectrum`.
 #[must_use]
-pub fn spectrum(r: &SpectrumResult) -> String {
-    let sc = &r.scenario;
-    let sp = &r.shape.spectrum;
+pub fn spectrum(sc: &Scenario, r: &NetworkModel) -> String {
+    let sp = &r.spectrum;
     let mut s = String::new();
     header(&mut s, "spectrum", sc);
     heading(&mut s, "Summary");
-    row(&mut s, "network", &sc.network.describe(), "");
-    row(
-        &mut s,
-        "source",
-        &r.shape.source.keyword().replace('_', " "),
-        "",
-    );
+    row(&mut s, "network", &sc.layout.describe(), "");
+    row(&mut s, "source", &r.source.keyword().replace('_', " "), "");
     row(
         &mut s,
         "slowest mode λslow",
@@ -618,7 +630,7 @@ pub fn spectrum(r: &SpectrumResult) -> String {
         );
     }
     heading(&mut s, "Eigenvalues (ascending)");
-    let ev = &r.modes.eigenvalues;
+    let ev = r.eigenvalues.as_deref().unwrap_or(&[]);
     let shown: Vec<String> = if ev.len() <= 24 {
         ev.iter().map(|v| format!("{v:.6}")).collect()
     } else {
@@ -634,7 +646,7 @@ pub fn spectrum(r: &SpectrumResult) -> String {
         &mut s,
         "Slowest mode along the network (largest magnitude 1)",
     );
-    let shape = &r.modes.slow_mode;
+    let shape = &r.slow_mode;
     let step = shape.len().div_ceil(48).max(1);
     for (i, v) in shape.iter().enumerate().step_by(step) {
         let _ = writeln!(s, "  node {i:>5}  {v:>+9.4}  {}", bar(*v));

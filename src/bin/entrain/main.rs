@@ -2,7 +2,13 @@
 //! a TOML scenario file. Exit status: 0 pass, 1 verdict fail, 2 bad input or usage.
 
 use clap::{Parser, Subcommand};
-use entrain::cli::{self, Command, Format, ProgressSink};
+mod firmware;
+mod json;
+mod plot;
+mod report;
+mod run;
+
+use run::{Command, Format, ProgressSink};
 use std::io::{IsTerminal, Write};
 use std::path::PathBuf;
 use std::process::ExitCode;
@@ -91,9 +97,9 @@ fn main() -> ExitCode {
         Err(e) => {
             let _ = e.print();
             return ExitCode::from(if e.use_stderr() {
-                cli::EXIT_INPUT
+                run::EXIT_INPUT
             } else {
-                cli::EXIT_PASS
+                run::EXIT_PASS
             });
         }
     };
@@ -139,7 +145,7 @@ fn main() -> ExitCode {
     } else {
         indicatif::ProgressBar::hidden()
     };
-    match cli::run(&command, format, &Bar(bar)) {
+    match run::run(&command, format, &Bar(bar)) {
         Ok(out) => {
             let mut stdout = std::io::stdout().lock();
             // A closed pipe is not an error worth a panic.
@@ -149,7 +155,7 @@ fn main() -> ExitCode {
         }
         Err(e) => {
             eprintln!("entrain: error: {e}");
-            ExitCode::from(cli::EXIT_INPUT)
+            ExitCode::from(run::EXIT_INPUT)
         }
     }
 }

@@ -9,6 +9,8 @@
 //! version refuses a newer file outright (with a message saying which version it reads)
 //! rather than guessing at keys it does not know.
 
+use crate::Law;
+pub use crate::plan::Margins;
 use crate::plan::Topology;
 use serde::Deserialize;
 use serde::de::{self, Deserializer, Visitor};
@@ -182,6 +184,7 @@ struct RawScenario {
     clock: Option<S<RawClock>>,
     link: Option<S<RawLink>>,
     lock: S<RawLock>,
+    margins: Option<S<RawMargins>>,
     monte_carlo: Option<S<RawMonteCarlo>>,
 }
 
@@ -238,15 +241,22 @@ struct RawLock {
 
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
+struct RawMargins {
+    gain: Option<S<Real>>,
+    delay_updates: Option<S<i64>>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
 struct RawMonteCarlo {
     runs: Option<S<i64>>,
     seed: Option<S<i64>>,
     duration_s: Option<S<Real>>,
 }
 
-/// The coupling graph a scenario describes.
+/// The coupling graph a scenario describes: which node beacons to which.
 #[derive(Clone, Debug, PartialEq, Eq)]
-pub enum Network {
+pub enum Layout {
     /// One of the planner's closed-form topologies (node numbering as documented there).
     Topology(Topology),
     /// An arbitrary undirected graph read from an edge-list file.
@@ -260,13 +270,13 @@ pub enum Network {
     },
 }
 
-impl Network {
+impl Layout {
     /// Number of nodes that adjust their phase (a pinned chain's reference not counted).
     #[must_use]
     pub fn node_count(&self) -> usize {
         match self {
-            Network::Topology(t) => t.node_count(),
-            Network::EdgeList { nodes, .. } => *nodes,
+            Layout::Topology(t) => t.node_count(),
+            Layout::EdgeList { nodes, .. } => *nodes,
         }
     }
 
@@ -274,14 +284,14 @@ impl Network {
     #[must_use]
     pub fn keyword(&self) -> &'static str {
         match self {
-            Network::Topology(Topology::Chain { .. }) => "chain",
-            Network::Topology(Topology::Ring { .. }) => "ring",
-            Network::Topology(Topology::Star { .. }) => "star",
-            Network::Topology(Topology::Complete { .. }) => "complete",
-            Network::Topology(Topology::Grid { .. }) => "grid",
-            Network::Topology(Topology::Torus { .. }) => "torus",
-            Network::Topology(Topology::PinnedChain { .. }) => "pinned_chain",
-            Network::EdgeList { .. } => "edge_list",
+            Layout::Topology(Topology::Chain { .. }) => "chain",
+            Layout::Topology(Topology::Ring { .. }) => "ring",
+            Layout::Topology(Topology::Star { .. }) => "star",
+            Layout::Topology(Topology::Complete { .. }) => "complete",
+            Layout::Topology(Topology::Grid { .. }) => "grid",
+            Layout::Topology(Topology::Torus { .. }) => "torus",
+            Layout::Topology(Topology::PinnedChain { .. }) => "pinned_chain",
+            Layout::EdgeList { .. } => "edge_list",
         }
     }
 
@@ -289,7 +299,7 @@ impl Network {
     #[must_use]
     pub fn describe(&self) -> String {
         match self {
-            Network::Topology(t) => match *t {
+            Layout::Topology(t) => match *t {
                 Topology::Chain { nodes } => format!("chain of {nodes} nodes"),
                 Topology::Ring { nodes } => format!("ring of {nodes} nodes"),
                 Topology::Star { nodes } => format!("star of {nodes} nodes (hub is node 0)"),
@@ -300,7 +310,7 @@ impl Network {
                     format!("chain of {nodes} nodes pinned to a reference at node 0")
                 }
             },
-            Network::EdgeList { path, nodes, edges } => format!(
+            Layout::EdgeList { path, nodes, edges } => format!(
                 "{nodes} nodes, {} edges from {}",
                 edges.len(),
                 path.file_name().map_or_else(
@@ -312,41 +322,68 @@ impl Network {
     }
 }
 
-/// The coupling function a scenario asks for.
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-pub enum Coupling {
-    /// Sine (Kuramoto-type) coupling, integer path.
-    Sine,
-    /// Linear consensus on the wrapped difference.
-    Linear,
+/// The scenario-file keyword of a node law: `"sine"` for every sine law, `"linear"` for
+/// the linear law.
+#[must_use]
+pub fn law_keyword(law: Law) -> &'static str {
+    match law {
+        Law::Linear => "linear",
+        _ => "sine",
+    }
 }
 
-impl Coupling {
-    /// The keyword in the scenario file.
+/// One gain as the scenario gives it.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum GainSetting {
+    /// A fixed per-update gain: the tuner never changes it.
+    Fixed(f64),
+    /// The word `"tune"`: the tuner chooses it.
+    Tune,
+}
+
+impl GainSetting {
+    /// The fixed value, if the gain is fixed.
     #[must_use]
-    pub fn keyword(self) -> &'static str {
+    pub fn fixed(self) -> Option<f64> {
         match self {
-            Coupling::Sine => "sine",
-            Coupling::Linear => "linear",
+            GainSetting::Fixed(v) => Some(v),
+            GainSetting::Tune => None,
         }
     }
 }
 
-/// Gains as the scenario gives them.
+/// The two gains as the scenario gives them. A left-out `ki` is `Fixed(0.0)`: the P law.
+///
+/// Fixed values satisfy `0 < kp < 2` and `0 ≤ ki < kp` (when both are fixed).
 #[derive(Clone, Copy, Debug, PartialEq)]
-pub enum Gains {
-    /// Fixed per-update gains, `0 < kp < 2`, `0 ≤ ki < kp` (`ki = 0`: P-only law).
-    Fixed {
-        /// Proportional gain per update.
-        kp: f64,
-        /// Integral (rate-trim) gain per update.
-        ki: f64,
-    },
-    /// Let the tuner choose; `pi` asks for the PI law (rate trim on).
-    Tune {
-        /// Tune `ki` too (PI law) rather than `ki = 0` (P-only law).
-        pi: bool,
-    },
+pub struct Gains {
+    /// Proportional gain per update.
+    pub kp: GainSetting,
+    /// Integral (rate-trim) gain per update.
+    pub ki: GainSetting,
+}
+
+impl Gains {
+    /// Both gains fixed.
+    #[must_use]
+    pub const fn fixed(kp: f64, ki: f64) -> Gains {
+        Gains {
+            kp: GainSetting::Fixed(kp),
+            ki: GainSetting::Fixed(ki),
+        }
+    }
+
+    /// Both gains fixed: `Some((kp, ki))`; `None` when one is to be tuned.
+    #[must_use]
+    pub fn both_fixed(&self) -> Option<(f64, f64)> {
+        Some((self.kp.fixed()?, self.ki.fixed()?))
+    }
+
+    /// The integral path is on: `ki` is tuned or fixed above 0.
+    #[must_use]
+    pub fn is_pi(&self) -> bool {
+        self.ki.fixed().is_none_or(|ki| ki > 0.0)
+    }
 }
 
 /// A checked scenario, every quantity in SI units (seconds, hertz, ppm, turns).
@@ -356,8 +393,8 @@ pub struct Scenario {
     pub path: PathBuf,
     /// Free-text name (the file stem when not given).
     pub name: String,
-    /// The coupling graph.
-    pub network: Network,
+    /// The coupling graph (the `[network]` section).
+    pub layout: Layout,
     /// Updates per second of every node.
     pub update_rate_hz: f64,
     /// Duration of one phase turn, seconds.
@@ -368,10 +405,13 @@ pub struct Scenario {
     pub ticks_per_period: u32,
     /// Timer ticks per update (`timer_hz / update_rate_hz`, rounded).
     pub update_ticks: u32,
-    /// Coupling function.
-    pub coupling: Coupling,
-    /// Gains, fixed or to be tuned.
+    /// The node law's coupling function: [`Law::Sine`] or [`Law::Linear`].
+    pub law: Law,
+    /// Gains, fixed or to be tuned, each on its own.
     pub gains: Gains,
+    /// Required margins of the gains (the `[margins]` section; defaults: gain 2,
+    /// delay 1 update).
+    pub margins: Margins,
     /// Largest phase step per update, turns.
     pub slew_limit_turns: f64,
     /// Largest rate trim either way, ppm.
@@ -523,7 +563,7 @@ fn check(loc: &Locator<'_>, raw: RawScenario) -> Result<Scenario, ScenarioError>
         ),
     };
 
-    let network = check_network(loc, &raw.network)?;
+    let layout = check_network(loc, &raw.network)?;
 
     // Timing.
     let timing = raw.timing.get_ref();
@@ -574,9 +614,9 @@ fn check(loc: &Locator<'_>, raw: RawScenario) -> Result<Scenario, ScenarioError>
 
     // Law.
     let law = raw.law.get_ref();
-    let coupling = match law.coupling.get_ref().as_str() {
-        "sine" => Coupling::Sine,
-        "linear" => Coupling::Linear,
+    let law_kind = match law.coupling.get_ref().as_str() {
+        "sine" => Law::Sine,
+        "linear" => Law::Linear,
         other => {
             return Err(refuse(
                 loc,
@@ -719,6 +759,31 @@ fn check(loc: &Locator<'_>, raw: RawScenario) -> Result<Scenario, ScenarioError>
         "above 0 and at most 1000000 s",
     )?;
 
+    // Margins.
+    let mut margins = Margins::default();
+    if let Some(m) = &raw.margins {
+        let m = m.get_ref();
+        if let Some(v) = &m.gain {
+            margins.gain = real_in(
+                loc,
+                v,
+                "margins.gain",
+                |v| (1.0..=100.0).contains(&v),
+                "from 1 (no margin) to 100 (a factor both gains may grow by)",
+            )?;
+        }
+        if let Some(v) = &m.delay_updates {
+            margins.delay_updates = int_in(
+                loc,
+                v,
+                "margins.delay_updates",
+                0,
+                i64::from(crate::plan::MAX_DELAY_UPDATES),
+                " update intervals",
+            )? as u32;
+        }
+    }
+
     // Monte Carlo.
     let (runs, seed, duration_s) = match &raw.monte_carlo {
         Some(m) => {
@@ -752,14 +817,15 @@ fn check(loc: &Locator<'_>, raw: RawScenario) -> Result<Scenario, ScenarioError>
     Ok(Scenario {
         path: loc.file.to_path_buf(),
         name,
-        network,
+        layout,
         update_rate_hz,
         phase_period_s,
         timer_hz: timer_hz as u32,
         ticks_per_period: ticks_per_period as u32,
         update_ticks: update_ticks as u32,
-        coupling,
+        law: law_kind,
         gains,
+        margins,
         slew_limit_turns,
         trim_limit_ppm,
         neighbour_timeout_updates: neighbour_timeout_updates as u32,
@@ -782,19 +848,9 @@ fn default_duration(budget_s: f64, update_rate_hz: f64) -> f64 {
 }
 
 fn check_gains(loc: &Locator<'_>, law: &RawLaw) -> Result<Gains, ScenarioError> {
-    let kp = *law.kp.get_ref();
-    let ki = law.ki.as_ref().map(|k| (*k.get_ref(), k.span()));
-    match (kp, ki) {
-        (RawGain::Tune, None | Some((RawGain::Value(0.0), _))) => Ok(Gains::Tune { pi: false }),
-        (RawGain::Tune, Some((RawGain::Tune, _))) => Ok(Gains::Tune { pi: true }),
-        (RawGain::Tune, Some((RawGain::Value(v), span))) => Err(refuse(
-            loc,
-            span,
-            format!(
-                "law.ki = {v} cannot be fixed while law.kp = \"tune\": write ki = \"tune\" (PI law) or leave ki out (P-only law)"
-            ),
-        )),
-        (RawGain::Value(kp), ki) => {
+    let kp = match *law.kp.get_ref() {
+        RawGain::Tune => GainSetting::Tune,
+        RawGain::Value(kp) => {
             if !(kp.is_finite() && kp > 0.0 && kp < 2.0) {
                 return Err(refuse(
                     loc,
@@ -804,31 +860,31 @@ fn check_gains(loc: &Locator<'_>, law: &RawLaw) -> Result<Gains, ScenarioError> 
                     ),
                 ));
             }
-            let ki = match ki {
-                None => 0.0,
-                Some((RawGain::Tune, span)) => {
-                    return Err(refuse(
-                        loc,
-                        span,
-                        "law.ki = \"tune\" needs law.kp = \"tune\" too: the tuner chooses both gains".to_owned(),
-                    ));
-                }
-                Some((RawGain::Value(ki), span)) => {
-                    if !(ki.is_finite() && ki >= 0.0 && ki < kp) {
-                        return Err(refuse(
-                            loc,
-                            span,
-                            format!(
-                                "law.ki = {ki} is out of range: it must be at least 0 and below law.kp ({kp})"
-                            ),
-                        ));
-                    }
-                    ki
-                }
-            };
-            Ok(Gains::Fixed { kp, ki })
+            GainSetting::Fixed(kp)
         }
-    }
+    };
+    let ki = match law.ki.as_ref().map(|k| (*k.get_ref(), k.span())) {
+        None => GainSetting::Fixed(0.0),
+        Some((RawGain::Tune, _)) => GainSetting::Tune,
+        Some((RawGain::Value(ki), span)) => {
+            let below = kp.fixed().unwrap_or(2.0);
+            if !(ki.is_finite() && ki >= 0.0 && ki < below) {
+                let limit = match kp {
+                    GainSetting::Fixed(kp) => format!("below law.kp ({kp})"),
+                    GainSetting::Tune => "below 2 (and below the tuned kp)".to_owned(),
+                };
+                return Err(refuse(
+                    loc,
+                    span,
+                    format!(
+                        "law.ki = {ki} is out of range: it must be at least 0 and {limit}, or \"tune\""
+                    ),
+                ));
+            }
+            GainSetting::Fixed(ki)
+        }
+    };
+    Ok(Gains { kp, ki })
 }
 
 fn count_key(
@@ -880,7 +936,7 @@ fn refuse_extra(
     }
 }
 
-fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Network, ScenarioError> {
+fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Layout, ScenarioError> {
     let n = net.get_ref();
     let topology = n.topology.get_ref().as_str();
     let max = MAX_NODES as i64;
@@ -910,28 +966,28 @@ fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Network, Scen
         Ok((rows, cols))
     };
     Ok(match topology {
-        "chain" => Network::Topology(Topology::Chain {
+        "chain" => Layout::Topology(Topology::Chain {
             nodes: linear("chain", 2, max)?,
         }),
-        "ring" => Network::Topology(Topology::Ring {
+        "ring" => Layout::Topology(Topology::Ring {
             nodes: linear("ring", 3, max)?,
         }),
-        "star" => Network::Topology(Topology::Star {
+        "star" => Layout::Topology(Topology::Star {
             nodes: linear("star", 2, dense)?,
         }),
-        "complete" => Network::Topology(Topology::Complete {
+        "complete" => Layout::Topology(Topology::Complete {
             nodes: linear("complete graph", 2, dense)?,
         }),
-        "pinned_chain" => Network::Topology(Topology::PinnedChain {
+        "pinned_chain" => Layout::Topology(Topology::PinnedChain {
             nodes: linear("pinned chain", 1, max)?,
         }),
         "grid" => {
             let (rows, cols) = mesh("grid", 1)?;
-            Network::Topology(Topology::Grid { rows, cols })
+            Layout::Topology(Topology::Grid { rows, cols })
         }
         "torus" => {
             let (rows, cols) = mesh("torus", 3)?;
-            Network::Topology(Topology::Torus { rows, cols })
+            Layout::Topology(Topology::Torus { rows, cols })
         }
         "edge_list" => {
             refuse_extra(loc, n.rows.as_ref(), "rows", topology)?;
@@ -969,7 +1025,7 @@ fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Network, Scen
                 }
                 e
             })?;
-            Network::EdgeList {
+            Layout::EdgeList {
                 path,
                 nodes: count,
                 edges,
@@ -1153,8 +1209,9 @@ budget_s = 30
     #[test]
     fn good_file_reads() {
         let s = parse(GOOD).unwrap();
-        assert_eq!(s.network, Network::Topology(Topology::Chain { nodes: 5 }));
-        assert_eq!(s.gains, Gains::Fixed { kp: 0.4, ki: 0.05 });
+        assert_eq!(s.layout, Layout::Topology(Topology::Chain { nodes: 5 }));
+        assert_eq!(s.gains, Gains::fixed(0.4, 0.05));
+        assert_eq!(s.margins, Margins::default());
         // 1 MHz default timer: 1 ms is 1000 ticks, 10 Hz is 100000 ticks.
         assert_eq!(s.ticks_per_period, 1_000);
         assert_eq!(s.update_ticks, 100_000);
@@ -1186,9 +1243,42 @@ budget_s = 30
                 .replace("ki = 0.05", "ki = \"tune\""),
         )
         .unwrap();
-        assert_eq!(s.gains, Gains::Tune { pi: true });
+        assert_eq!(
+            s.gains,
+            Gains {
+                kp: GainSetting::Tune,
+                ki: GainSetting::Tune
+            }
+        );
+        // Each gain on its own: a fixed ki stays fixed while kp is tuned.
+        let s = parse(&GOOD.replace("kp = 0.4", "kp = \"tune\"")).unwrap();
+        assert_eq!(s.gains.kp, GainSetting::Tune);
+        assert_eq!(s.gains.ki, GainSetting::Fixed(0.05));
+        let s = parse(&GOOD.replace("ki = 0.05", "ki = \"tune\"")).unwrap();
+        assert_eq!(s.gains.kp, GainSetting::Fixed(0.4));
+        assert!(s.gains.is_pi());
         let e = parse(&GOOD.replace("kp = 0.4", "kp = \"fast\"")).unwrap_err();
         assert!(e.message.contains("\"tune\""), "{}", e.message);
+    }
+
+    #[test]
+    fn margins_read_with_ranges() {
+        let s = parse(&format!(
+            "{GOOD}\n[margins]\ngain = 1.5\ndelay_updates = 0\n"
+        ))
+        .unwrap();
+        assert_eq!(
+            s.margins,
+            Margins {
+                gain: 1.5,
+                delay_updates: 0
+            }
+        );
+        let e = parse(&format!("{GOOD}\n[margins]\ngain = 0.5\n")).unwrap_err();
+        assert!(e.message.contains("margins.gain"), "{}", e.message);
+        assert!(e.message.contains("from 1"), "{}", e.message);
+        let e = parse(&format!("{GOOD}\n[margins]\ndelay_updates = 31\n")).unwrap_err();
+        assert!(e.message.contains("0 to 30"), "{}", e.message);
     }
 
     #[test]

@@ -1,0 +1,156 @@
+//! The whole assessment of one deployment, from a [`Scenario`] to a typed verdict
+//! (feature `assess`).
+//!
+//! [`assess`] is the one definition of what `entrain check`, `tune` and `simulate`
+//! answer, so that a firmware repository's own test can run the same check without the
+//! binary: the network's spectrum is computed once ([`NetworkModel`]); the gains are the
+//! scenario's numbers or, for gains marked `"tune"`, the tuner's ([`ChosenGains`]); the
+//! planner predicts at the gains as flashed ([`Prediction`], with the one definition of
+//! the predicted lock time, [`crate::plan::predicted_lock_s`]); the margins are checked
+//! against the scenario's `[margins]`; the Monte Carlo of the real node code verifies
+//! when asked ([`Simulation`]); and [`decide`] turns it all into a [`Verdict`] with typed
+//! [`Reason`]s, beside typed [`Warning`]s.
+//!
+//! # Example
+//!
+//! ```
+//! use entrain::assess::{Options, assess};
+//! use entrain::scenario::Scenario;
+//!
+//! let text = r#"
+//! version = 1
+//! name = "Courtyard lights"
+//! [network]
+//! topology = "ring"
+//! nodes = 12
+//! [timing]
+//! update_rate_hz = 20
+//! phase_period_s = 0.02
+//! [law]
+//! coupling = "sine"
+//! kp = 0.3
+//! ki = 0.03
+//! [clock]
+//! crystal_tolerance_ppm = 30
+//! [lock]
+//! initial_spread_s = 0.004
+//! tolerance_s = 0.0002
+//! budget_s = 60
+//! "#;
+//! let scenario = Scenario::from_toml(std::path::Path::new("courtyard.toml"), text)?;
+//! let options = Options { runs: 8, ..Options::of(&scenario) };
+//! let a = assess(scenario, &options, &|_| {})?;
+//! assert!(a.prediction.stability.stable);
+//! assert!(a.simulation.is_some());
+//! for reason in &a.verdict.reasons {
+//!     println!("{}: {reason}", reason.code());
+//! }
+//! # Ok::<(), Box<dyn std::error::Error>>(())
+//! ```
+
+mod constants;
+mod error;
+mod network;
+mod prediction;
+mod simulation;
+mod tuning;
+mod verdict;
+
+pub use constants::NodeConstants;
+pub use error::AssessError;
+pub use network::{NetworkModel, SpectrumSource};
+pub use prediction::{MarginCheck, Prediction, budget, model, predict};
+pub use simulation::{Simulation, setup, simulate};
+pub use tuning::{ChosenGains, GainsSource, choose, search, tune};
+pub use verdict::{
+    MarginKind, Reason, Verdict, Warning, decide, prediction_warnings, seconds, simulation_warnings,
+};
+
+use crate::scenario::Scenario;
+use crate::sim;
+
+/// How much verification to run.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct Options {
+    /// Monte-Carlo runs; 0 skips the simulation (the verdict rests on the prediction).
+    pub runs: u32,
+    /// Master seed of the Monte Carlo.
+    pub seed: u64,
+}
+
+impl Options {
+    /// The scenario's own `[monte_carlo] runs` and `seed`.
+    #[must_use]
+    pub fn of(scenario: &Scenario) -> Options {
+        Options {
+            runs: scenario.runs,
+            seed: scenario.seed,
+        }
+    }
+
+    /// Prediction only.
+    #[must_use]
+    pub fn predict_only(scenario: &Scenario) -> Options {
+        Options {
+            runs: 0,
+            ..Options::of(scenario)
+        }
+    }
+}
+
+/// Everything one assessment found.
+#[derive(Clone, Debug)]
+pub struct Assessment {
+    /// The scenario.
+    pub scenario: Scenario,
+    /// The coupling graph and its spectrum.
+    pub network: NetworkModel,
+    /// The gains, and the tuner's answer when a gain was tuned.
+    pub gains: ChosenGains,
+    /// The planner's prediction at the gains as flashed.
+    pub prediction: Prediction,
+    /// The Monte Carlo, when run.
+    pub simulation: Option<Simulation>,
+    /// The verdict.
+    pub verdict: Verdict,
+    /// Warnings.
+    pub warnings: Vec<Warning>,
+}
+
+/// Assess `scenario`: choose the gains, predict, verify by Monte Carlo when
+/// `options.runs > 0` (calling `progress` after each run), and decide the verdict.
+///
+/// # Errors
+/// [`AssessError`] for a scenario the library refuses (a disconnected graph, values the
+/// node law, planner or simulator refuses, no stable gains to tune to).
+pub fn assess(
+    scenario: Scenario,
+    options: &Options,
+    progress: &(dyn Fn(sim::Progress) + Sync),
+) -> Result<Assessment, AssessError> {
+    let network = NetworkModel::of(&scenario)?;
+    let gains = choose(&scenario, &network)?;
+    let prediction = predict(&scenario, &network, gains.kp, gains.ki)?;
+    let mut warnings = prediction_warnings(&scenario, &prediction);
+    if gains.tuning.is_some_and(|t| !t.feasible) {
+        warnings.push(Warning::ClosestGainsShown);
+    }
+    let simulation = if options.runs > 0 {
+        let s = setup(&scenario, &network, &prediction.constants)?;
+        let v = simulate(&scenario, s, options.runs, options.seed, progress)?;
+        warnings.extend(simulation_warnings(&v));
+        Some(v)
+    } else {
+        None
+    };
+    let verdict = decide(&scenario, &prediction, simulation.as_ref());
+    Ok(Assessment {
+        scenario,
+        network,
+        gains,
+        prediction,
+        simulation,
+        verdict,
+        warnings,
+    })
+}

@@ -1,0 +1,99 @@
+//! The Monte-Carlo verification: the scenario handed to the simulator at the node
+//! constants as flashed, and what the runs show.
+
+use super::AssessError;
+use super::constants::NodeConstants;
+use super::network::NetworkModel;
+use crate::scenario::Scenario;
+use crate::sim;
+
+/// The simulator's setup for `scenario` on `network` at node constants `constants`.
+///
+/// # Errors
+/// [`AssessError::Input`] for values the simulator refuses.
+pub fn setup(
+    scenario: &Scenario,
+    network: &NetworkModel,
+    constants: &NodeConstants,
+) -> Result<sim::Scenario, AssessError> {
+    let input = |message: String| AssessError::input(&scenario.path, message);
+    let links = match (&network.topology, &network.graph) {
+        (Some(t), _) => sim::Links::from_topology(t),
+        (None, Some(g)) => sim::Links::from_graph(g),
+        (None, None) => {
+            // `NetworkModel::of` always sets one of the two.
+            panic!(
+                "network model without topology or graph: a broken invariant of NetworkModel::of"
+            )
+        }
+    }
+    .map_err(|e| input(format!("simulation: {e}")))?;
+    let config = constants
+        .config()
+        .map_err(|e| input(format!("law: the node law refuses these values: {e}")))?;
+    let timer_hz = f64::from(scenario.timer_hz);
+    let mut s = sim::Scenario::new(links, config, timer_hz);
+    s.crystals = sim::Crystals::Uniform {
+        tolerance_ppm: scenario.crystal_tolerance_ppm,
+    };
+    s.schedule = sim::Schedule {
+        random_start: true,
+        jitter_ticks: 0,
+    };
+    s.beacons = sim::Beacons {
+        latency_ticks: (scenario.latency_s * timer_hz).round() as u32,
+        timestamp_jitter_ticks: (scenario.timestamp_jitter_s * timer_hz).round() as u32,
+        success_prob: 1.0 - scenario.loss_fraction,
+    };
+    s.start = sim::StartPhases::Uniform {
+        spread_turns: scenario.initial_spread_s / scenario.phase_period_s,
+    };
+    s.lock = sim::LockCriterion {
+        tolerance_turns: scenario.lock_tolerance_s / scenario.phase_period_s,
+        ..s.lock
+    };
+    s.horizon_updates = (scenario.duration_s * scenario.update_rate_hz).ceil() as u64;
+    s.validate()
+        .map_err(|e| input(format!("simulation: {e}")))?;
+    Ok(s)
+}
+
+/// What the Monte Carlo shows.
+#[derive(Clone, Debug)]
+pub struct Simulation {
+    /// The simulator's summary.
+    pub summary: sim::Summary,
+    /// Lock time of each run that locked, seconds, in run order.
+    pub lock_times_s: Vec<f64>,
+    /// Master seed.
+    pub seed: u64,
+    /// The setup that was simulated (for tracing sample runs).
+    pub setup: sim::Scenario,
+}
+
+/// Run `runs` runs of `setup` with master `seed`, reporting progress to `progress`.
+///
+/// # Errors
+/// [`AssessError::Input`] for a request the simulator refuses.
+pub fn simulate(
+    scenario: &Scenario,
+    setup: sim::Scenario,
+    runs: u32,
+    seed: u64,
+    progress: &(dyn Fn(sim::Progress) + Sync),
+) -> Result<Simulation, AssessError> {
+    let summary = sim::monte_carlo(&setup, runs as usize, seed, progress)
+        .map_err(|e| AssessError::input(&scenario.path, format!("simulation: {e}")))?;
+    let period = setup.update_period_s();
+    let lock_times_s = summary
+        .outcomes
+        .iter()
+        .filter_map(|o| o.lock.map(|l| l.at_updates as f64 * period))
+        .collect();
+    Ok(Simulation {
+        summary,
+        lock_times_s,
+        seed,
+        setup,
+    })
+}

@@ -1,0 +1,308 @@
+//! The commands: load the scenario, call the library's assessment, render the answer.
+//! No formula, threshold or unit conversion beyond presentation lives here.
+
+use crate::{firmware, json, plot, report};
+use entrain::assess::{self, AssessError, Assessment, NetworkModel, Options};
+use entrain::scenario::Scenario;
+use std::fmt;
+use std::path::{Path, PathBuf};
+
+/// Exit status of a passing verdict.
+pub const EXIT_PASS: u8 = 0;
+/// Exit status of a failing verdict.
+pub const EXIT_FAIL: u8 = 1;
+/// Exit status of bad input or usage.
+pub const EXIT_INPUT: u8 = 2;
+
+/// Largest number of sample runs drawn in the error-trace plot.
+const PLOTTED_RUNS: u64 = 6;
+
+/// Why a command could not give a verdict. Every variant exits with status 2.
+#[derive(Debug)]
+pub enum CliError {
+    /// The library refused the scenario.
+    Assess(AssessError),
+    /// A command-line value out of range.
+    Usage(String),
+    /// An output file could not be written.
+    Output {
+        /// The file.
+        file: PathBuf,
+        /// What went wrong.
+        message: String,
+    },
+}
+
+impl fmt::Display for CliError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            CliError::Assess(e) => write!(f, "{e}"),
+            CliError::Usage(what) => f.write_str(what),
+            CliError::Output { file, message } => {
+                write!(f, "cannot write {}: {message}", file.display())
+            }
+        }
+    }
+}
+
+impl From<AssessError> for CliError {
+    fn from(e: AssessError) -> Self {
+        CliError::Assess(e)
+    }
+}
+
+impl From<entrain::scenario::ScenarioError> for CliError {
+    fn from(e: entrain::scenario::ScenarioError) -> Self {
+        CliError::Assess(AssessError::Scenario(e))
+    }
+}
+
+/// One command, with its arguments already parsed.
+pub enum Command {
+    /// Predict and verify.
+    Check {
+        file: PathBuf,
+        runs: Option<u32>,
+        no_simulate: bool,
+    },
+    /// Tune the gains marked "tune"; optionally write firmware constants.
+    Tune { file: PathBuf, out: Option<PathBuf> },
+    /// Run the Monte Carlo; optionally write SVG plots.
+    Simulate {
+        file: PathBuf,
+        plots: Option<PathBuf>,
+        runs: Option<u32>,
+        seed: Option<u64>,
+    },
+    /// Print the spectrum and the slowest mode.
+    Spectrum { file: PathBuf },
+}
+
+/// What a command prints and how it exits.
+pub struct Output {
+    /// Text for standard output.
+    pub stdout: String,
+    /// Exit status.
+    pub status: u8,
+}
+
+/// How to show Monte-Carlo progress.
+pub trait ProgressSink: Sync {
+    /// A Monte Carlo of `total` runs starts.
+    fn start(&self, total: u64);
+    /// `done` runs have finished.
+    fn set(&self, done: u64);
+    /// The Monte Carlo is over.
+    fn finish(&self);
+}
+
+/// Output format.
+#[derive(Clone, Copy, PartialEq, Eq)]
+pub enum Format {
+    /// The aligned human report.
+    Human,
+    /// JSON.
+    Json,
+}
+
+fn status(pass: bool) -> u8 {
+    if pass { EXIT_PASS } else { EXIT_FAIL }
+}
+
+fn assess_with_progress(
+    scenario: Scenario,
+    options: &Options,
+    progress: &dyn ProgressSink,
+) -> Result<Assessment, CliError> {
+    if options.runs > 0 {
+        progress.start(u64::from(options.runs));
+    }
+    let tick = |p: entrain::sim::Progress| progress.set(p.done as u64);
+    let result = assess::assess(scenario, options, &tick);
+    if options.runs > 0 {
+        progress.finish();
+    }
+    Ok(result?)
+}
+
+/// Run `command`, rendering in `format`, showing Monte-Carlo progress on `progress`.
+pub fn run(
+    command: &Command,
+    format: Format,
+    progress: &dyn ProgressSink,
+) -> Result<Output, CliError> {
+    match command {
+        Command::Check {
+            file,
+            runs,
+            no_simulate,
+        } => {
+            let scenario = Scenario::load(file)?;
+            let mut options = Options::of(&scenario);
+            if let Some(r) = runs {
+                options.runs = *r;
+            }
+            if *no_simulate {
+                options.runs = 0;
+            }
+            let a = assess_with_progress(scenario, &options, progress)?;
+            let stdout = match format {
+                Format::Human => report::check(&a, "check"),
+                Format::Json => json::check(&a, "check"),
+            };
+            Ok(Output {
+                stdout,
+                status: status(a.verdict.pass),
+            })
+        }
+        Command::Simulate {
+            file,
+            plots,
+            runs,
+            seed,
+        } => {
+            let scenario = Scenario::load(file)?;
+            if runs == &Some(0) {
+                return Err(CliError::Usage(
+                    "--runs must be at least 1 for simulate".to_owned(),
+                ));
+            }
+            let mut options = Options::of(&scenario);
+            if let Some(r) = runs {
+                options.runs = *r;
+            }
+            if let Some(s) = seed {
+                options.seed = *s;
+            }
+            let a = assess_with_progress(scenario, &options, progress)?;
+            let written = match plots {
+                Some(dir) => write_plots(&a, dir)?,
+                None => Vec::new(),
+            };
+            let stdout = match format {
+                Format::Human => {
+                    let mut s = report::check(&a, "simulate");
+                    report::plots_written(&mut s, &written);
+                    s
+                }
+                Format::Json => json::simulate(&a, &written),
+            };
+            Ok(Output {
+                stdout,
+                status: status(a.verdict.pass),
+            })
+        }
+        Command::Spectrum { file } => {
+            let scenario = Scenario::load(file)?;
+            let network = NetworkModel::of(&scenario)?;
+            let stdout = match format {
+                Format::Human => report::spectrum(&scenario, &network),
+                Format::Json => json::spectrum(&scenario, &network),
+            };
+            Ok(Output {
+                stdout,
+                status: EXIT_PASS,
+            })
+        }
+        Command::Tune { file, out } => {
+            let scenario = Scenario::load(file)?;
+            // Nothing marked "tune": answered as `check` would (prediction and Monte
+            // Carlo at the file's own gains).
+            let options = if assess::search(&scenario).is_some() {
+                Options::predict_only(&scenario)
+            } else {
+                Options::of(&scenario)
+            };
+            let a = assess_with_progress(scenario, &options, progress)?;
+            let mut written = None;
+            if let (Some(path), true) = (out, a.verdict.pass) {
+                let text = firmware::to_rust(&a.prediction.constants, &a.scenario);
+                write_file(path, &text)?;
+                written = Some(path.clone());
+            }
+            let stdout = match format {
+                Format::Human => report::tune(&a, written.as_deref()),
+                Format::Json => json::tune(&a, written.as_deref()),
+            };
+            Ok(Output {
+                stdout,
+                status: status(a.verdict.pass),
+            })
+        }
+    }
+}
+
+fn write_file(path: &Path, text: &str) -> Result<(), CliError> {
+    std::fs::write(path, text).map_err(|e| CliError::Output {
+        file: path.to_path_buf(),
+        message: e.to_string(),
+    })
+}
+
+fn write_plots(a: &Assessment, dir: &Path) -> Result<Vec<PathBuf>, CliError> {
+    std::fs::create_dir_all(dir).map_err(|e| CliError::Output {
+        file: dir.to_path_buf(),
+        message: e.to_string(),
+    })?;
+    let out = |e: plot::PlotError| CliError::Output {
+        file: PathBuf::from(e.file.clone()),
+        message: e.message,
+    };
+    let s = &a.scenario;
+    let mut written = Vec::new();
+
+    // Sample runs: the same runs as the Monte Carlo's first ones, traced.
+    if let Some(v) = &a.simulation {
+        let mut traces = Vec::new();
+        for run in 0..PLOTTED_RUNS.min(v.summary.runs as u64) {
+            let (_, trace) = entrain::sim::trace_run(&v.setup, v.seed, run, false)
+                .map_err(|e| AssessError::input(&s.path, format!("simulation: {e}")))?;
+            traces.push(plot::ErrorTrace {
+                run,
+                step_s: trace.update_period_s,
+                error_s: trace
+                    .network_turns
+                    .iter()
+                    .map(|t| t * s.phase_period_s)
+                    .collect(),
+            });
+        }
+        let envelope = a.prediction.settling.map(|st| plot::Envelope {
+            initial_spread_s: s.initial_spread_s,
+            asymptotic_s: st.asymptotic_s,
+            bound_s: st.bound_s,
+        });
+        let path = dir.join("phase_error.svg");
+        plot::error_traces(
+            &path,
+            &format!("{}: largest phase difference, sample runs", s.name),
+            &traces,
+            envelope,
+            s.lock_tolerance_s,
+            s.lock_budget_s,
+        )
+        .map_err(out)?;
+        written.push(path);
+
+        let path = dir.join("lock_times.svg");
+        plot::lock_histogram(
+            &path,
+            &format!("{}: lock times of {} runs", s.name, v.summary.runs),
+            &v.lock_times_s,
+            v.summary.runs.saturating_sub(v.summary.locked_runs),
+            s.lock_budget_s,
+        )
+        .map_err(out)?;
+        written.push(path);
+    }
+
+    let path = dir.join("slowest_mode.svg");
+    plot::mode_shape(
+        &path,
+        &format!("{}: slowest mode along the network", s.name),
+        &a.network.slow_mode,
+    )
+    .map_err(out)?;
+    written.push(path);
+    Ok(written)
+}

@@ -226,7 +226,7 @@ fn reasons_from_the_simulation() {
         &chain(16, "kp = 0.2\nki = 0.01", "[monte_carlo]\nduration_s = 2"),
         4,
     );
-    assert!(codes(&a).contains(&"runs_never_locked"), "{:?}", codes(&a));
+    assert!(codes(&a).contains(&"runs_never_settled"), "{:?}", codes(&a));
 }
 
 #[test]

@@ -48,9 +48,8 @@ pub fn setup(
     s.start = sim::StartPhases::Uniform {
         spread_turns: scenario.initial_spread_s / scenario.phase_period_s,
     };
-    s.lock = sim::LockCriterion {
+    s.settle = sim::SettleCriterion {
         tolerance_turns: scenario.lock_tolerance_s / scenario.phase_period_s,
-        ..s.lock
     };
     s.horizon_updates = (scenario.duration_s * scenario.update_rate_hz).ceil() as u64;
     s.validate()
@@ -63,8 +62,8 @@ pub fn setup(
 pub struct Simulation {
     /// The simulator's summary.
     pub summary: sim::Summary,
-    /// Lock time of each run that locked, seconds, in run order.
-    pub lock_times_s: Vec<f64>,
+    /// Settling time of each run that settled, seconds, in run order.
+    pub settle_times_s: Vec<f64>,
     /// Master seed.
     pub seed: u64,
     /// The setup that was simulated (for tracing sample runs).
@@ -85,14 +84,14 @@ pub fn simulate(
     let summary = sim::monte_carlo(&setup, runs as usize, seed, progress)
         .map_err(|e| AssessError::input(&scenario.path, format!("simulation: {e}")))?;
     let period = setup.update_period_s();
-    let lock_times_s = summary
+    let settle_times_s = summary
         .outcomes
         .iter()
-        .filter_map(|o| o.lock.map(|l| l.at_updates as f64 * period))
+        .filter_map(|o| o.settle.map(|l| l.at_updates as f64 * period))
         .collect();
     Ok(Simulation {
         summary,
-        lock_times_s,
+        settle_times_s,
         seed,
         setup,
     })

@@ -61,16 +61,17 @@ pub enum Reason {
         /// The budget, seconds.
         budget_s: f64,
     },
-    /// Some simulated runs never locked within the simulated time.
-    RunsNeverLocked {
+    /// Some simulated runs never settled: their error left the tolerance again in the
+    /// final fifth of the horizon, or never stayed within it.
+    RunsNeverSettled {
         /// How many.
         runs: usize,
         /// Out of how many.
         of: usize,
     },
-    /// The slowest simulated run locked after the budget.
+    /// The slowest simulated run settled after the budget.
     SimulatedOverBudget {
-        /// Its lock time, seconds.
+        /// Its settling time, seconds.
         lock_s: f64,
         /// The budget, seconds.
         budget_s: f64,
@@ -86,7 +87,7 @@ impl Reason {
             Reason::CannotLock => "cannot_lock",
             Reason::MarginTooSmall { .. } => "margin_too_small",
             Reason::PredictedOverBudget { .. } => "predicted_over_budget",
-            Reason::RunsNeverLocked { .. } => "runs_never_locked",
+            Reason::RunsNeverSettled { .. } => "runs_never_settled",
             Reason::SimulatedOverBudget { .. } => "simulated_over_budget",
         }
     }
@@ -122,13 +123,13 @@ impl fmt::Display for Reason {
                 seconds(lock_s),
                 seconds(budget_s)
             ),
-            Reason::RunsNeverLocked { runs, of } => write!(
+            Reason::RunsNeverSettled { runs, of } => write!(
                 f,
-                "{runs} of {of} simulated runs never locked within the simulated time"
+                "{runs} of {of} simulated runs never settled: the error did not stay within the tolerance to the end of the run"
             ),
             Reason::SimulatedOverBudget { lock_s, budget_s } => write!(
                 f,
-                "slowest simulated run locked after {}, beyond the budget {}",
+                "slowest simulated run settled after {}, beyond the budget {}",
                 seconds(lock_s),
                 seconds(budget_s)
             ),
@@ -279,14 +280,14 @@ pub fn decide(
         }
     }
     if let Some(v) = simulation {
-        let never = v.summary.runs.saturating_sub(v.summary.locked_runs);
+        let never = v.summary.runs.saturating_sub(v.summary.settled_runs);
         if never > 0 {
-            reasons.push(Reason::RunsNeverLocked {
+            reasons.push(Reason::RunsNeverSettled {
                 runs: never,
                 of: v.summary.runs,
             });
         }
-        if let Some(p) = v.summary.lock_s {
+        if let Some(p) = v.summary.settle_s {
             if p.max > budget_s {
                 reasons.push(Reason::SimulatedOverBudget {
                     lock_s: p.max,

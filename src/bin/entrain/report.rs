@@ -178,7 +178,7 @@ fn margins(s: &mut String, r: &Assessment) {
         );
     }
     if let Some(v) = &r.simulation {
-        if let Some(pc) = v.summary.lock_s {
+        if let Some(pc) = v.summary.settle_s {
             row(
                 s,
                 "budget left, simulated",
@@ -360,17 +360,17 @@ fn figures(s: &mut String, r: &Assessment) {
             row(
                 s,
                 "simulated runs",
-                &format!("{} of {} locked", sm.locked_runs, sm.runs),
+                &format!("{} of {} settled", sm.settled_runs, sm.runs),
                 &format!(
                     "seed {}, {} simulated per run",
                     v.seed,
                     seconds(sc.duration_s)
                 ),
             );
-            if let Some(pc) = sm.lock_s {
+            if let Some(pc) = sm.settle_s {
                 row(
                     s,
-                    "simulated lock time",
+                    "simulated settling",
                     &format!("p50 {}, p90 {}", seconds(pc.p50), seconds(pc.p90)),
                     &format!("p99 {}, max {}", seconds(pc.p99), seconds(pc.max)),
                 );

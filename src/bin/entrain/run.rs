@@ -287,9 +287,9 @@ fn write_plots(a: &Assessment, dir: &Path) -> Result<Vec<PathBuf>, CliError> {
         let path = dir.join("lock_times.svg");
         plot::lock_histogram(
             &path,
-            &format!("{}: lock times of {} runs", s.name, v.summary.runs),
-            &v.lock_times_s,
-            v.summary.runs.saturating_sub(v.summary.locked_runs),
+            &format!("{}: settling times of {} runs", s.name, v.summary.runs),
+            &v.settle_times_s,
+            v.summary.runs.saturating_sub(v.summary.settled_runs),
             s.lock_budget_s,
         )
         .map_err(out)?;

@@ -17,6 +17,8 @@ pub mod beacon;
 #[cfg(feature = "cli")]
 pub mod cli;
 mod config;
+#[cfg(feature = "sim")]
+pub mod forecast;
 mod gain;
 #[cfg(feature = "check")]
 pub mod graph;

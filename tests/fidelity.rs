@@ -28,17 +28,30 @@ fn forecast_and_bound_match_the_simulation() {
         let f = &r.forecast;
         // Every run settles within the horizon, or the last exit is not measured.
         if r.sim_never > 0.0 {
-            failures.push(format!("{}: {:.1} % of runs never settled", r.name, 100.0 * r.sim_never));
+            failures.push(format!(
+                "{}: {:.1} % of runs never settled",
+                r.name,
+                100.0 * r.sim_never
+            ));
         }
         if !within(f.settle_updates.p50, r.sim_p50, 0.15) {
-            failures.push(format!("{}: p50 {} vs simulated {}", r.name, f.settle_updates.p50, r.sim_p50));
+            failures.push(format!(
+                "{}: p50 {} vs simulated {}",
+                r.name, f.settle_updates.p50, r.sim_p50
+            ));
         }
         if !within(f.settle_updates.p90, r.sim_p90, 0.15) {
-            failures.push(format!("{}: p90 {} vs simulated {}", r.name, f.settle_updates.p90, r.sim_p90));
+            failures.push(format!(
+                "{}: p90 {} vs simulated {}",
+                r.name, f.settle_updates.p90, r.sim_p90
+            ));
         }
         match r.bound {
             Some(b) if (b as f64) >= r.sim_max => {}
-            b => failures.push(format!("{}: bound {b:?} below simulated max {}", r.name, r.sim_max)),
+            b => failures.push(format!(
+                "{}: bound {b:?} below simulated max {}",
+                r.name, r.sim_max
+            )),
         }
         if !within(f.noise_floor_turns.p99, r.sim_noise_p99, 0.20) {
             failures.push(format!(

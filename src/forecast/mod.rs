@@ -246,9 +246,11 @@ fn slowest_period(s: &Scenario) -> Option<f64> {
     for &(a, b) in s.links.pairs() {
         for (u, v) in [(a, b), (b, a)] {
             if let Some(pu) = pos(u) {
-                l[(pu, pu)] += 1.0;
-                if let Some(pv) = pos(v) {
-                    l[(pu, pv)] -= 1.0;
+                if let Some(x) = l.get_mut((pu, pu)) {
+                    *x += 1.0;
+                }
+                if let Some(x) = pos(v).and_then(|pv| l.get_mut((pu, pv))) {
+                    *x -= 1.0;
                 }
             }
         }
@@ -260,7 +262,9 @@ fn slowest_period(s: &Scenario) -> Option<f64> {
         .iter()
         .filter(|&&lam| lam > 1e-9)
         .filter_map(|&lam| mode_period(kp, ki, lam))
-        .fold(None, |acc: Option<f64>, p| Some(acc.map_or(p, |a| a.max(p))))
+        .fold(None, |acc: Option<f64>, p| {
+            Some(acc.map_or(p, |a| a.max(p)))
+        })
 }
 
 /// Oscillation period of mode λ, updates: from the roots of

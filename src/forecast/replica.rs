@@ -334,11 +334,7 @@ fn update(
                 continue;
             }
             let d = wrap(e.offset - me.corr);
-            sum += if setup.sine {
-                (TAU * d).sin() / TAU
-            } else {
-                d
-            };
+            sum += if setup.sine { (TAU * d).sin() / TAU } else { d };
             used += 1;
         }
         if used > 0 {

@@ -226,7 +226,16 @@ pub(crate) fn settle_with(
             let worst = (0..=BOUND_SCAN_POINTS)
                 .map(|k| {
                     let lambda = lo + (hi - lo) * f64::from(k) / f64::from(BOUND_SCAN_POINTS);
-                    last_exceedance(gains, lambda, deg, d, threshold, horizon)
+                    // The node's split (neighbours delayed, self current) damps slow
+                    // modes more than the whole-Laplacian delay; where the latter stays
+                    // bounded, the bound takes the slower of the two.
+                    let split = last_exceedance(gains, lambda, deg, d, threshold, horizon);
+                    let whole = last_exceedance(gains, lambda, 0.0, d, threshold, horizon);
+                    if whole < horizon {
+                        split.max(whole)
+                    } else {
+                        split
+                    }
                 })
                 .max()
                 .unwrap_or(0);

@@ -5,9 +5,7 @@
 
 use entrain::forecast::{Forecast, forecast, last_exit, nearest_rank, tolerance_turns};
 use entrain::plan::Topology;
-use entrain::sim::{
-    Beacons, Crystals, Links, Network, Scenario, Schedule, StartPhases, predict,
-};
+use entrain::sim::{Beacons, Crystals, Links, Network, Scenario, Schedule, StartPhases, predict};
 use entrain::{Config, Gain, Law};
 use rayon::prelude::*;
 
@@ -352,7 +350,9 @@ pub fn horizon(s: &mut Scenario) -> Option<u64> {
         .ok()
         .and_then(|f| f.slowest_oscillation_period_updates)
         .unwrap_or(0.0);
-    let h = (3 * bound.unwrap_or(100)).max((10.0 * period).ceil() as u64).max(300);
+    let h = (3 * bound.unwrap_or(100))
+        .max((10.0 * period).ceil() as u64)
+        .max(300);
     s.horizon_updates = h.min(5_000);
     bound
 }
@@ -410,8 +410,23 @@ pub fn evaluate(case: &mut Case) -> Row {
 pub fn table(rows: &[Row]) -> String {
     let mut out = format!(
         "{:<28} {:>3} {:>5} | {:>6} {:>6} {:>6} {:>9} | {:>6} {:>6} {:>6} {:>9} | {:>5} {:>5} {:>5} {:>5} | {:>5} {:>5}\n",
-        "scenario", "N", "H", "f.p50", "f.p90", "bound", "f.noise99", "s.p50", "s.p90", "s.max",
-        "s.noise99", "r50", "r90", "bd/mx", "rN99", "f.s", "sim.s"
+        "scenario",
+        "N",
+        "H",
+        "f.p50",
+        "f.p90",
+        "bound",
+        "f.noise99",
+        "s.p50",
+        "s.p90",
+        "s.max",
+        "s.noise99",
+        "r50",
+        "r90",
+        "bd/mx",
+        "rN99",
+        "f.s",
+        "sim.s"
     );
     for r in rows {
         let f = &r.forecast;

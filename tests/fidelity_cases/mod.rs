@@ -4,8 +4,11 @@
 #![allow(dead_code)]
 
 use entrain::forecast::{Forecast, forecast, last_exit, nearest_rank, tolerance_turns};
-use entrain::plan::Topology;
-use entrain::sim::{Beacons, Crystals, Links, Network, Scenario, Schedule, StartPhases, predict};
+use entrain::plan::{self, Spread, Topology};
+use entrain::sim::{
+    Beacons, Crystals, Links, Network, Scenario, Schedule, StartPhases, model_of,
+    start_spread_turns,
+};
 use entrain::{Config, Gain, Law};
 use rayon::prelude::*;
 
@@ -41,150 +44,93 @@ pub struct Row {
     pub sim_s: f64,
 }
 
-fn config(law: Law, kp: f64, ki: f64, ticks_per_period: u32, update_ticks: u32) -> Config {
-    Config::builder(ticks_per_period, update_ticks)
-        .law(law)
-        .kp(Gain::from_f32(kp as f32).unwrap())
-        .ki(Gain::from_f32(ki as f32).unwrap())
-        .slew_limit(i32::MAX as u32)
-        .trim_limit_ppb(500_000)
-        .timeout_ticks(update_ticks.saturating_mul(20))
-        .build()
-        .unwrap()
-}
-
-fn grid(rows: usize, cols: usize) -> Links {
-    let mut pairs = Vec::new();
-    for r in 0..rows {
-        for c in 0..cols {
-            let i = r * cols + c;
-            if c + 1 < cols {
-                pairs.push((i, i + 1));
-            }
-            if r + 1 < rows {
-                pairs.push((i, i + cols));
-            }
-        }
-    }
-    Links::from_pairs(rows * cols, &pairs).unwrap()
-}
-
-fn star(leaves: usize) -> Links {
-    let pairs: Vec<(usize, usize)> = (1..=leaves).map(|l| (0, l)).collect();
-    Links::from_pairs(leaves + 1, &pairs).unwrap()
-}
-
-fn scenario(
+/// One invented deployment, in the few numbers that differ between scenarios.
+struct Spec {
+    name: &'static str,
     links: Links,
-    config: Config,
+    law: Law,
+    kp: f64,
+    ki: f64,
+    /// Slew limit, turns (`None`: unlimited).
+    slew: Option<f64>,
     spread: f64,
     tol: f64,
     ppm: f64,
     random_start: bool,
-) -> Scenario {
-    let mut s = Scenario::new(links, config, 1e6);
-    s.start = StartPhases::Uniform {
-        spread_turns: spread,
-    };
-    s.crystals = Crystals::Uniform { tolerance_ppm: ppm };
-    s.schedule = Schedule {
-        random_start,
-        jitter_ticks: 0,
-    };
-    s.lock.tolerance_turns = tol;
-    s
+    /// Latency, updates.
+    latency: f64,
+    /// Timestamp jitter, ± ticks.
+    jitter: u32,
+    p: f64,
 }
 
-fn beacons(latency_ticks: u32, jitter: u32, p: f64) -> Beacons {
-    Beacons {
-        latency_ticks,
-        timestamp_jitter_ticks: jitter,
-        success_prob: p,
+/// Update interval and phase period, ticks (100 updates/s and a 10 ms period at 1 MHz).
+const M: u32 = 10_000;
+const T: u32 = 10_000;
+
+impl Spec {
+    fn build(self) -> Case {
+        let config = Config::builder(T, M)
+            .law(self.law)
+            .kp(Gain::from_f32(self.kp as f32).unwrap())
+            .ki(Gain::from_f32(self.ki as f32).unwrap())
+            .slew_limit(
+                self.slew
+                    .map_or(i32::MAX as u32, |t| (t * 4_294_967_296.0) as u32),
+            )
+            .trim_limit_ppb(500_000)
+            .timeout_ticks(M * 20)
+            .build()
+            .unwrap();
+        let mut s = Scenario::new(self.links, config, 1e6);
+        s.start = StartPhases::Uniform {
+            spread_turns: self.spread,
+        };
+        s.crystals = Crystals::Uniform {
+            tolerance_ppm: self.ppm,
+        };
+        s.schedule = Schedule {
+            random_start: self.random_start,
+            jitter_ticks: 0,
+        };
+        s.beacons = Beacons {
+            latency_ticks: (self.latency * f64::from(M)) as u32,
+            timestamp_jitter_ticks: self.jitter,
+            success_prob: self.p,
+        };
+        s.lock.tolerance_turns = self.tol;
+        Case {
+            name: self.name,
+            scenario: s,
+        }
     }
+}
+
+fn topo(t: Topology) -> Links {
+    Links::from_topology(&t).unwrap()
 }
 
 /// The suite (demo deployments invented for these tests).
 pub fn cases() -> Vec<Case> {
-    const M: u32 = 10_000; // update interval, ticks (100 updates/s at 1 MHz)
-    const T: u32 = 10_000; // phase period, ticks
-    let mut v = Vec::new();
-
-    // Vibration sensors on a footbridge: a lock-step chain of 12, P law, ideal clocks.
-    let s = scenario(
-        Links::chain(12).unwrap(),
-        config(Law::Linear, 0.4, 0.0, T, M),
-        0.2,
-        0.004,
-        0.0,
-        false,
-    );
-    v.push(Case {
-        name: "footbridge chain12 P lin",
-        scenario: s,
-    });
-
-    // Light fixtures around a courtyard: ring of 16, PI, staggered, ±20 ppm, half an
-    // update of latency.
-    let mut s = scenario(
-        Links::ring(16).unwrap(),
-        config(Law::Linear, 0.35, 0.02, T, M),
-        0.1,
-        0.002,
-        20.0,
-        true,
-    );
-    s.beacons = beacons(M / 2, 0, 1.0);
-    v.push(Case {
-        name: "courtyard ring16 PI lat.5",
-        scenario: s,
-    });
-
-    // A weather-station hub and 8 masts: star, sine P, wide start spread.
-    let s = scenario(
-        star(8),
-        config(Law::Sine, 0.1, 0.0, T, M),
-        0.45,
-        0.003,
-        5.0,
-        true,
-    );
-    v.push(Case {
-        name: "mast star9 P sine wide",
-        scenario: s,
-    });
-
-    // Greenhouse sensor grid 4×4: sine PI, 1.5 updates of latency, 20 % loss.
-    let mut s = scenario(
-        grid(4, 4),
-        config(Law::Sine, 0.2, 0.01, T, M),
-        0.3,
-        0.003,
-        30.0,
-        true,
-    );
-    s.beacons = beacons(3 * M / 2, 0, 0.8);
-    v.push(Case {
-        name: "greenhouse grid4x4 PI sine",
-        scenario: s,
-    });
-
-    // Tunnel lamps pinned to a portal clock: pinned chain of 8 + reference, PI, ±50 ppm.
-    let s = scenario(
-        Links::from_topology(&Topology::PinnedChain { nodes: 8 }).unwrap(),
-        config(Law::Linear, 0.4, 0.02, T, M),
-        0.1,
-        0.003,
-        50.0,
-        true,
-    );
-    v.push(Case {
-        name: "tunnel pinned8 PI",
-        scenario: s,
-    });
-
-    // Conveyor stations (an invented edge list of 14), P law, 50 % loss, 2.5 updates
-    // of latency.
-    let pairs = [
+    let base = |name, links, law, kp, ki| Spec {
+        name,
+        links,
+        law,
+        kp,
+        ki,
+        slew: None,
+        spread: 0.1,
+        tol: 0.003,
+        ppm: 0.0,
+        random_start: true,
+        latency: 0.0,
+        jitter: 0,
+        p: 1.0,
+    };
+    use Law::{Linear, Sine};
+    use Topology as Tp;
+    // An invented conveyor line: stations with two cross-links.
+    let conveyor = [
         (0, 1),
         (1, 2),
         (2, 3),
@@ -202,118 +148,8 @@ pub fn cases() -> Vec<Case> {
         (6, 13),
         (1, 8),
     ];
-    let mut s = scenario(
-        Links::from_pairs(14, &pairs).unwrap(),
-        config(Law::Linear, 0.15, 0.0, T, M),
-        0.1,
-        0.003,
-        0.0,
-        true,
-    );
-    s.beacons = beacons(5 * M / 2, 0, 0.5);
-    v.push(Case {
-        name: "conveyor edges14 P loss50",
-        scenario: s,
-    });
-
-    // Stage lights on a truss: chain of 10, slew-limited, wide start.
-    let mut s = scenario(
-        Links::chain(10).unwrap(),
-        Config::builder(T, M)
-            .law(Law::Linear)
-            .kp(Gain::from_f32(0.4).unwrap())
-            .ki(Gain::ZERO)
-            .slew_limit((0.004 * 4_294_967_296.0) as u32)
-            .build()
-            .unwrap(),
-        0.4,
-        0.004,
-        0.0,
-        true,
-    );
-    s.beacons = beacons(0, 0, 1.0);
-    v.push(Case {
-        name: "truss chain10 slew",
-        scenario: s,
-    });
-
-    // Loudspeaker ring of 12 with noisy timestamps: noise near the tolerance.
-    let mut s = scenario(
-        Links::ring(12).unwrap(),
-        config(Law::Linear, 0.3, 0.01, T, M),
-        0.05,
-        0.004,
-        10.0,
-        true,
-    );
-    s.beacons = beacons(M / 4, 6, 1.0);
-    v.push(Case {
-        name: "speaker ring12 noise near",
-        scenario: s,
-    });
-
-    // Solar-field trackers, 3×4 grid, P law with ±100 ppm crystals (steady offsets).
-    let s = scenario(
-        grid(3, 4),
-        config(Law::Linear, 0.25, 0.0, T, M),
-        0.1,
-        0.004,
-        100.0,
-        true,
-    );
-    v.push(Case {
-        name: "solar grid3x4 P 100ppm",
-        scenario: s,
-    });
-
-    // Fountain nozzles on a ring of 8: sine PI, nearly half-turn spread, one schedule
-    // for all (±5 ppm crystals let it drift apart slowly), ±2-tick timestamps.
-    let mut s = scenario(
-        Links::ring(8).unwrap(),
-        config(Law::Sine, 0.3, 0.02, T, M),
-        0.45,
-        0.003,
-        5.0,
-        false,
-    );
-    s.beacons = beacons(0, 2, 1.0);
-    v.push(Case {
-        name: "fountain ring8 PI sine",
-        scenario: s,
-    });
-
-    // Pipeline valves, chain of 12, PI with two updates of latency, ±10 ppm.
-    let mut s = scenario(
-        Links::chain(12).unwrap(),
-        config(Law::Linear, 0.3, 0.01, T, M),
-        0.05,
-        0.003,
-        10.0,
-        true,
-    );
-    s.beacons = beacons(2 * M, 0, 0.9);
-    v.push(Case {
-        name: "pipeline chain12 PI lat2",
-        scenario: s,
-    });
-
-    // Parking-lot lamp grid 6×6, P law, lock-step, small spread.
-    let s = scenario(
-        grid(6, 6),
-        config(Law::Linear, 0.2, 0.0, T, M),
-        0.05,
-        0.004,
-        0.0,
-        false,
-    );
-    v.push(Case {
-        name: "parking grid6x6 P lockstep",
-        scenario: s,
-    });
-
-    // Irrigation valves hung off a pump controller (edge list), PI, timestamp noise
-    // near the tolerance and ±40 ppm crystals.
-    let pairs = [
+    // Irrigation valves hung off a pump controller.
+    let irrigation = [
         (0, 1),
         (0, 2),
         (0, 3),
@@ -325,27 +161,205 @@ pub fn cases() -> Vec<Case> {
         (8, 9),
         (5, 9),
     ];
-    let mut s = scenario(
-        Links::from_pairs(10, &pairs).unwrap(),
-        config(Law::Linear, 0.3, 0.015, T, M),
-        0.08,
-        0.003,
-        40.0,
-        true,
-    );
-    s.beacons = beacons(M / 3, 4, 0.9);
-    v.push(Case {
-        name: "irrigation edges10 noise",
-        scenario: s,
-    });
-    v
+    let specs = [
+        // Vibration sensors on a footbridge: lock-step chain, P law, ideal clocks.
+        Spec {
+            spread: 0.2,
+            tol: 0.004,
+            random_start: false,
+            ..base(
+                "footbridge chain12 P lin",
+                topo(Tp::Chain { nodes: 12 }),
+                Linear,
+                0.4,
+                0.0,
+            )
+        },
+        // Light fixtures around a courtyard: PI, ±20 ppm, half an update of latency.
+        Spec {
+            tol: 0.002,
+            ppm: 20.0,
+            latency: 0.5,
+            ..base(
+                "courtyard ring16 PI lat.5",
+                topo(Tp::Ring { nodes: 16 }),
+                Linear,
+                0.35,
+                0.02,
+            )
+        },
+        // A weather-station hub and 8 masts: sine P law, nearly half-turn start spread.
+        Spec {
+            spread: 0.45,
+            ppm: 5.0,
+            ..base(
+                "mast star9 P sine wide",
+                topo(Tp::Star { nodes: 9 }),
+                Sine,
+                0.1,
+                0.0,
+            )
+        },
+        // Greenhouse sensor grid: sine PI, 1.5 updates of latency, 20 % loss.
+        Spec {
+            spread: 0.3,
+            ppm: 30.0,
+            latency: 1.5,
+            p: 0.8,
+            ..base(
+                "greenhouse grid4x4 PI sine",
+                topo(Tp::Grid { rows: 4, cols: 4 }),
+                Sine,
+                0.2,
+                0.01,
+            )
+        },
+        // Tunnel lamps pinned to a portal clock (8 + reference), PI, ±50 ppm.
+        Spec {
+            ppm: 50.0,
+            ..base(
+                "tunnel pinned8 PI",
+                topo(Tp::PinnedChain { nodes: 8 }),
+                Linear,
+                0.4,
+                0.02,
+            )
+        },
+        // Conveyor stations (edge list), P law, 50 % loss, 2.5 updates of latency.
+        Spec {
+            latency: 2.5,
+            p: 0.5,
+            ..base(
+                "conveyor edges14 P loss50",
+                Links::from_pairs(14, &conveyor).unwrap(),
+                Linear,
+                0.15,
+                0.0,
+            )
+        },
+        // Stage lights on a truss: slew-limited chain, wide start.
+        Spec {
+            slew: Some(0.004),
+            spread: 0.4,
+            tol: 0.004,
+            ..base(
+                "truss chain10 slew",
+                topo(Tp::Chain { nodes: 10 }),
+                Linear,
+                0.4,
+                0.0,
+            )
+        },
+        // Loudspeaker ring with noisy timestamps: noise near the tolerance.
+        Spec {
+            spread: 0.05,
+            tol: 0.004,
+            ppm: 10.0,
+            latency: 0.25,
+            jitter: 6,
+            ..base(
+                "speaker ring12 noise near",
+                topo(Tp::Ring { nodes: 12 }),
+                Linear,
+                0.3,
+                0.01,
+            )
+        },
+        // Solar-field trackers, P law with ±100 ppm crystals (steady offsets).
+        Spec {
+            tol: 0.004,
+            ppm: 100.0,
+            ..base(
+                "solar grid3x4 P 100ppm",
+                topo(Tp::Grid { rows: 3, cols: 4 }),
+                Linear,
+                0.25,
+                0.0,
+            )
+        },
+        // Fountain nozzles: sine PI, nearly half-turn spread, one schedule for all
+        // (±5 ppm crystals let it drift apart slowly), ±2-tick timestamps.
+        Spec {
+            spread: 0.45,
+            ppm: 5.0,
+            random_start: false,
+            jitter: 2,
+            ..base(
+                "fountain ring8 PI sine",
+                topo(Tp::Ring { nodes: 8 }),
+                Sine,
+                0.3,
+                0.02,
+            )
+        },
+        // Pipeline valves: PI with two updates of latency, 10 % loss, ±10 ppm.
+        Spec {
+            spread: 0.05,
+            ppm: 10.0,
+            latency: 2.0,
+            p: 0.9,
+            ..base(
+                "pipeline chain12 PI lat2",
+                topo(Tp::Chain { nodes: 12 }),
+                Linear,
+                0.3,
+                0.01,
+            )
+        },
+        // Parking-lot lamp grid, P law, lock-step, small spread.
+        Spec {
+            spread: 0.05,
+            tol: 0.004,
+            random_start: false,
+            ..base(
+                "parking grid6x6 P lockstep",
+                topo(Tp::Grid { rows: 6, cols: 6 }),
+                Linear,
+                0.2,
+                0.0,
+            )
+        },
+        // Irrigation valves (edge list), PI, timestamp noise near the tolerance, ±40 ppm.
+        Spec {
+            spread: 0.08,
+            ppm: 40.0,
+            latency: 1.0 / 3.0,
+            jitter: 4,
+            p: 0.9,
+            ..base(
+                "irrigation edges10 noise",
+                Links::from_pairs(10, &irrigation).unwrap(),
+                Linear,
+                0.3,
+                0.015,
+            )
+        },
+    ];
+    specs.into_iter().map(Spec::build).collect()
+}
+
+/// The planner's worst-case settling bound for `s`, updates: the simulator's model of
+/// the law and the network's spectrum handed to `plan::settle`, as `sim::predict` does.
+pub fn planner_bound(s: &Scenario) -> Option<u64> {
+    let spectrum = match s.links.topology() {
+        Some(t) => t.spectrum().ok()?,
+        None => s.links.graph().spectrum().ok()?,
+    };
+    let period = s.phase_period_s();
+    let spread = Spread {
+        initial_spread_s: start_spread_turns(s) * period,
+        tolerance_s: tolerance_turns(s) * period,
+    };
+    plan::settle(&model_of(s), &spectrum, &spread)
+        .ok()?
+        .bound_updates
 }
 
 /// Pick the horizon: at least 3× the planner's worst-case bound, 10 slowest oscillation
 /// periods and 300 updates.
 pub fn horizon(s: &mut Scenario) -> Option<u64> {
     s.horizon_updates = 300;
-    let bound = predict(s).ok().and_then(|p| p.settling.bound_updates);
+    let bound = planner_bound(s);
     let period = forecast(s, 1, 0)
         .ok()
         .and_then(|f| f.slowest_oscillation_period_updates)

@@ -5,13 +5,15 @@
 //!    a bare lock-step loop of the real node and a bare loop of a plain `f32` law with
 //!    `libm::sinf`, the way a firmware author would write it first. Ratios in the same
 //!    run. Goal: ≥ 3·10⁸ neighbour-updates/s for the integer law.
-//! 2. Wall time of 1,000 Monte-Carlo runs of a 24-node chain to lock. Goal: < 1 s.
+//! 2. Wall time of 1,000 Monte-Carlo runs of a 24-node chain, each to its 3,000-update
+//!    horizon (runs no longer stop at the first entry into the band: settling is judged
+//!    over the whole run). The goal of < 1 s was set for runs that stopped at lock.
 
 use std::time::Instant;
 
 use entrain::plan::Topology;
 use entrain::sim::{
-    Crystals, Links, LockCriterion, Network, Scenario, Schedule, StartPhases, monte_carlo,
+    Crystals, Links, Network, Scenario, Schedule, SettleCriterion, StartPhases, monte_carlo,
 };
 use entrain::{Config, Gain, Law, Node, Observation, Phase};
 use rayon::prelude::*;
@@ -71,9 +73,8 @@ fn start_turns(n: usize, run: usize) -> Vec<f64> {
 fn simulator<const N: usize>(l: &Links, runs: usize, rounds: u64) -> (u64, f64) {
     let mut s = Scenario::new(l.clone(), config(), 1e6);
     s.start = StartPhases::Uniform { spread_turns: 0.4 };
-    s.lock = LockCriterion {
+    s.settle = SettleCriterion {
         tolerance_turns: 1e-9,
-        hold_updates: 1,
     };
     s.horizon_updates = rounds + 10;
     let t = Instant::now();
@@ -222,10 +223,10 @@ fn monte_carlo_chain() {
         jitter_ticks: 100,
     };
     s.start = StartPhases::Uniform { spread_turns: 0.2 };
-    s.lock = LockCriterion {
+    s.settle = SettleCriterion {
         tolerance_turns: 1e-3,
-        hold_updates: 10,
     };
+    s.horizon_updates = 3_000;
     let _ = monte_carlo(&s, 50, 0, &|_| {}); // warm up
     let mut times = Vec::new();
     let mut last = None;
@@ -238,13 +239,14 @@ fn monte_carlo_chain() {
     let best = times.iter().copied().fold(f64::INFINITY, f64::min);
     match last {
         Some(sum) => {
-            let p50 = sum.lock_updates.map_or(f64::NAN, |p| p.p50);
-            let predicted = sum.prediction.as_ref().map_or(0, |p| p.lock_updates);
+            let settle = sum.settle_updates.map_or(f64::NAN, |p| p.p50);
+            let entry = sum.first_entry_updates.map_or(f64::NAN, |p| p.p50);
+            let floor = sum.noise_floor_turns.map_or(f64::NAN, |f| f.p99);
             println!(
-                "1,000 runs of a 24-node chain to lock: {best:.3} s (best of 3; goal < 1 s); \
-                 lock p50 {p50} updates, predicted {predicted}, never locked {:.3}, \
-                 {:.1}e6 neighbour-updates",
-                sum.never_locked_fraction,
+                "1,000 runs of a 24-node chain to a 3,000-update horizon: {best:.3} s (best of 3); \
+                 settling p50 {settle} updates, first entry p50 {entry}, never settled {:.3}, \
+                 noise floor p99 {floor:.2e} turn, {:.1}e6 neighbour-updates",
+                sum.never_settled_fraction,
                 sum.neighbour_updates as f64 / 1e6
             );
         }

@@ -158,9 +158,8 @@ fn check_footbridge_matches_the_planner_and_the_simulator() {
         success_prob: 0.98,
     };
     s.start = sim::StartPhases::Uniform { spread_turns: 0.4 };
-    s.lock = sim::LockCriterion {
+    s.settle = sim::SettleCriterion {
         tolerance_turns: 0.02,
-        ..s.lock
     };
     s.horizon_updates = 4_800; // 2 × the 240 s budget at 10 Hz
     let summary = sim::monte_carlo(&s, 24, 2024, &|_| {}).unwrap();
@@ -168,9 +167,9 @@ fn check_footbridge_matches_the_planner_and_the_simulator() {
     assert_eq!(m["runs"], 24);
     assert_eq!(
         m["locked_runs"].as_u64().unwrap() as usize,
-        summary.locked_runs
+        summary.settled_runs
     );
-    let lock = summary.lock_s.unwrap();
+    let lock = summary.settle_s.unwrap();
     assert!((f(&m["lock_s"]["p50"]) - lock.p50).abs() < 1e-9);
     assert!((f(&m["lock_s"]["max"]) - lock.max).abs() < 1e-9);
     assert!(lock.max <= 240.0);

@@ -367,9 +367,8 @@ pub fn sim_scenario(
     s.start = sim::StartPhases::Uniform {
         spread_turns: scenario.initial_spread_s / scenario.phase_period_s,
     };
-    s.lock = sim::LockCriterion {
+    s.settle = sim::SettleCriterion {
         tolerance_turns: scenario.lock_tolerance_s / scenario.phase_period_s,
-        ..s.lock
     };
     s.horizon_updates = (scenario.duration_s * scenario.update_rate_hz).ceil() as u64;
     s.validate()
@@ -382,7 +381,7 @@ pub fn sim_scenario(
 pub struct Verification {
     /// The simulator's summary.
     pub summary: sim::Summary,
-    /// Lock time of each run that locked, seconds, in run order.
+    /// Settling time of each run that settled, seconds, in run order.
     pub lock_times_s: Vec<f64>,
     /// Master seed.
     pub seed: u64,
@@ -405,7 +404,7 @@ pub fn verify(
     let lock_times_s = summary
         .outcomes
         .iter()
-        .filter_map(|o| o.lock.map(|l| l.at_updates as f64 * period))
+        .filter_map(|o| o.settle.map(|l| l.at_updates as f64 * period))
         .collect();
     Ok(Verification {
         summary,

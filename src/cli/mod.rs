@@ -507,11 +507,11 @@ fn decide(
         }
     }
     if let Some(v) = v {
-        let never = v.summary.runs.saturating_sub(v.summary.locked_runs);
+        let never = v.summary.runs.saturating_sub(v.summary.settled_runs);
         if never > 0 {
             reasons.push(Reason::RunsNeverLocked { runs: never });
         }
-        if let Some(p) = v.summary.lock_s {
+        if let Some(p) = v.summary.settle_s {
             if p.max > scenario.lock_budget_s {
                 reasons.push(Reason::SimulatedOverBudget { lock_s: p.max });
             }
@@ -674,7 +674,7 @@ fn write_plots(result: &CheckResult, dir: &Path) -> Result<Vec<PathBuf>, CliErro
             &path,
             &format!("{}: lock times of {} runs", s.name, v.summary.runs),
             &v.lock_times_s,
-            v.summary.runs.saturating_sub(v.summary.locked_runs),
+            v.summary.runs.saturating_sub(v.summary.settled_runs),
             s.lock_budget_s,
         )
         .map_err(out)?;

@@ -154,7 +154,7 @@ pub fn check(r: &CheckResult, command: &str) -> String {
         );
     }
     if let Some(v) = &r.verification {
-        if let Some(pc) = v.summary.lock_s {
+        if let Some(pc) = v.summary.settle_s {
             row(
                 &mut s,
                 "budget left, simulated",
@@ -334,14 +334,14 @@ pub fn check(r: &CheckResult, command: &str) -> String {
             row(
                 &mut s,
                 "simulated runs",
-                &format!("{} of {} locked", sm.locked_runs, sm.runs),
+                &format!("{} of {} locked", sm.settled_runs, sm.runs),
                 &format!(
                     "seed {}, {} simulated per run",
                     v.seed,
                     seconds(sc.duration_s)
                 ),
             );
-            if let Some(pc) = sm.lock_s {
+            if let Some(pc) = sm.settle_s {
                 row(
                     &mut s,
                     "simulated lock time",

@@ -3,7 +3,6 @@
 use core::fmt;
 
 use crate::graph::GraphError;
-use crate::plan::PlanError;
 
 /// A scenario or run request the simulator cannot carry out; nothing panics on bad input.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -49,8 +48,6 @@ pub enum SimError {
     },
     /// The links could not be built: the checker's graph error.
     Graph(GraphError),
-    /// The prediction for the scenario failed: the checker's planning error.
-    Plan(PlanError),
     /// A Monte-Carlo request for zero runs.
     NoRuns,
 }
@@ -78,7 +75,6 @@ impl fmt::Display for SimError {
                 write!(f, "horizon too long: at most {max_updates} updates")
             }
             SimError::Graph(e) => write!(f, "links: {e}"),
-            SimError::Plan(e) => write!(f, "prediction: {e}"),
             SimError::NoRuns => f.write_str("number of runs must be at least 1"),
         }
     }

@@ -11,8 +11,8 @@ use rayon::prelude::*;
 use super::error::SimError;
 use super::network::Network;
 use super::outcome::RunOutcome;
-use super::predict::{Prediction, predict};
 use super::scenario::Scenario;
+use super::settle::TURN;
 use super::trace::Trace;
 
 /// Run `run` of `scenario` with `seed` (the same run as number `run` of a Monte Carlo
@@ -69,8 +69,8 @@ fn with_capacity(
     }
 }
 
-/// Lock-time distribution, nominal update intervals (nearest-rank percentiles, common
-/// practice, no source).
+/// A distribution (settling or first-entry times, nominal update intervals or seconds) as
+/// nearest-rank percentiles (common practice, no source).
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Percentiles {
     /// Median.
@@ -92,9 +92,8 @@ impl Percentiles {
         }
         values.sort_by(f64::total_cmp);
         let at = |q: f64| {
-            let rank = (q * values.len() as f64).ceil() as usize;
             values
-                .get(rank.clamp(1, values.len()) - 1)
+                .get(nearest_rank(q, values.len()))
                 .copied()
                 .unwrap_or(f64::NAN)
         };
@@ -127,74 +126,129 @@ pub struct Progress {
     pub total: usize,
 }
 
-/// What the runs of a Monte Carlo show together.
+/// Index (0-based) of the nearest-rank `q`-quantile among `len ≥ 1` sorted values:
+/// rank `⌈q·len⌉`, at least 1 (common practice, no source).
+fn nearest_rank(q: f64, len: usize) -> usize {
+    let rank = (q * len as f64).ceil() as usize;
+    rank.clamp(1, len.max(1)) - 1
+}
+
+/// The measured noise floor: nearest-rank percentiles of the largest pairwise phase
+/// difference over the steady-window samples of every run pooled (settled runs from
+/// `max(settling instant, horizon/2)`, never-settled runs over the final fifth; every
+/// [`crate::sim::steady_stride`]-th sample), turns.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct NoiseFloor {
+    /// Median, turns.
+    pub p50: f64,
+    /// 99th percentile, turns.
+    pub p99: f64,
+    /// Samples pooled (over all runs, settled or not).
+    pub samples: usize,
+}
+
+impl NoiseFloor {
+    /// The noise floor of the steady-window samples of `outcomes`, or `None` without any.
+    #[must_use]
+    pub fn of(outcomes: &[RunOutcome]) -> Option<NoiseFloor> {
+        let mut pooled: Vec<u32> = outcomes
+            .iter()
+            .flat_map(|o| o.steady_counts.iter().copied())
+            .collect();
+        if pooled.is_empty() {
+            return None;
+        }
+        pooled.sort_unstable();
+        let at = |q: f64| {
+            pooled
+                .get(nearest_rank(q, pooled.len()))
+                .map_or(f64::NAN, |&c| f64::from(c) / TURN)
+        };
+        Some(NoiseFloor {
+            p50: at(0.50),
+            p99: at(0.99),
+            samples: pooled.len(),
+        })
+    }
+}
+
+/// What the runs of a Monte Carlo show together. Every run goes to the horizon; see
+/// [`crate::sim::SettleTracker`] for the settling instant, the first entry and the steady
+/// window.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Summary {
     /// Runs made.
     pub runs: usize,
-    /// Runs that locked within the horizon.
-    pub locked_runs: usize,
-    /// Fraction of runs that never locked within the horizon.
-    pub never_locked_fraction: f64,
+    /// Runs that settled (last exit from the band before the final fifth of the horizon).
+    pub settled_runs: usize,
+    /// Fraction of runs that never settled.
+    pub never_settled_fraction: f64,
     /// Rings: fraction of runs that ended in a twisted state (winding number not 0).
     pub twisted_fraction: Option<f64>,
-    /// Lock time over the locked runs, nominal update intervals.
-    pub lock_updates: Option<Percentiles>,
-    /// Lock time over the locked runs, seconds.
-    pub lock_s: Option<Percentiles>,
-    /// Median over locked runs of the residual largest pairwise difference, turns.
+    /// Settling instant over the settled runs, nominal update intervals.
+    pub settle_updates: Option<Percentiles>,
+    /// Settling instant over the settled runs, seconds.
+    pub settle_s: Option<Percentiles>,
+    /// First entry into the band over the runs that entered it (settled or not), nominal
+    /// update intervals. Shown beside settling, never instead of it: under the PI law the
+    /// error passes through the band and swings out again.
+    pub first_entry_updates: Option<Percentiles>,
+    /// First entry over the runs that entered the band, seconds.
+    pub first_entry_s: Option<Percentiles>,
+    /// The measured noise floor over every run's steady window (settled or not).
+    pub noise_floor_turns: Option<NoiseFloor>,
+    /// Median over settled runs of the mean largest pairwise difference in the steady
+    /// window, turns.
     pub residual_turns: Option<f64>,
-    /// Median over locked runs of the residual largest link difference, turns.
+    /// Median over settled runs of the mean largest link difference in the steady
+    /// window, turns.
     pub residual_link_turns: Option<f64>,
-    /// Median over locked runs of the phase jitter after lock, turns.
+    /// Median over settled runs of the phase jitter in the steady window, turns (see
+    /// [`crate::sim::Settle::jitter_turns`]).
     pub jitter_turns: Option<f64>,
     /// Neighbour terms summed over all runs (the work done).
     pub neighbour_updates: u64,
     /// Every run's outcome, in run order.
     pub outcomes: Vec<RunOutcome>,
-    /// The checker's prediction for the same scenario, or why it refused.
-    pub prediction: Result<Prediction, SimError>,
-    /// The accuracy figure: simulated median lock time over the predicted lock time
-    /// ([`Prediction::lock_updates`]); `None` without both.
-    pub accuracy: Option<f64>,
 }
 
 impl Summary {
-    /// Combine run outcomes (in run order).
+    /// Combine run outcomes (in run order); `update_period_s` converts updates to
+    /// seconds.
     #[must_use]
-    pub fn from_outcomes(
-        outcomes: Vec<RunOutcome>,
-        update_period_s: f64,
-        prediction: Result<Prediction, SimError>,
-    ) -> Summary {
+    pub fn from_outcomes(outcomes: Vec<RunOutcome>, update_period_s: f64) -> Summary {
         let runs = outcomes.len();
-        let locks: Vec<_> = outcomes.iter().filter_map(|o| o.lock).collect();
-        let mut times: Vec<f64> = locks.iter().map(|l| l.at_updates as f64).collect();
-        let lock_updates = Percentiles::of(&mut times);
+        let settles: Vec<_> = outcomes.iter().filter_map(|o| o.settle).collect();
+        let mut times: Vec<f64> = settles.iter().map(|s| s.at_updates as f64).collect();
+        let settle_updates = Percentiles::of(&mut times);
+        let mut entries: Vec<f64> = outcomes
+            .iter()
+            .filter_map(|o| o.first_entry_updates)
+            .map(|k| k as f64)
+            .collect();
+        let first_entry_updates = Percentiles::of(&mut entries);
         let median = |mut v: Vec<f64>| Percentiles::of(&mut v).map(|p| p.p50);
         let rings = outcomes.iter().filter(|o| o.winding.is_some()).count();
         let twisted = outcomes.iter().filter(|o| o.twisted()).count();
         Summary {
             runs,
-            locked_runs: locks.len(),
-            never_locked_fraction: if runs == 0 {
+            settled_runs: settles.len(),
+            never_settled_fraction: if runs == 0 {
                 0.0
             } else {
-                (runs - locks.len()) as f64 / runs as f64
+                (runs - settles.len()) as f64 / runs as f64
             },
             twisted_fraction: (rings > 0).then(|| twisted as f64 / runs as f64),
-            lock_updates,
-            lock_s: lock_updates.map(|p| p.scaled(update_period_s)),
-            residual_turns: median(locks.iter().map(|l| l.residual_turns).collect()),
-            residual_link_turns: median(locks.iter().map(|l| l.residual_link_turns).collect()),
-            jitter_turns: median(locks.iter().map(|l| l.jitter_turns).collect()),
+            settle_updates,
+            settle_s: settle_updates.map(|p| p.scaled(update_period_s)),
+            first_entry_updates,
+            first_entry_s: first_entry_updates.map(|p| p.scaled(update_period_s)),
+            noise_floor_turns: NoiseFloor::of(&outcomes),
+            residual_turns: median(settles.iter().map(|s| s.residual_turns).collect()),
+            residual_link_turns: median(settles.iter().map(|s| s.residual_link_turns).collect()),
+            jitter_turns: median(settles.iter().map(|s| s.jitter_turns).collect()),
             neighbour_updates: outcomes.iter().map(|o| o.stats.neighbour_updates).sum(),
             outcomes,
-            accuracy: match (&prediction, lock_updates) {
-                (Ok(p), Some(sim)) if p.lock_updates > 0 => Some(sim.p50 / p.lock_updates as f64),
-                _ => None,
-            },
-            prediction,
         }
     }
 }
@@ -231,7 +285,6 @@ pub fn monte_carlo(
     Ok(Summary::from_outcomes(
         outcomes?,
         scenario.update_period_s(),
-        predict(scenario),
     ))
 }
 

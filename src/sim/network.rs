@@ -23,6 +23,8 @@
 //! The network error is sampled once per nominal update interval, half an interval after
 //! each nominal update instant: sample k, at `(k + ½)` intervals, sees the state after
 //! the k-th update round (round 0 has no beacons yet, so sample 0 is the start spread).
+//! A run takes samples 0 to `horizon_updates − 1` and never stops early; its settling
+//! verdict comes from a [`SettleTracker`] fed every sample.
 
 use std::collections::VecDeque;
 
@@ -30,11 +32,11 @@ use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 
 use super::error::SimError;
-use super::lock::{
-    LockTracker, TURN, largest_neighbour_diff, largest_pairwise_diff, winding_number,
-};
 use super::outcome::{RunOutcome, RunStats};
 use super::scenario::{Crystals, Scenario, StartPhases};
+use super::settle::{
+    SettleTracker, TURN, largest_neighbour_diff, largest_pairwise_diff, winding_number,
+};
 use super::trace::Trace;
 use crate::{Config, Node, NodeId, Observation, Phase, UpdateReport};
 
@@ -142,14 +144,15 @@ pub struct Network<const N: usize> {
     success_prob: f64,
     /// Index of the next sample.
     sample: u64,
-    tracker: LockTracker,
+    tracker: SettleTracker,
     last_rejoin: Option<u64>,
     stats: RunStats,
     phases: Vec<Option<Phase>>,
     live: Vec<Phase>,
     scratch: Vec<u32>,
     horizon: u64,
-    hold: u64,
+    /// The last sample taken.
+    last: Option<Sample>,
     /// Lock-step shortcut (see [`Network::event_driven`]): every node updates at the same
     /// instants, so rounds replace the event queue.
     lock_step: bool,
@@ -173,8 +176,9 @@ pub struct Sample {
     pub network_counts: u32,
     /// Largest wrapped difference across a link between live nodes, counts.
     pub link_counts: u32,
-    /// True once the lock is confirmed.
-    pub locked: bool,
+    /// Whether the sample is inside the tolerance band (both errors within the
+    /// tolerance and every node up).
+    pub inside: bool,
 }
 
 impl<const N: usize> Network<N> {
@@ -290,14 +294,14 @@ impl<const N: usize> Network<N> {
             ts_jitter: scenario.beacons.timestamp_jitter_ticks,
             success_prob: scenario.beacons.success_prob,
             sample: 0,
-            tracker: LockTracker::new(&scenario.lock, n),
+            tracker: SettleTracker::new(&scenario.settle, n, scenario.horizon_updates),
             last_rejoin: None,
             stats: RunStats::default(),
             phases: vec![None; n],
             live: Vec::with_capacity(n),
             scratch: Vec::new(),
             horizon: scenario.horizon_updates,
-            hold: scenario.lock.hold_updates,
+            last: None,
             lock_step,
             sent: start,
             delivered: vec![false; slots],
@@ -407,13 +411,15 @@ impl<const N: usize> Network<N> {
             .unwrap_or(0);
         let k = self.sample;
         self.sample += 1;
-        let locked = self.tracker.sample(k, network, link, &self.phases);
-        Sample {
+        let inside = self.tracker.sample(k, network, link, &self.phases);
+        let sample = Sample {
             at_updates: k,
             network_counts: network,
             link_counts: link,
-            locked,
-        }
+            inside,
+        };
+        self.last = Some(sample);
+        sample
     }
 
     fn reboot_event(&mut self) {
@@ -597,38 +603,30 @@ impl<const N: usize> Network<N> {
         self.rounds += 1;
     }
 
-    /// Whether the run is over: the lock is confirmed with no reboot still to come, or
-    /// the horizon has passed (no lock instant within it can still be confirmed).
-    fn finished(&self) -> bool {
-        let reboots_done = self.next_reboot >= self.reboots.len();
-        if self.tracker.lock().is_some() && reboots_done {
-            return true;
-        }
-        match self.tracker.candidate() {
-            Some(start) if start <= self.horizon && reboots_done => {
-                self.sample > start.saturating_add(self.hold)
-            }
-            _ => self.sample > self.horizon,
-        }
+    /// The settling tracker of this run (its verdict is final once the horizon is
+    /// covered).
+    #[must_use]
+    pub fn tracker(&self) -> &SettleTracker {
+        &self.tracker
     }
 
-    /// Run to lock (and past every reboot) or to the horizon, recording into `trace` if
-    /// given.
+    /// Run every sample up to the horizon (no early stop: settling is judged over the
+    /// whole run), recording into `trace` if given, and report the run. Samples already
+    /// taken with [`Network::step`] count; a network stepped past its horizon reports as
+    /// it stands.
     pub fn run(&mut self, mut trace: Option<&mut Trace>) -> RunOutcome {
-        let mut last = None;
-        while !self.finished() {
+        while self.sample < self.horizon {
             let s = self.step();
             if let Some(tr) = trace.as_deref_mut() {
                 tr.record(&s, &self.phases);
             }
-            last = Some(s);
         }
-        let last = last.unwrap_or(Sample {
-            at_updates: 0,
-            network_counts: 0,
-            link_counts: 0,
-            locked: false,
-        });
+        let settle = self.tracker.settle();
+        let first_entry = self.tracker.first_entry();
+        if let Some(tr) = trace {
+            tr.settle_updates = settle.map(|s| s.at_updates);
+            tr.first_entry_updates = first_entry;
+        }
         let winding = if self.ring {
             let phases: Vec<Phase> = self.phases.iter().flatten().copied().collect();
             (phases.len() == self.phases.len()).then(|| winding_number(&phases))
@@ -637,9 +635,12 @@ impl<const N: usize> Network<N> {
         };
         let live: Vec<Phase> = self.phases.iter().flatten().copied().collect();
         RunOutcome {
-            lock: self.tracker.lock(),
+            settle,
+            first_entry_updates: first_entry,
+            steady_counts: self.tracker.steady_counts().to_vec(),
+            steady_stride: self.tracker.stride(),
             samples: self.sample,
-            final_network_turns: f64::from(last.network_counts) / TURN,
+            final_network_turns: f64::from(self.last.map_or(0, |l| l.network_counts)) / TURN,
             final_link_turns: f64::from(largest_neighbour_diff_live(
                 &live,
                 &self.pairs,

@@ -1,6 +1,6 @@
 //! What one run produced.
 
-use super::lock::Lock;
+use super::settle::Settle;
 
 /// Counters of one run.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
@@ -21,13 +21,25 @@ pub struct RunStats {
     pub reboots: u64,
 }
 
-/// The result of one run.
-#[derive(Clone, Copy, Debug, PartialEq)]
+/// The result of one run (always run to its horizon).
+#[derive(Clone, Debug, PartialEq)]
 pub struct RunOutcome {
-    /// The confirmed lock (after the last reboot, if any), or `None` if the run never
-    /// locked within the horizon.
-    pub lock: Option<Lock>,
-    /// Samples taken (one per nominal update interval).
+    /// The settling instant and steady-window figures (after the last reboot, if any), or
+    /// `None` if the run never settled: its last exit from the tolerance band fell in the
+    /// final fifth of the horizon (see [`crate::sim::SettleTracker`]).
+    pub settle: Option<Settle>,
+    /// First entry: the first sample within the band since power-up, nominal update
+    /// intervals from the start, whether or not the run settled (`None`: never inside).
+    pub first_entry_updates: Option<u64>,
+    /// The steady window's largest pairwise differences across the network, counts
+    /// (2^32 a turn), one every [`RunOutcome::steady_stride`] samples: from
+    /// `max(settling instant, horizon/2)` to the end for a settled run, the final fifth
+    /// of the horizon for one that never settled. Pooled over runs for the noise floor.
+    pub steady_counts: Vec<u32>,
+    /// Samples between two entries of [`RunOutcome::steady_counts`] (see
+    /// [`crate::sim::steady_stride`]).
+    pub steady_stride: u64,
+    /// Samples taken (one per nominal update interval; the horizon).
     pub samples: u64,
     /// Largest pairwise phase difference across the network at the last sample, turns.
     pub final_network_turns: f64,

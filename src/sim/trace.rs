@@ -2,12 +2,12 @@
 
 use std::io;
 
-use super::lock::TURN;
 use super::network::Sample;
+use super::settle::TURN;
 use crate::Phase;
 
-/// The sampled error of one run (one sample per nominal update interval) and, if asked
-/// for, every node's phase.
+/// The sampled error of one run over its whole horizon (one sample per nominal update
+/// interval), its settling instant and first entry and, if asked for, every node's phase.
 #[derive(Clone, Debug, Default, PartialEq)]
 pub struct Trace {
     /// Nominal update interval, seconds (the time step between samples).
@@ -16,8 +16,13 @@ pub struct Trace {
     pub network_turns: Vec<f64>,
     /// Largest phase difference across a link per sample, turns.
     pub link_turns: Vec<f64>,
-    /// Whether the lock was confirmed at or before each sample.
-    pub locked: Vec<bool>,
+    /// Whether each sample was inside the tolerance band (both errors within the
+    /// tolerance, every node up).
+    pub inside: Vec<bool>,
+    /// The run's settling instant, sample index (`None`: never settled).
+    pub settle_updates: Option<u64>,
+    /// The run's first entry into the band, sample index (`None`: never inside).
+    pub first_entry_updates: Option<u64>,
     /// With [`Trace::with_phases`]: every node's phase per sample, turns in `[0, 1)`,
     /// row-major (`phases_turns[k·nodes + i]`), NaN for a node that is down.
     pub phases_turns: Vec<f64>,
@@ -63,7 +68,7 @@ impl Trace {
         self.network_turns
             .push(f64::from(sample.network_counts) / TURN);
         self.link_turns.push(f64::from(sample.link_counts) / TURN);
-        self.locked.push(sample.locked);
+        self.inside.push(sample.inside);
         if self.keep_phases {
             self.nodes = phases.len();
             self.phases_turns.extend(
@@ -74,30 +79,41 @@ impl Trace {
         }
     }
 
+    /// Whether sample `k` is at or after the settling instant (false throughout for a
+    /// run that never settled).
+    #[must_use]
+    pub fn settled_at(&self, k: usize) -> bool {
+        self.settle_updates
+            .is_some_and(|s| u64::try_from(k).is_ok_and(|k| k >= s))
+    }
+
     /// Write the trace as CSV: a header line, then one line per sample with the time in
-    /// seconds, the network and link errors in turns, the lock flag (0/1) and, if
-    /// recorded, one phase column per node (`phase_0`, `phase_1`, …; empty when down).
+    /// seconds (of the sample index, as the errors), the network and link errors in
+    /// turns, the inside-the-band flag (0/1), the settled flag (1 from the settling
+    /// instant on) and, if recorded, one phase column per node (`phase_0`, `phase_1`, …;
+    /// empty when down).
     ///
     /// # Errors
     /// Any error of the writer.
     pub fn write_csv(&self, out: &mut impl io::Write) -> io::Result<()> {
-        write!(out, "time_s,network_turns,link_turns,locked")?;
+        write!(out, "time_s,network_turns,link_turns,inside,settled")?;
         for i in 0..self.nodes {
             write!(out, ",phase_{i}")?;
         }
         writeln!(out)?;
-        for (k, ((net, link), locked)) in self
+        for (k, ((net, link), inside)) in self
             .network_turns
             .iter()
             .zip(&self.link_turns)
-            .zip(&self.locked)
+            .zip(&self.inside)
             .enumerate()
         {
             write!(
                 out,
-                "{},{net:.9},{link:.9},{}",
+                "{},{net:.9},{link:.9},{},{}",
                 k as f64 * self.update_period_s,
-                u8::from(*locked)
+                u8::from(*inside),
+                u8::from(self.settled_at(k))
             )?;
             let row = self
                 .phases_turns

@@ -3,6 +3,9 @@
 
 use entrain::{Config, Gain, Law, Node, Observation, Phase};
 
+#[cfg(feature = "sim")]
+pub mod sim;
+
 /// Ticks per phase turn and per update used by these tests: one update per turn of a
 /// 1 MHz timer, so a crystal error of e ppm is exactly e extra ticks per update.
 pub const TICKS: u32 = 1_000_000;

@@ -9,8 +9,9 @@
 //!   scenario's horizon. Settling time is when the error stays in the band for good, not
 //!   its first entry (standard control practice, no source). Quantiles over runs,
 //!   nominal update intervals.
-//! - **Noise floor**: the largest pairwise difference over the second half of the
-//!   horizon, pooled over runs (p50 and p99), turns.
+//! - **Noise floor**: the largest pairwise difference over each run's steady window
+//!   (from the settling instant or half the horizon on, as the simulator measures it),
+//!   pooled over runs (p50 and p99), turns.
 //! - **Slowest oscillation period** of the small-signal modes, for choosing a horizon.
 //!
 //! # The model and its derivation
@@ -97,11 +98,11 @@ use core::fmt;
 use nalgebra::{DMatrix, SymmetricEigen};
 use rayon::prelude::*;
 
-use crate::sim::{Scenario, SimError};
+use crate::sim::{Scenario, SimError, final_fifth_start, steady_stride};
 
 /// Predicted settling from random starts, nominal update intervals (nearest-rank
-/// quantiles over the sampled runs; a run that never settles within the horizon counts
-/// as the horizon).
+/// quantiles over the sampled runs that settle before the final fifth of the horizon,
+/// as the simulator counts them; NaN if none does).
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct SettleQuantiles {
     /// Median, updates (`0 ..= horizon`).
@@ -110,8 +111,8 @@ pub struct SettleQuantiles {
     pub p90: f64,
 }
 
-/// Predicted steady noise floor: the largest pairwise phase difference over the second
-/// half of the horizon, pooled over samples and runs, turns (`0 ..= ½`).
+/// Predicted steady noise floor: the largest pairwise phase difference over each run's
+/// steady window (see [`steady_window`]), pooled over runs, turns (`0 ..= ½`).
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct NoiseQuantiles {
     /// Median, turns.
@@ -167,16 +168,31 @@ impl std::error::Error for ForecastError {}
 /// criterion).
 #[must_use]
 pub fn tolerance_turns(s: &Scenario) -> f64 {
-    s.lock.tolerance_turns
+    s.settle.tolerance_turns
 }
 
-/// Settling of one error series: the first sample after the last one above `tol`
-/// (0 if none is), and whether the last sample is above.
+/// Settling of one error series as the simulator measures it: the sample after the
+/// last one above `tol` (0 if none is); `None` (not settled) when that falls in the
+/// final fifth of the series ([`crate::sim::final_fifth_start`]).
 #[must_use]
-pub fn last_exit(errors: &[f64], tol: f64) -> (usize, bool) {
-    let last = errors.iter().rposition(|&e| e > tol);
-    let settled = last.is_none_or(|k| k + 1 < errors.len());
-    (last.map_or(0, |k| k + 1), !settled)
+pub fn last_exit(errors: &[f64], tol: f64) -> Option<usize> {
+    let at = errors.iter().rposition(|&e| e > tol).map_or(0, |k| k + 1);
+    let fifth = final_fifth_start(errors.len() as u64);
+    ((at as u64) < fifth).then_some(at)
+}
+
+/// The steady-window samples of one error series, as the simulator pools them for its
+/// noise floor: every [`crate::sim::steady_stride`]-th sample from the settling instant
+/// or half the horizon, whichever is later (from the final fifth if not settled).
+pub fn steady_window(errors: &[f64], settle: Option<usize>) -> impl Iterator<Item = f64> + '_ {
+    let h = errors.len() as u64;
+    let stride = steady_stride(h);
+    let from = settle.map_or(final_fifth_start(h), |a| (a as u64).max(h / 2));
+    errors
+        .iter()
+        .enumerate()
+        .filter(move |&(k, _)| k as u64 >= from && k as u64 % stride == 0)
+        .map(|(_, &e)| e)
 }
 
 /// Nearest-rank quantile `q ∈ (0, 1]` of `sorted` (ascending, non-empty).
@@ -206,19 +222,22 @@ pub fn forecast(s: &Scenario, samples: usize, seed: u64) -> Result<Forecast, For
     }
     let setup = replica::Setup::new(s);
     let tol = tolerance_turns(s);
-    let per_run: Vec<(usize, bool, Vec<f64>)> = (0..samples as u64)
+    let per_run: Vec<(Option<usize>, Vec<f64>)> = (0..samples as u64)
         .into_par_iter()
         .map(|r| {
             let errors = replica::run(&setup, seed, r);
-            let (settle, never) = last_exit(&errors, tol);
-            let tail = errors.get(errors.len() / 2..).unwrap_or(&[]).to_vec();
-            (settle, never, tail)
+            let settle = last_exit(&errors, tol);
+            let tail = steady_window(&errors, settle).collect();
+            (settle, tail)
         })
         .collect();
-    let mut settle: Vec<f64> = per_run.iter().map(|r| r.0 as f64).collect();
+    let mut settle: Vec<f64> = per_run
+        .iter()
+        .filter_map(|r| r.0.map(|a| a as f64))
+        .collect();
     settle.sort_by(f64::total_cmp);
-    let never = per_run.iter().filter(|r| r.1).count() as f64 / samples as f64;
-    let mut tail: Vec<f64> = per_run.into_iter().flat_map(|r| r.2).collect();
+    let never = 1.0 - settle.len() as f64 / samples as f64;
+    let mut tail: Vec<f64> = per_run.into_iter().flat_map(|r| r.1).collect();
     tail.sort_by(f64::total_cmp);
     Ok(Forecast {
         settle_updates: SettleQuantiles {
@@ -286,4 +305,38 @@ pub fn mode_period(kp: f64, ki: f64, lambda: f64) -> Option<f64> {
     }
     let angle = (-disc).sqrt().atan2(b).abs();
     (angle > 0.0).then(|| core::f64::consts::TAU / angle)
+}
+
+/// The planner's model of `s`'s node law (gains, law, periods, latency in whole
+/// updates, loss, clamps), for setting [`crate::plan::settle`]'s worst-case bound beside
+/// the forecast. A zero trim range is the smallest positive one to the planner.
+#[must_use]
+pub fn planner_model(s: &Scenario) -> crate::plan::Model {
+    let c = &s.config;
+    let trim_ppm = f64::from(c.trim_limit_ppb()) / 1000.0;
+    crate::plan::Model {
+        law: c.law().into(),
+        kp: c.kp().to_f64(),
+        ki: c.ki().to_f64(),
+        update_period_s: s.update_period_s(),
+        phase_period_s: s.phase_period_s(),
+        delay_updates: s.beacons.latency_ticks / c.update_ticks(),
+        success_prob: s.beacons.success_prob,
+        slew_limit_turns: f64::from(c.slew_limit()) / 4_294_967_296.0,
+        trim_limit_ppm: if trim_ppm > 0.0 {
+            trim_ppm
+        } else {
+            f64::MIN_POSITIVE
+        },
+    }
+}
+
+/// The widest start spread of `s`, turns: the interval width for uniform start phases,
+/// the largest pairwise wrapped difference for given ones (`0 ..= ½` then).
+#[must_use]
+pub fn start_spread_turns(s: &Scenario) -> f64 {
+    match &s.start {
+        crate::sim::StartPhases::Uniform { spread_turns } => *spread_turns,
+        crate::sim::StartPhases::Fixed(v) => replica::largest_pairwise(v, &mut Vec::new()),
+    }
 }

@@ -3,14 +3,10 @@
 //! forecast, side by side.
 #![allow(dead_code)]
 
-use entrain::forecast::{Forecast, forecast, last_exit, nearest_rank, tolerance_turns};
+use entrain::forecast::{Forecast, forecast, planner_model, start_spread_turns, tolerance_turns};
 use entrain::plan::{self, Spread, Topology};
-use entrain::sim::{
-    Beacons, Crystals, Links, Network, Scenario, Schedule, StartPhases, model_of,
-    start_spread_turns,
-};
+use entrain::sim::{Beacons, Crystals, Links, Scenario, Schedule, StartPhases, monte_carlo};
 use entrain::{Config, Gain, Law};
-use rayon::prelude::*;
 
 /// Simulated runs per scenario.
 pub const RUNS: u64 = 200;
@@ -98,7 +94,7 @@ impl Spec {
             timestamp_jitter_ticks: self.jitter,
             success_prob: self.p,
         };
-        s.lock.tolerance_turns = self.tol;
+        s.settle.tolerance_turns = self.tol;
         Case {
             name: self.name,
             scenario: s,
@@ -350,7 +346,7 @@ pub fn planner_bound(s: &Scenario) -> Option<u64> {
         initial_spread_s: start_spread_turns(s) * period,
         tolerance_s: tolerance_turns(s) * period,
     };
-    plan::settle(&model_of(s), &spectrum, &spread)
+    plan::settle(&planner_model(s), &spectrum, &spread)
         .ok()?
         .bound_updates
 }
@@ -371,50 +367,31 @@ pub fn horizon(s: &mut Scenario) -> Option<u64> {
     bound
 }
 
-/// One simulated run, stepped to the horizon: the largest pairwise error per sample.
-fn simulate(s: &Scenario, seed: u64, run: u64) -> Vec<f64> {
-    let mut net = Network::<32>::new(s, seed, run).unwrap();
-    (0..s.horizon_updates)
-        .map(|_| f64::from(net.step().network_counts) / 4_294_967_296.0)
-        .collect()
-}
-
-/// Simulate and forecast one case.
+/// Simulate (the simulator's own Monte Carlo and measurement) and forecast one case.
 pub fn evaluate(case: &mut Case) -> Row {
     let bound = horizon(&mut case.scenario);
     let s = &case.scenario;
-    let tol = tolerance_turns(s);
     let t0 = std::time::Instant::now();
     let f = forecast(s, SAMPLES, 0xF0_4E).unwrap();
     let forecast_s = t0.elapsed().as_secs_f64();
     let t1 = std::time::Instant::now();
-    let runs: Vec<(usize, bool, Vec<f64>)> = (0..RUNS)
-        .into_par_iter()
-        .map(|r| {
-            let e = simulate(s, 0x51_4D, r);
-            let (settle, never) = last_exit(&e, tol);
-            (settle, never, e.get(e.len() / 2..).unwrap_or(&[]).to_vec())
-        })
-        .collect();
+    let sim = monte_carlo(s, RUNS as usize, 0x51_4D, &|_| {}).unwrap();
     let sim_s = t1.elapsed().as_secs_f64();
-    let mut settle: Vec<f64> = runs.iter().map(|r| r.0 as f64).collect();
-    settle.sort_by(f64::total_cmp);
-    let never = runs.iter().filter(|r| r.1).count() as f64 / RUNS as f64;
-    let mut tail: Vec<f64> = runs.into_iter().flat_map(|r| r.2).collect();
-    tail.sort_by(f64::total_cmp);
+    let settle = sim.settle_updates.unwrap();
+    let noise = sim.noise_floor_turns.unwrap();
     Row {
         name: case.name,
         nodes: s.nodes(),
         horizon: s.horizon_updates,
-        tol,
+        tol: tolerance_turns(s),
         forecast: f,
         bound,
-        sim_p50: nearest_rank(&settle, 0.5),
-        sim_p90: nearest_rank(&settle, 0.9),
-        sim_max: nearest_rank(&settle, 1.0),
-        sim_never: never,
-        sim_noise_p50: nearest_rank(&tail, 0.5),
-        sim_noise_p99: nearest_rank(&tail, 0.99),
+        sim_p50: settle.p50,
+        sim_p90: settle.p90,
+        sim_max: settle.max,
+        sim_never: sim.never_settled_fraction,
+        sim_noise_p50: noise.p50,
+        sim_noise_p99: noise.p99,
         forecast_s,
         sim_s,
     }

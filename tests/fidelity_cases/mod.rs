@@ -249,7 +249,7 @@ pub fn cases() -> Vec<Case> {
         // Loudspeaker ring with noisy timestamps: noise near the tolerance.
         Spec {
             spread: 0.05,
-            tol: 0.004,
+            tol: 0.0025,
             ppm: 10.0,
             latency: 0.25,
             jitter: 6,
@@ -318,6 +318,7 @@ pub fn cases() -> Vec<Case> {
         // Irrigation valves (edge list), PI, timestamp noise near the tolerance, ±40 ppm.
         Spec {
             spread: 0.08,
+            tol: 0.002,
             ppm: 40.0,
             latency: 1.0 / 3.0,
             jitter: 4,

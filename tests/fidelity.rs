@@ -62,3 +62,30 @@ fn forecast_and_bound_match_the_simulation() {
     }
     assert!(failures.is_empty(), "{}", failures.join("\n"));
 }
+
+/// Oscillation period of a PI mode against the polar form of its complex roots:
+/// `|z|² = c` and `cos(arg z) = b/(2√c)` for `z² − bz + c` (closed form, school algebra).
+#[test]
+fn mode_period_matches_the_polar_form() {
+    let (kp, ki, lambda) = (0.3, 0.02, 0.1);
+    let b = 2.0 - kp * lambda;
+    let c = 1.0 - kp * lambda + ki * lambda;
+    let angle = (b / (2.0 * f64::sqrt(c))).acos();
+    let want = std::f64::consts::TAU / angle;
+    let got = entrain::forecast::mode_period(kp, ki, lambda).unwrap();
+    assert!((got - want).abs() < 1e-9 * want, "{got} vs {want}");
+    // Real positive roots (λ = 1: discriminant 0.01) do not oscillate; a P mode past
+    // kp·λ = 1 alternates every update (period 2).
+    assert_eq!(entrain::forecast::mode_period(kp, ki, 1.0), None);
+    assert_eq!(entrain::forecast::mode_period(0.6, 0.0, 2.0), Some(2.0));
+}
+
+/// Last exit, not first entry: the error dips into the band, leaves it and comes back.
+#[test]
+fn settling_is_the_last_exit() {
+    let e = [0.5, 0.2, 0.5, 0.1, 0.1, 0.1, 0.1, 0.1, 0.1, 0.1];
+    assert_eq!(entrain::forecast::last_exit(&e, 0.3), Some(3));
+    // Outside in the final fifth (samples 8 and 9 of 10): not settled.
+    let late = [0.1, 0.1, 0.1, 0.1, 0.1, 0.1, 0.1, 0.1, 0.5, 0.1];
+    assert_eq!(entrain::forecast::last_exit(&late, 0.3), None);
+}

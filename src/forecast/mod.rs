@@ -191,7 +191,7 @@ pub fn steady_window(errors: &[f64], settle: Option<usize>) -> impl Iterator<Ite
     errors
         .iter()
         .enumerate()
-        .filter(move |&(k, _)| k as u64 >= from && k as u64 % stride == 0)
+        .filter(move |&(k, _)| k as u64 >= from && (k as u64).is_multiple_of(stride))
         .map(|(_, &e)| e)
 }
 

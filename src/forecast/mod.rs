@@ -7,7 +7,9 @@
 //! - **Settling** (last exit): per sampled run, the first sample after which the
 //!   largest pairwise wrapped phase difference stays within the tolerance up to the
 //!   scenario's horizon. Settling time is when the error stays in the band for good, not
-//!   its first entry (standard control practice, no source). Quantiles over runs,
+//!   its first entry (standard control practice, no source). A run whose last exit
+//!   falls in the final fifth of the horizon has not settled, as the simulator counts
+//!   it. Quantiles over the settled runs,
 //!   nominal update intervals.
 //! - **Noise floor**: the largest pairwise difference over each run's steady window
 //!   (from the settling instant or half the horizon on, as the simulator measures it),
@@ -126,7 +128,8 @@ pub struct NoiseQuantiles {
 pub struct Forecast {
     /// Settling (last exit from the tolerance), nominal updates.
     pub settle_updates: SettleQuantiles,
-    /// Fraction of sampled runs still outside the tolerance at the last sample (`0..=1`).
+    /// Fraction of sampled runs whose last exit falls in the final fifth of the horizon
+    /// (not settled, as the simulator counts them), `0..=1`.
     pub never_settled_fraction: f64,
     /// Steady largest pairwise error, turns.
     pub noise_floor_turns: NoiseQuantiles,

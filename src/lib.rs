@@ -30,6 +30,8 @@ pub mod assess;
 #[cfg_attr(docsrs, doc(cfg(feature = "beacon")))]
 pub mod beacon;
 mod config;
+#[cfg(feature = "sim")]
+pub mod forecast;
 mod gain;
 #[cfg(feature = "check")]
 #[cfg_attr(docsrs, doc(cfg(feature = "check")))]

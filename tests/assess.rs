@@ -219,14 +219,81 @@ fn reason_predicted_over_budget() {
     );
 }
 
+/// The footbridge example with its tolerance and timer replaced.
+fn footbridge(replace: &[(&str, &str)]) -> String {
+    let mut text = std::fs::read_to_string("examples/footbridge.toml").unwrap();
+    for (from, to) in replace {
+        assert!(text.contains(from), "{from}");
+        text = text.replace(from, to);
+    }
+    text
+}
+
 #[test]
-fn reasons_from_the_simulation() {
-    // Two seconds of simulation cannot see a string that takes minutes to lock.
+fn footbridge_as_first_shipped_does_not_pass() {
+    // ±1 µs timestamp jitter and whole-tick stamping against a 20 µs tolerance: the steady
+    // largest pairwise error reaches the band, so runs never settle for good.
     let a = run(
-        &chain(16, "kp = 0.2\nki = 0.01", "[monte_carlo]\nduration_s = 2"),
-        4,
+        &footbridge(&[("tolerance_s = 0.00004", "tolerance_s = 0.00002 #")]),
+        24,
     );
-    assert!(codes(&a).contains(&"runs_never_settled"), "{:?}", codes(&a));
+    assert!(!a.verdict.pass);
+    let c = codes(&a);
+    assert!(c.contains(&"runs_never_settled"), "{c:?}");
+    let v = a.simulation.as_ref().unwrap();
+    let p99 = v.summary.noise_floor_turns.unwrap().p99 * a.scenario.phase_period_s;
+    assert!(p99 > 0.5 * 20e-6, "{p99}");
+    // Independent of the verdict's own figures: re-read the runs' steady windows.
+    let never = v
+        .summary
+        .outcomes
+        .iter()
+        .filter(|o| o.settle.is_none())
+        .count();
+    assert!(never > 0);
+}
+
+#[test]
+fn reason_timer_resolution_and_noise_floor() {
+    // A 32,768 Hz watch-crystal timer: one tick is 30.5 µs, more than a quarter of the
+    // 40 µs tolerance (and whole-tick stamping alone fills the band).
+    let a = run(
+        &footbridge(&[("timer_hz = 1_000_000", "timer_hz = 32768")]),
+        0,
+    );
+    let c = codes(&a);
+    assert!(c.contains(&"timer_resolution"), "{c:?}");
+    assert!(c.contains(&"noise_floor"), "{c:?}");
+    // 1 ms at 32768 Hz is 32.768 ticks, run as 33: 33/32.768 − 1 = +7080.08 ppm (hand-computed).
+    assert_eq!(a.prediction.timer.ticks_per_period, 33);
+    assert!((a.prediction.timer.period_error_ppm - 7080.078).abs() < 0.01);
+    assert!(warning_codes(&a).contains(&"timer_rounding"));
+    let text = a
+        .verdict
+        .reasons
+        .iter()
+        .map(ToString::to_string)
+        .collect::<Vec<_>>();
+    assert!(text.iter().any(|t| t.contains("timer_hz")), "{text:?}");
+    assert!(
+        text.iter().any(|t| t.contains("lock.tolerance_s")),
+        "{text:?}"
+    );
+}
+
+#[test]
+fn the_quantile_is_the_scenarios() {
+    // The same design against its bound and against its p90: the bound is the larger.
+    let p90 = run(&footbridge(&[]), 0);
+    let bound = run(
+        &footbridge(&[("budget_s = 240", "budget_s = 240\nquantile = \"bound\"")]),
+        0,
+    );
+    let s90 = p90.prediction.settle.unwrap();
+    let sb = bound.prediction.settle.unwrap();
+    assert_eq!(s90.compared_s, s90.p90_s.unwrap());
+    assert_eq!(sb.compared_s, sb.bound_s);
+    assert!(sb.compared_s >= s90.compared_s);
 }
 
 #[test]
@@ -268,15 +335,19 @@ budget_s = 600
         .replace("cols = 12", "cols = 70");
     let b = run(&big, 0);
     assert!(warning_codes(&b).contains(&"lock_not_predicted"));
-    // Timestamp jitter as large as the tolerance.
+    // Timestamp jitter that puts the noise floor between half the tolerance and all of it.
     let j = run(
-        &chain(8, "kp = 0.3", "").replace(
-            "crystal_tolerance_ppm = 20",
-            "crystal_tolerance_ppm = 20\ntimestamp_jitter_s = 0.00002",
-        ),
+        &footbridge(&[(
+            "timestamp_jitter_s = 0.000001",
+            "timestamp_jitter_s = 0.0000015",
+        )]),
         0,
     );
-    assert!(warning_codes(&j).contains(&"jitter_near_tolerance"));
+    assert!(
+        warning_codes(&j).contains(&"noise_near_tolerance"),
+        "{:?}",
+        warning_codes(&j)
+    );
     // Every warning prints a sentence.
     for w in a.warnings.iter().chain(&j.warnings) {
         assert!(w.to_string().len() > 20);

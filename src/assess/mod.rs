@@ -53,17 +53,24 @@ mod error;
 mod network;
 mod prediction;
 mod simulation;
+mod timer;
 mod tuning;
 mod verdict;
 
 pub use constants::NodeConstants;
 pub use error::AssessError;
 pub use network::{NetworkModel, SpectrumSource};
-pub use prediction::{MarginCheck, Prediction, budget, model, predict};
+pub use prediction::{
+    FORECAST_MAX_WORK, FORECAST_MIN_SAMPLES, FORECAST_SAMPLES, FORECAST_SEED, HORIZON_BOUND_FACTOR,
+    HORIZON_SLOW_PERIODS, MarginCheck, NoiseFloorPrediction, Prediction, SettlePrediction, budget,
+    model, predict,
+};
 pub use simulation::{Simulation, setup, simulate};
+pub use timer::{MAX_TICK_FRACTION_OF_TOLERANCE, TimerCheck};
 pub use tuning::{ChosenGains, GainsSource, choose, search, tune};
 pub use verdict::{
-    MarginKind, Reason, Verdict, Warning, decide, prediction_warnings, seconds, simulation_warnings,
+    MarginKind, NOISE_WARNING_FRACTION, Reason, Verdict, Warning, decide, prediction_warnings,
+    seconds, simulated_settle_s, simulation_warnings,
 };
 
 use crate::scenario::Scenario;
@@ -136,7 +143,12 @@ pub fn assess(
         warnings.push(Warning::ClosestGainsShown);
     }
     let simulation = if options.runs > 0 {
-        let s = setup(&scenario, &network, &prediction.constants)?;
+        let s = setup(
+            &scenario,
+            &network,
+            &prediction.constants,
+            prediction.horizon_updates,
+        )?;
         let v = simulate(&scenario, s, options.runs, options.seed, progress)?;
         warnings.extend(simulation_warnings(&v));
         Some(v)

@@ -3,8 +3,32 @@
 use super::AssessError;
 use super::constants::NodeConstants;
 use super::network::NetworkModel;
+use super::simulation::setup;
+use super::timer::TimerCheck;
+use crate::forecast::{self, Forecast};
 use crate::plan::{self, Budget, Locking, Margins, Model, Noise, Settling, Spread, Stability};
-use crate::scenario::Scenario;
+use crate::scenario::{LockQuantile, MAX_SIM_UPDATES, Scenario};
+
+/// Sampled runs of the forecast behind the predicted settling distribution and noise
+/// floor (nearest-rank p90 from 200 samples has a sampling spread of a few per cent).
+pub const FORECAST_SAMPLES: usize = 200;
+
+/// Most neighbour-updates the forecast spends on one prediction (its samples shrink to
+/// fit, down to [`FORECAST_MIN_SAMPLES`]; below that the prediction rests on the bound).
+pub const FORECAST_MAX_WORK: f64 = 4.0e8;
+
+/// Fewest samples worth a forecast.
+pub const FORECAST_MIN_SAMPLES: usize = 20;
+
+/// Seed of the forecast's sampled runs (fixed, so a prediction repeats).
+pub const FORECAST_SEED: u64 = 0x5E77_1E00;
+
+/// The simulation horizon is at least this many times the worst-case settling bound.
+pub const HORIZON_BOUND_FACTOR: f64 = 3.0;
+
+/// The simulation horizon spans at least this many periods of the slowest oscillating
+/// mode (so a swing back out of the band is seen).
+pub const HORIZON_SLOW_PERIODS: f64 = 10.0;
 
 /// The planner's model of the node law for `scenario` at gains `kp`, `ki` (as the node
 /// runs them) and slew limit `slew_limit_turns` (as the node runs it).
@@ -62,8 +86,37 @@ impl MarginCheck {
     }
 }
 
-/// What the planner predicts at one pair of gains.
+/// Predicted settling (the instant after which the largest pairwise error stays within
+/// the tolerance), seconds.
 #[derive(Clone, Copy, Debug, PartialEq)]
+pub struct SettlePrediction {
+    /// Median over random power-up phases and crystal draws (forecast); `None` when the
+    /// forecast could not run or half its runs never settle.
+    pub p50_s: Option<f64>,
+    /// 90th percentile (forecast), as [`Self::p50_s`].
+    pub p90_s: Option<f64>,
+    /// Worst-case bound ([`crate::plan::predicted_lock_s`]: the planner's bound, never
+    /// below the slowest-mode estimate, times the loss slow-down).
+    pub bound_s: f64,
+    /// Fraction of the forecast's runs that never settle within the horizon.
+    pub never_settled_fraction: f64,
+    /// The figure the verdict compares with the budget: the scenario's quantile of the
+    /// forecast, or the bound; infinite when more runs than the quantile allows never
+    /// settle.
+    pub compared_s: f64,
+}
+
+/// Predicted steady noise floor: the largest pairwise error after settling, seconds.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct NoiseFloorPrediction {
+    /// Median.
+    pub p50_s: f64,
+    /// 99th percentile.
+    pub p99_s: f64,
+}
+
+/// What the planner predicts at one pair of gains.
+#[derive(Clone, Debug, PartialEq)]
 pub struct Prediction {
     /// The node-law constants the gains round to.
     pub constants: NodeConstants,
@@ -79,9 +132,21 @@ pub struct Prediction {
     pub locking: Option<Locking>,
     /// Steady phase jitter from timestamp jitter (only when stable and every mode is known).
     pub noise: Option<Noise>,
-    /// The predicted lock time compared with the budget, seconds
-    /// ([`crate::plan::predicted_lock_s`]); `None` when unstable.
+    /// The predicted lock time compared with the budget, seconds (see
+    /// [`SettlePrediction::compared_s`]); `None` when unstable.
     pub lock_s: Option<f64>,
+    /// The timer as the node runs it.
+    pub timer: TimerCheck,
+    /// The simulation horizon the prediction and the Monte Carlo share, updates.
+    pub horizon_updates: u64,
+    /// The horizon was cut to the simulator's limit below what the settling needs.
+    pub horizon_capped: bool,
+    /// Predicted settling (when stable).
+    pub settle: Option<SettlePrediction>,
+    /// Predicted noise floor (when the forecast ran).
+    pub noise_floor: Option<NoiseFloorPrediction>,
+    /// The forecast itself (when it ran).
+    pub forecast: Option<Forecast>,
 }
 
 impl Prediction {
@@ -151,7 +216,47 @@ pub fn predict(
         }
         _ => None,
     };
-    let lock_s = settling.as_ref().map(plan::predicted_lock_s);
+    let timer = TimerCheck::of(scenario);
+    let bound_s = settling.as_ref().map(plan::predicted_lock_s);
+    let (horizon_updates, horizon_capped) = horizon(scenario, network, &m, bound_s);
+    // The forecast steps the same setup the Monte Carlo runs, with an independent model.
+    let per_sample = 2.0
+        * network.spectrum.max_degree.max(1.0)
+        * network.spectrum.node_count as f64
+        * horizon_updates as f64;
+    let samples = ((FORECAST_MAX_WORK / per_sample) as usize).min(FORECAST_SAMPLES);
+    let forecast = match bound_s {
+        Some(_) if samples >= FORECAST_MIN_SAMPLES => {
+            let s = setup(scenario, network, &constants, horizon_updates)?;
+            forecast::forecast(&s, samples, FORECAST_SEED).ok()
+        }
+        _ => None,
+    };
+    let period = scenario.update_period_s();
+    let settle = bound_s.map(|bound_s| {
+        let finite = |u: f64| (u.is_finite()).then_some(u * period);
+        let at = |q: f64| {
+            forecast
+                .as_ref()
+                .and_then(|f| finite(f.settle_quantile_updates(q)))
+        };
+        let compared_s = match (scenario.quantile, &forecast) {
+            (LockQuantile::Fraction(q), Some(f)) => f.settle_quantile_updates(q) * period,
+            // Without a forecast the bound is all there is.
+            (LockQuantile::Fraction(_), None) | (LockQuantile::Bound, _) => bound_s,
+        };
+        SettlePrediction {
+            p50_s: at(0.5),
+            p90_s: at(0.9),
+            bound_s,
+            never_settled_fraction: forecast.as_ref().map_or(0.0, |f| f.never_settled_fraction),
+            compared_s,
+        }
+    });
+    let noise_floor = forecast.as_ref().map(|f| NoiseFloorPrediction {
+        p50_s: f.noise_floor_turns.p50 * scenario.phase_period_s,
+        p99_s: f.noise_floor_turns.p99 * scenario.phase_period_s,
+    });
     Ok(Prediction {
         constants,
         model: m,
@@ -160,6 +265,43 @@ pub fn predict(
         settling,
         locking,
         noise,
-        lock_s,
+        lock_s: settle.map(|s| s.compared_s),
+        timer,
+        horizon_updates,
+        horizon_capped,
+        settle,
+        noise_floor,
+        forecast,
     })
+}
+
+/// The simulation horizon, updates: at least [`HORIZON_BOUND_FACTOR`] × the worst-case
+/// bound, [`HORIZON_SLOW_PERIODS`] periods of the slowest oscillating mode, twice the
+/// budget, and the scenario's own `duration_s`; at most the simulator's limit (the second
+/// value says whether that cut it).
+fn horizon(
+    scenario: &Scenario,
+    network: &NetworkModel,
+    m: &Model,
+    bound_s: Option<f64>,
+) -> (u64, bool) {
+    let rate = scenario.update_rate_hz;
+    let period = network
+        .eigenvalues
+        .as_deref()
+        .unwrap_or(&[network.spectrum.lambda_slow, network.spectrum.lambda_max])
+        .iter()
+        .filter(|&&l| l > 1e-12)
+        .filter_map(|&l| forecast::mode_period(m.kp, m.ki, l))
+        .fold(0.0_f64, f64::max);
+    let need = [
+        bound_s.unwrap_or(0.0) * rate * HORIZON_BOUND_FACTOR,
+        period * HORIZON_SLOW_PERIODS,
+        2.0 * scenario.lock_budget_s * rate,
+        scenario.duration_s.unwrap_or(0.0) * rate,
+    ]
+    .into_iter()
+    .fold(0.0_f64, f64::max)
+    .ceil();
+    (need.min(MAX_SIM_UPDATES) as u64, need > MAX_SIM_UPDATES)
 }

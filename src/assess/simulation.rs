@@ -7,7 +7,8 @@ use super::network::NetworkModel;
 use crate::scenario::Scenario;
 use crate::sim;
 
-/// The simulator's setup for `scenario` on `network` at node constants `constants`.
+/// The simulator's setup for `scenario` on `network` at node constants `constants`, each
+/// run `horizon_updates` update intervals long.
 ///
 /// # Errors
 /// [`AssessError::Input`] for values the simulator refuses.
@@ -15,6 +16,7 @@ pub fn setup(
     scenario: &Scenario,
     network: &NetworkModel,
     constants: &NodeConstants,
+    horizon_updates: u64,
 ) -> Result<sim::Scenario, AssessError> {
     let input = |message: String| AssessError::input(&scenario.path, message);
     let links = match (&network.topology, &network.graph) {
@@ -51,7 +53,7 @@ pub fn setup(
     s.settle = sim::SettleCriterion {
         tolerance_turns: scenario.lock_tolerance_s / scenario.phase_period_s,
     };
-    s.horizon_updates = (scenario.duration_s * scenario.update_rate_hz).ceil() as u64;
+    s.horizon_updates = horizon_updates;
     s.validate()
         .map_err(|e| input(format!("simulation: {e}")))?;
     Ok(s)

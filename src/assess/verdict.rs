@@ -4,7 +4,7 @@
 use super::prediction::Prediction;
 use super::simulation::Simulation;
 use crate::plan::Topology;
-use crate::scenario::{Layout, Scenario};
+use crate::scenario::{Layout, LockQuantile, Scenario};
 use std::fmt;
 
 /// Seconds with a unit scaled for people (`ns`, `µs`, `ms`, `s`, three decimals);
@@ -69,12 +69,33 @@ pub enum Reason {
         /// Out of how many.
         of: usize,
     },
-    /// The slowest simulated run settled after the budget.
+    /// The simulated settling at the scenario's quantile came after the budget.
     SimulatedOverBudget {
-        /// Its settling time, seconds.
+        /// That settling time, seconds.
         lock_s: f64,
         /// The budget, seconds.
         budget_s: f64,
+    },
+    /// The steady noise floor (p99 of the largest pairwise error after settling) reaches
+    /// the tolerance: the network drifts in and out of it for good.
+    NoiseFloor {
+        /// Predicted p99, seconds (when the forecast ran).
+        predicted_p99_s: Option<f64>,
+        /// Simulated p99, seconds (when simulated).
+        simulated_p99_s: Option<f64>,
+        /// The tolerance, seconds.
+        tolerance_s: f64,
+        /// The scenario's timestamp jitter, ± seconds.
+        jitter_s: f64,
+        /// One timer tick, seconds.
+        tick_s: f64,
+    },
+    /// A timer tick is not well below the tolerance.
+    TimerResolution {
+        /// One tick, seconds.
+        tick_s: f64,
+        /// The tolerance, seconds.
+        tolerance_s: f64,
     },
 }
 
@@ -89,6 +110,8 @@ impl Reason {
             Reason::PredictedOverBudget { .. } => "predicted_over_budget",
             Reason::RunsNeverSettled { .. } => "runs_never_settled",
             Reason::SimulatedOverBudget { .. } => "simulated_over_budget",
+            Reason::NoiseFloor { .. } => "noise_floor",
+            Reason::TimerResolution { .. } => "timer_resolution",
         }
     }
 }
@@ -117,10 +140,15 @@ impl fmt::Display for Reason {
                 "delay margin {value:.0} updates is below the required {required:.0} (margins.delay_updates): {:.0} more update(s) of link delay would make it unstable",
                 value + 1.0
             ),
-            Reason::PredictedOverBudget { lock_s, budget_s } => write!(
+            Reason::PredictedOverBudget { lock_s, budget_s } if lock_s.is_finite() => write!(
                 f,
-                "predicted lock time {} exceeds the budget {}",
+                "predicted settling {} (at the scenario's quantile) exceeds the budget {}",
                 seconds(lock_s),
+                seconds(budget_s)
+            ),
+            Reason::PredictedOverBudget { budget_s, .. } => write!(
+                f,
+                "more of the forecast's runs never settle than the scenario's quantile allows, so the predicted settling never fits the budget {}",
                 seconds(budget_s)
             ),
             Reason::RunsNeverSettled { runs, of } => write!(
@@ -129,9 +157,46 @@ impl fmt::Display for Reason {
             ),
             Reason::SimulatedOverBudget { lock_s, budget_s } => write!(
                 f,
-                "slowest simulated run settled after {}, beyond the budget {}",
+                "simulated settling {} (at the scenario's quantile) exceeds the budget {}",
                 seconds(lock_s),
                 seconds(budget_s)
+            ),
+            Reason::NoiseFloor {
+                predicted_p99_s,
+                simulated_p99_s,
+                tolerance_s,
+                jitter_s,
+                tick_s,
+            } => {
+                let p99 = predicted_p99_s
+                    .unwrap_or(0.0)
+                    .max(simulated_p99_s.unwrap_or(0.0));
+                write!(
+                    f,
+                    "noise floor: the steady largest pairwise error has p99 {} (predicted {}, simulated {}) against the tolerance {}; ",
+                    seconds(p99),
+                    predicted_p99_s.map_or("not run".to_owned(), seconds),
+                    simulated_p99_s.map_or("not run".to_owned(), seconds),
+                    seconds(tolerance_s)
+                )?;
+                write!(
+                    f,
+                    "grow lock.tolerance_s to at least {} (twice the p99 leaves room for rare excursions), or cut the timestamp noise (jitter ±{}, tick {}) by a factor of about {:.1}",
+                    seconds(2.0 * p99),
+                    seconds(jitter_s),
+                    seconds(tick_s),
+                    2.0 * p99 / tolerance_s
+                )
+            }
+            Reason::TimerResolution {
+                tick_s,
+                tolerance_s,
+            } => write!(
+                f,
+                "timer resolution: one tick is {} against a tolerance of {}; a tick must be at most a quarter of the tolerance: raise timing.timer_hz to at least {:.0} Hz or widen lock.tolerance_s",
+                seconds(tick_s),
+                seconds(tolerance_s),
+                4.0 / tolerance_s
             ),
         }
     }
@@ -152,12 +217,30 @@ pub enum Warning {
     BoundNotComputed,
     /// No worst-case lock test exists for this network at this size.
     LockNotPredicted,
-    /// The predicted steady jitter (3σ per node) reaches the lock tolerance.
-    JitterNearTolerance {
-        /// Three standard deviations of a node's steady phase, seconds.
-        three_sigma_s: f64,
+    /// The predicted noise-floor p99 is above [`NOISE_WARNING_FRACTION`] of the tolerance:
+    /// rare excursions may leave the band.
+    NoiseNearTolerance {
+        /// Predicted p99, seconds.
+        p99_s: f64,
         /// The tolerance, seconds.
         tolerance_s: f64,
+    },
+    /// Rounding the phase period to whole timer ticks moves it by more than the crystal
+    /// tolerance.
+    TimerRounding {
+        /// Period error from rounding, ppm.
+        period_error_ppm: f64,
+        /// The crystal tolerance, ppm.
+        crystal_ppm: f64,
+    },
+    /// The forecast did not run (too much work for the network's size and horizon, or a
+    /// setup it does not model): the predicted settling is the worst-case bound.
+    ForecastSkipped,
+    /// The horizon needed to tell settling from a passing entry is beyond the
+    /// simulator's limit: it was cut.
+    HorizonCapped {
+        /// The horizon used, updates.
+        updates: u64,
     },
     /// Nothing met the budget with the margins: the figures are for the tuner's closest
     /// gains.
@@ -181,7 +264,10 @@ impl Warning {
             Warning::SlewLimited => "slew_limited",
             Warning::BoundNotComputed => "bound_not_computed",
             Warning::LockNotPredicted => "lock_not_predicted",
-            Warning::JitterNearTolerance { .. } => "jitter_near_tolerance",
+            Warning::NoiseNearTolerance { .. } => "noise_near_tolerance",
+            Warning::TimerRounding { .. } => "timer_rounding",
+            Warning::HorizonCapped { .. } => "horizon_capped",
+            Warning::ForecastSkipped => "forecast_skipped",
             Warning::ClosestGainsShown => "closest_gains_shown",
             Warning::LockTestSufficientOnly => "lock_test_sufficient_only",
             Warning::TwistedRuns { .. } => "twisted_runs",
@@ -199,7 +285,7 @@ impl fmt::Display for Warning {
                 "this ring has stable twisted states: a large initial spread can leave it wound up for good",
             ),
             Warning::SlewLimited => f.write_str(
-                "the first corrections exceed the slew limit: the early phase is slew-limited and slower than the small-signal prediction",
+                "the first corrections exceed the slew limit: the forecast and the simulation step the clamp, the worst-case bound does not",
             ),
             Warning::BoundNotComputed => f.write_str(
                 "the worst-case settling bound was not computed (very slow mode); the dominant-mode estimate is used",
@@ -207,14 +293,25 @@ impl fmt::Display for Warning {
             Warning::LockNotPredicted => f.write_str(
                 "no worst-case lock test for this network: lock against the crystal tolerance is left to the simulation",
             ),
-            Warning::JitterNearTolerance {
-                three_sigma_s,
-                tolerance_s,
+            Warning::NoiseNearTolerance { p99_s, tolerance_s } => write!(
+                f,
+                "the predicted noise floor (p99 {}) is more than half the tolerance {}: rare excursions may leave the band",
+                seconds(p99_s),
+                seconds(tolerance_s)
+            ),
+            Warning::TimerRounding {
+                period_error_ppm,
+                crystal_ppm,
             } => write!(
                 f,
-                "predicted steady jitter (3 σ = {}) reaches the lock tolerance {}: the network may drift in and out of lock",
-                seconds(three_sigma_s),
-                seconds(tolerance_s)
+                "whole timer ticks move the phase period by {period_error_ppm:+.1} ppm, more than the crystal tolerance ±{crystal_ppm:.1} ppm: nodes with other timers will not share this period"
+            ),
+            Warning::ForecastSkipped => f.write_str(
+                "the settling forecast did not run (too much work for this network and horizon): the predicted settling is the worst-case bound, and the noise floor is not predicted",
+            ),
+            Warning::HorizonCapped { updates } => write!(
+                f,
+                "the simulation horizon was cut to the simulator's limit of {updates} updates, shorter than settling needs to be told apart from a passing entry"
             ),
             Warning::ClosestGainsShown => f.write_str(
                 "no gains meet the budget with the required margins: the figures are for the tuner's closest gains",
@@ -241,8 +338,33 @@ pub struct Verdict {
     pub reasons: Vec<Reason>,
 }
 
+/// Fraction of the tolerance above which the predicted noise-floor p99 draws a warning
+/// (own choice, no source).
+pub const NOISE_WARNING_FRACTION: f64 = 0.5;
+
+/// Nearest-rank quantile `q` of the simulated settling over *all* runs, seconds, with runs
+/// that never settled counted as infinitely slow; `max` of the settled runs for the bound.
+fn simulated_quantile_s(v: &Simulation, quantile: LockQuantile, period_s: f64) -> f64 {
+    let mut times: Vec<f64> = v
+        .summary
+        .outcomes
+        .iter()
+        .map(|o| {
+            o.settle
+                .map_or(f64::INFINITY, |s| s.at_updates as f64 * period_s)
+        })
+        .collect();
+    times.sort_by(f64::total_cmp);
+    let q = match quantile {
+        LockQuantile::Fraction(q) => q,
+        LockQuantile::Bound => 1.0,
+    };
+    let rank = ((q * times.len() as f64).ceil() as usize).clamp(1, times.len().max(1));
+    times.get(rank - 1).copied().unwrap_or(f64::INFINITY)
+}
+
 /// The verdict for `prediction` (and `simulation`, when run) against `scenario`'s
-/// budget and margins.
+/// budget, quantile, tolerance and margins.
 #[must_use]
 pub fn decide(
     scenario: &Scenario,
@@ -251,8 +373,15 @@ pub fn decide(
 ) -> Verdict {
     let mut reasons = Vec::new();
     let budget_s = scenario.lock_budget_s;
+    let tolerance_s = scenario.lock_tolerance_s;
     if !prediction.stability.stable {
         reasons.push(Reason::Unstable);
+    }
+    if !prediction.timer.tick_ok {
+        reasons.push(Reason::TimerResolution {
+            tick_s: prediction.timer.tick_s,
+            tolerance_s,
+        });
     }
     if prediction.locking.is_some_and(|l| !l.locks) {
         reasons.push(Reason::CannotLock);
@@ -274,6 +403,23 @@ pub fn decide(
             });
         }
     }
+    let predicted_p99_s = prediction.noise_floor.map(|n| n.p99_s);
+    let simulated_p99_s = simulation.and_then(|v| {
+        v.summary
+            .noise_floor_turns
+            .map(|n| n.p99 * scenario.phase_period_s)
+    });
+    if predicted_p99_s.is_some_and(|p| p >= tolerance_s)
+        || simulated_p99_s.is_some_and(|p| p >= tolerance_s)
+    {
+        reasons.push(Reason::NoiseFloor {
+            predicted_p99_s,
+            simulated_p99_s,
+            tolerance_s,
+            jitter_s: scenario.timestamp_jitter_s,
+            tick_s: prediction.timer.tick_s,
+        });
+    }
     if let Some(lock_s) = prediction.lock_s {
         if lock_s > budget_s {
             reasons.push(Reason::PredictedOverBudget { lock_s, budget_s });
@@ -281,25 +427,29 @@ pub fn decide(
     }
     if let Some(v) = simulation {
         let never = v.summary.runs.saturating_sub(v.summary.settled_runs);
-        if never > 0 {
+        let allowed = scenario.quantile.allowed_misses() * v.summary.runs as f64;
+        if never as f64 > allowed {
             reasons.push(Reason::RunsNeverSettled {
                 runs: never,
                 of: v.summary.runs,
             });
         }
-        if let Some(p) = v.summary.settle_s {
-            if p.max > budget_s {
-                reasons.push(Reason::SimulatedOverBudget {
-                    lock_s: p.max,
-                    budget_s,
-                });
-            }
+        let lock_s = simulated_quantile_s(v, scenario.quantile, scenario.update_period_s());
+        if lock_s.is_finite() && lock_s > budget_s {
+            reasons.push(Reason::SimulatedOverBudget { lock_s, budget_s });
         }
     }
     Verdict {
         pass: reasons.is_empty(),
         reasons,
     }
+}
+
+/// The simulated settling the verdict compares with the budget, seconds (see
+/// [`decide`]): infinite when too many runs never settled.
+#[must_use]
+pub fn simulated_settle_s(scenario: &Scenario, simulation: &Simulation) -> f64 {
+    simulated_quantile_s(simulation, scenario.quantile, scenario.update_period_s())
 }
 
 /// Warnings from the prediction.
@@ -323,14 +473,28 @@ pub fn prediction_warnings(scenario: &Scenario, p: &Prediction) -> Vec<Warning> 
     if p.locking.is_none() {
         w.push(Warning::LockNotPredicted);
     }
-    if let Some(n) = &p.noise {
-        // Three standard deviations: common practice, no source.
-        if 3.0 * n.phase_sd_s > scenario.lock_tolerance_s {
-            w.push(Warning::JitterNearTolerance {
-                three_sigma_s: 3.0 * n.phase_sd_s,
-                tolerance_s: scenario.lock_tolerance_s,
+    if let Some(n) = &p.noise_floor {
+        let tolerance_s = scenario.lock_tolerance_s;
+        if n.p99_s > NOISE_WARNING_FRACTION * tolerance_s && n.p99_s < tolerance_s {
+            w.push(Warning::NoiseNearTolerance {
+                p99_s: n.p99_s,
+                tolerance_s,
             });
         }
+    }
+    if p.timer.rounding_beyond_crystal {
+        w.push(Warning::TimerRounding {
+            period_error_ppm: p.timer.period_error_ppm,
+            crystal_ppm: scenario.crystal_tolerance_ppm,
+        });
+    }
+    if p.stability.stable && p.forecast.is_none() {
+        w.push(Warning::ForecastSkipped);
+    }
+    if p.horizon_capped {
+        w.push(Warning::HorizonCapped {
+            updates: p.horizon_updates,
+        });
     }
     if matches!(
         scenario.layout,

@@ -124,7 +124,7 @@ pub struct NoiseQuantiles {
 }
 
 /// What [`forecast`] predicts for a scenario.
-#[derive(Clone, Copy, Debug, PartialEq)]
+#[derive(Clone, Debug, PartialEq)]
 pub struct Forecast {
     /// Settling (last exit from the tolerance), nominal updates.
     pub settle_updates: SettleQuantiles,
@@ -138,6 +138,22 @@ pub struct Forecast {
     pub slowest_oscillation_period_updates: Option<f64>,
     /// Sampled runs.
     pub samples: usize,
+    /// Settling of every sampled run that settled, nominal updates, ascending.
+    pub settled_updates: Vec<f64>,
+}
+
+impl Forecast {
+    /// Settling at quantile `q ∈ (0, 1]` over *all* sampled runs, nominal updates, with
+    /// runs that never settle counted as infinitely slow (nearest rank): infinite when
+    /// more than `1 − q` of the runs never settle.
+    #[must_use]
+    pub fn settle_quantile_updates(&self, q: f64) -> f64 {
+        let rank = ((q * self.samples as f64).ceil() as usize).clamp(1, self.samples.max(1));
+        self.settled_updates
+            .get(rank - 1)
+            .copied()
+            .unwrap_or(f64::INFINITY)
+    }
 }
 
 /// Why [`forecast`] refused.
@@ -254,6 +270,7 @@ pub fn forecast(s: &Scenario, samples: usize, seed: u64) -> Result<Forecast, For
         },
         slowest_oscillation_period_updates: slowest_period(s),
         samples,
+        settled_updates: settle,
     })
 }
 

@@ -180,7 +180,7 @@ pub(crate) fn settle_with(
     let radius = radius_slow.max(radius_fast);
     // The planner's delayed model delays the whole Laplacian; the node delays only its
     // neighbours' values, so a delayed law is refused only if the bound below diverges.
-    if radius.is_nan() || (radius >= 1.0 && model.delay_updates == 0) {
+    if radius.is_nan() || (radius >= 1.0 && (model.delay_updates == 0 || !run_recurrences)) {
         return Err(PlanError::Unstable);
     }
     let e0 = model.seconds_to_turns(spread.initial_spread_s);
@@ -226,8 +226,9 @@ pub(crate) fn settle_with(
         let (slow0, fast0, _) = radii(&undelayed, spectrum);
         let per_mode = steps_at(slow0.max(fast0), libm::log(threshold)) * f64::from(d + 1);
         if !run_recurrences {
-            // Normal-matrix form, ignoring the transient of the non-normal mode matrices.
-            Some(per_mode.max(0.0))
+            // The tuner's quick screen: normal-matrix form at the model's own radius,
+            // ignoring the transient of the non-normal mode matrices and the allowances.
+            Some(steps_at(radius, libm::log(threshold)).max(0.0))
         } else if per_mode.is_finite() && per_mode <= BOUND_ITERATION_CAP_UPDATES {
             let horizon = to_updates(4.0 * per_mode + 100.0);
             let (lo, hi) = (spectrum.lambda_slow, spectrum.lambda_max);

@@ -3,7 +3,7 @@
 use super::error::{PlanError, non_negative, positive};
 use super::lock::{Locking, lock_worst_case};
 use super::model::Model;
-use super::settle::{Settling, Spread, settle};
+use super::settle::{Settling, Spread, settle, settle_with};
 use super::spectrum::Spectrum;
 use super::stability::{margin_of, stable_with_delay};
 use super::topology::Topology;
@@ -271,7 +271,8 @@ fn scan(
             ki,
             ..*template
         };
-        let Ok(settling) = settle(&model, spectrum, &budget.spread) else {
+        // The quick screen: the bound's recurrences run only for the gains reported.
+        let Ok(settling) = settle_with(&model, spectrum, &budget.spread, false) else {
             return;
         };
         let locks = match flow_factor {

@@ -4,25 +4,7 @@
 //! `u32` binary angle (2^32 counts = one turn) or in turns, across the whole network
 //! and across links.
 //!
-//! # Settling
-//! Settling is meant as control engineering means it (common practice, no source): the
-//! instant after which the error stays within the tolerance band for good, not the first
-//! time it enters the band. A run of `H` samples (sample `k` at `k + ½` update
-//! intervals, `k < H`) judges every sample *inside* when both errors are within the
-//! tolerance and every node is up, *outside* otherwise; a reboot counts every sample up
-//! to the rejoin as outside ([`SettleTracker::restart`]).
-//!
-//! - **Settling instant**: the sample right after the last outside sample (0 if no
-//!   sample was outside).
-//! - **Not settled**: the last outside sample lies in the final fifth of the horizon (the
-//!   last `⌈H/5⌉` samples, from [`final_fifth_start`] on), which includes a run outside
-//!   at its end. A run needs that quiet tail to show that it stays in the band.
-//! - **First entry**: the first inside sample since power-up (a reboot does not reset
-//!   it); never later than the settling instant.
-//! - **Steady window**: from `max(settling instant, ⌊H/2⌋)` to the end for a settled
-//!   run, the final fifth for a run that never settled. Its largest pairwise errors,
-//!   taken every [`steady_stride`]`(H)`-th sample (at most about [`STEADY_SAMPLES`] a
-//!   run), are the run's contribution to the noise floor.
+//! Settling is defined on [`SettleTracker`].
 
 use super::scenario::SettleCriterion;
 use crate::Phase;
@@ -228,7 +210,26 @@ impl Window {
 }
 
 /// Follows the sampled error of one run over its horizon and finds the settling
-/// instant, the first entry and the steady window (see the [module docs](self)).
+/// instant, the first entry and the steady window.
+///
+/// Settling is meant as control engineering means it (common practice, no source): the
+/// instant after which the error stays within the tolerance band for good, not the first
+/// time it enters the band. A run of `H` samples (sample `k` at `k + ½` update
+/// intervals, `k < H`) judges every sample *inside* when both errors are within the
+/// tolerance and every node is up, *outside* otherwise; a reboot counts every sample up
+/// to the rejoin as outside ([`SettleTracker::restart`]).
+///
+/// - **Settling instant**: the sample right after the last outside sample (0 if no
+///   sample was outside).
+/// - **Not settled**: the last outside sample lies in the final fifth of the horizon (the
+///   last `⌈H/5⌉` samples, from [`final_fifth_start`] on), which includes a run outside
+///   at its end. A run needs that quiet tail to show that it stays in the band.
+/// - **First entry**: the first inside sample since power-up (a reboot does not reset
+///   it); never later than the settling instant.
+/// - **Steady window**: from `max(settling instant, ⌊H/2⌋)` to the end for a settled
+///   run, the final fifth for a run that never settled. Its largest pairwise errors,
+///   taken every [`steady_stride`]`(H)`-th sample (at most about [`STEADY_SAMPLES`] a
+///   run), are the run's contribution to the noise floor.
 ///
 /// Feed every sample in order with [`SettleTracker::sample`]; the verdict
 /// ([`SettleTracker::settle`]) is given once the horizon is covered. No allocation per

@@ -80,7 +80,7 @@ fn scenario_json(s: &Scenario) -> Value {
         "lock_budget_s": num(s.lock_budget_s),
         "runs": s.runs,
         "seed": s.seed,
-        "duration_s": num(s.duration_s),
+        "duration_s": opt(s.duration_s),
     })
 }
 

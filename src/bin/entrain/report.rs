@@ -1,7 +1,9 @@
 //! The human report: verdict first, then margins, then the figures behind them, then
 //! warnings and the caution. Aligned columns, a unit on every figure.
 
-use entrain::assess::{Assessment, GainsSource, NetworkModel, Warning, seconds};
+use entrain::assess::{
+    Assessment, GainsSource, NetworkModel, Warning, seconds, simulated_settle_s,
+};
 use entrain::plan::{GainChoice, GainRanges, Infeasibility, Search, Tuning};
 use entrain::scenario::{SCENARIO_VERSION, Scenario, law_keyword};
 use std::fmt::Write as _;
@@ -110,7 +112,8 @@ fn verdict(s: &mut String, r: &Assessment) {
         };
         let _ = writeln!(
             s,
-            "VERDICT: PASS  stable, locks, margins met, and {how} lock fits the {} budget",
+            "VERDICT: PASS  stable, locks, margins met, clear of the noise floor, and {how} settling ({}) fits the {} budget",
+            sc.quantile.label(),
             seconds(sc.lock_budget_s)
         );
     } else {
@@ -174,18 +177,20 @@ fn margins(s: &mut String, r: &Assessment) {
             s,
             "budget left, predicted",
             &seconds(sc.lock_budget_s - lock_s),
-            "budget minus predicted lock time",
+            &format!("budget minus predicted settling ({})", sc.quantile.label()),
         );
     }
     if let Some(v) = &r.simulation {
-        if let Some(pc) = v.summary.settle_s {
-            row(
-                s,
-                "budget left, simulated",
-                &seconds(sc.lock_budget_s - pc.max),
-                &format!("budget minus the slowest of {} runs", v.summary.runs),
-            );
-        }
+        row(
+            s,
+            "budget left, simulated",
+            &seconds(sc.lock_budget_s - simulated_settle_s(sc, v)),
+            &format!(
+                "budget minus simulated settling ({}) over {} runs",
+                sc.quantile.label(),
+                v.summary.runs
+            ),
+        );
     }
 }
 
@@ -193,6 +198,7 @@ fn figures(s: &mut String, r: &Assessment) {
     let sc = &r.scenario;
     let p = &r.prediction;
     let st = &p.stability;
+    let period = sc.update_period_s();
     heading(s, "Figures");
     row(s, "network", &sc.layout.describe(), "");
     row(
@@ -217,6 +223,22 @@ fn figures(s: &mut String, r: &Assessment) {
             sc.timer_hz
         ),
         "",
+    );
+    let t = &p.timer;
+    row(
+        s,
+        "  as the timer runs it",
+        &format!(
+            "{} ticks/turn, {} ticks/update",
+            t.ticks_per_period, t.update_ticks
+        ),
+        &format!(
+            "period {} ({:+.1} ppm), update {:+.1} ppm, tick {}",
+            seconds(t.period_s),
+            t.period_error_ppm,
+            t.update_error_ppm,
+            seconds(t.tick_s)
+        ),
     );
     let source = match r.gains.source {
         GainsSource::Tuned => "gains (tuned, as flashed)",
@@ -243,9 +265,9 @@ fn figures(s: &mut String, r: &Assessment) {
         s,
         "link",
         &format!(
-            "latency {} ({} updates), loss {:.1} %, timestamp jitter ±{}",
+            "latency {} ({:.2} updates), loss {:.1} %, timestamp jitter ±{}",
             seconds(sc.latency_s),
-            sc.delay_updates(),
+            sc.latency_s * sc.update_rate_hz,
             sc.loss_fraction * 100.0,
             seconds(sc.timestamp_jitter_s)
         ),
@@ -260,53 +282,55 @@ fn figures(s: &mut String, r: &Assessment) {
             st.radius_slow, st.radius_fast
         ),
     );
-    if sc.loss_fraction > 0.0 {
+    row(
+        s,
+        "spread to tolerance",
+        &format!(
+            "{} → {}",
+            seconds(sc.initial_spread_s),
+            seconds(sc.lock_tolerance_s)
+        ),
+        "random power-up phases within the spread",
+    );
+    if let Some(se) = &p.settle {
+        let opt = |x: Option<f64>| x.map_or("never".to_owned(), seconds);
         row(
             s,
-            "convergence with loss",
-            &format!("{:.6}", st.mean_radius_with_loss),
-            &format!("mean dynamics, {:.2} × slower", st.loss_slowdown),
+            &format!("predicted settling ({})", sc.quantile.label()),
+            &seconds(se.compared_s),
+            "compared with the budget",
+        );
+        row(
+            s,
+            "  forecast p50, p90",
+            &format!("{}, {}", opt(se.p50_s), opt(se.p90_s)),
+            &format!(
+                "{} sampled runs of an independent model of the law; {:.0} % never settle",
+                p.forecast.as_ref().map_or(0, |f| f.samples),
+                se.never_settled_fraction * 100.0
+            ),
+        );
+        row(
+            s,
+            "  worst-case bound",
+            &seconds(se.bound_s),
+            "planner bound × loss slow-down; no start settles later",
         );
     }
     if let Some(se) = &p.settling {
         row(
             s,
-            "spread to tolerance",
-            &format!(
-                "{} → {}",
-                seconds(sc.initial_spread_s),
-                seconds(sc.lock_tolerance_s)
-            ),
-            "",
+            "  slew-limit floor",
+            &seconds(se.slew_floor_updates as f64 * period),
+            "no settling can come sooner",
         );
-        if let Some(lock_s) = p.lock_s {
-            row(
-                s,
-                "predicted lock time",
-                &seconds(lock_s),
-                "worst-case bound × loss slow-down",
-            );
-        }
-        row(s, "  slowest-mode estimate", &seconds(se.asymptotic_s), "");
-        if let Some(b) = se.bound_s {
-            row(s, "  worst-case bound", &seconds(b), "");
-        }
-        if sc.loss_fraction > 0.0 {
-            row(s, "  with message loss", &seconds(se.with_loss_s), "");
-        }
-        if let Some(sine) = se.sine_s {
-            row(
-                s,
-                "  sine, large spread",
-                &seconds(sine),
-                "slowest mode with the sine's weaker pull far from lock",
-            );
-        }
+    }
+    if let Some(n) = &p.noise_floor {
         row(
             s,
-            "  slew-limit floor",
-            &seconds(se.slew_floor_updates as f64 * sc.update_period_s()),
-            "no lock can come sooner",
+            "predicted noise floor",
+            &format!("p50 {}, p99 {}", seconds(n.p50_s), seconds(n.p99_s)),
+            "steady largest pairwise error from jitter and whole ticks",
         );
     }
     if let Some(l) = &p.locking {
@@ -334,25 +358,7 @@ fn figures(s: &mut String, r: &Assessment) {
                 &seconds(l.max_offset_s),
                 "the P law holds drift with a standing offset",
             );
-            row(
-                s,
-                "  steady correction",
-                &format!("{:.3e} turn/update", l.max_correction_turns_per_update),
-                if l.slew_ok {
-                    "within the slew limit"
-                } else {
-                    "beyond the slew limit"
-                },
-            );
         }
-    }
-    if let Some(n) = &p.noise {
-        row(
-            s,
-            "steady jitter",
-            &format!("{} rms", seconds(n.phase_sd_s)),
-            "from timestamp jitter, per node about the mean",
-        );
     }
     match &r.simulation {
         Some(v) => {
@@ -364,31 +370,41 @@ fn figures(s: &mut String, r: &Assessment) {
                 &format!(
                     "seed {}, {} simulated per run",
                     v.seed,
-                    seconds(sc.duration_s)
+                    seconds(p.horizon_updates as f64 * period)
                 ),
+            );
+            row(
+                s,
+                &format!("simulated settling ({})", sc.quantile.label()),
+                &seconds(simulated_settle_s(sc, v)),
+                "compared with the budget; a run that never settles counts as never",
             );
             if let Some(pc) = sm.settle_s {
                 row(
                     s,
-                    "simulated settling",
-                    &format!("p50 {}, p90 {}", seconds(pc.p50), seconds(pc.p90)),
+                    "  settled runs p50, p90",
+                    &format!("{}, {}", seconds(pc.p50), seconds(pc.p90)),
                     &format!("p99 {}, max {}", seconds(pc.p99), seconds(pc.max)),
                 );
             }
-            if let Some(res) = sm.residual_turns {
+            if let Some(pc) = sm.first_entry_s {
                 row(
                     s,
-                    "simulated residual",
-                    &seconds(res * sc.phase_period_s),
-                    "median largest pairwise difference after lock",
+                    "  first entry p50, p90",
+                    &format!("{}, {}", seconds(pc.p50), seconds(pc.p90)),
+                    "first time within the tolerance (not settling)",
                 );
             }
-            if let Some(j) = sm.jitter_turns {
+            if let Some(n) = sm.noise_floor_turns {
                 row(
                     s,
-                    "simulated jitter",
-                    &format!("{} rms", seconds(j * sc.phase_period_s)),
-                    "median over locked runs",
+                    "simulated noise floor",
+                    &format!(
+                        "p50 {}, p99 {}",
+                        seconds(n.p50 * sc.phase_period_s),
+                        seconds(n.p99 * sc.phase_period_s)
+                    ),
+                    "measured over each run's steady window",
                 );
             }
         }

@@ -1,5 +1,5 @@
 //! Forecast of settling and of the steady noise floor from a simulator
-//! [`Scenario`](crate::sim::Scenario), by an independent model of the network that is
+//! [`Scenario`], by an independent model of the network that is
 //! cheap to sample: the node law written out again in `f64`, in node coordinates,
 //! stepped on the real-time schedule the nodes' own timers give.
 //!

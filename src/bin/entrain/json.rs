@@ -162,6 +162,25 @@ fn prediction_json(p: &Prediction) -> Value {
         "locking": locking,
         "noise": noise,
         "lock_s": opt(p.lock_s),
+        "timer": {
+            "ticks_per_period": p.timer.ticks_per_period,
+            "period_s": num(p.timer.period_s),
+            "period_error_ppm": num(p.timer.period_error_ppm),
+            "tick_s": num(p.timer.tick_s),
+            "update_ticks": p.timer.update_ticks,
+        },
+        "horizon_updates": p.horizon_updates,
+        "settle_s": p.settle.map_or(Value::Null, |t| json!({
+            "p50": opt(t.p50_s),
+            "p90": opt(t.p90_s),
+            "bound": num(t.bound_s),
+            "compared": num(t.compared_s),
+            "never_settled_fraction": num(t.never_settled_fraction),
+        })),
+        "noise_floor_s": p.noise_floor.map_or(Value::Null, |n| json!({
+            "p50": num(n.p50_s),
+            "p99": num(n.p99_s),
+        })),
     })
 }
 

@@ -59,13 +59,16 @@ pub struct Envelope {
     pub bound_s: Option<f64>,
 }
 
+/// Sample runs are data, not categories: shades of one slate blue, dark to light, so the
+/// saturated colours stay free for the prediction, the tolerance and the budget (own
+/// choice; lightness alone separates them for colour-blind readers).
 const TRACE_COLOURS: [RGBColor; 6] = [
-    RGBColor(31, 119, 180),
-    RGBColor(255, 127, 14),
-    RGBColor(44, 160, 44),
-    RGBColor(148, 103, 189),
-    RGBColor(140, 86, 75),
-    RGBColor(227, 119, 194),
+    RGBColor(38, 70, 103),
+    RGBColor(58, 96, 130),
+    RGBColor(80, 120, 152),
+    RGBColor(104, 144, 172),
+    RGBColor(130, 166, 190),
+    RGBColor(156, 186, 206),
 ];
 
 /// Draw sample runs' largest phase difference against time, with the tolerance band, the
@@ -251,7 +254,7 @@ pub fn lock_histogram(
                     let x0 = i as f64 * width;
                     Rectangle::new(
                         [(x0, 0), (x0 + width * 0.94, *c)],
-                        RGBColor(31, 119, 180).filled(),
+                        RGBColor(58, 96, 130).filled(),
                     )
                 }),
         )
@@ -263,7 +266,7 @@ pub fn lock_histogram(
         .legend(|(x, y)| {
             Rectangle::new(
                 [(x, y - 5), (x + 20, y + 5)],
-                RGBColor(31, 119, 180).filled(),
+                RGBColor(58, 96, 130).filled(),
             )
         });
     chart

@@ -3,42 +3,14 @@
 //! asked of [`entrain::plan`] here, from the same scenario the simulator runs.
 #![cfg(feature = "sim")]
 
-use entrain::plan::{self, Locking, Model, Settling, Spread, Topology};
+use entrain::forecast::planner_model;
+use entrain::plan::{self, Locking, Settling, Spread, Topology};
 use entrain::sim::{
     Beacons, Crystals, Links, Scenario, SettleCriterion, StartPhases, monte_carlo, run_once,
     trace_run,
 };
 use entrain::{Config, Gain, Law};
 use rayon::prelude::*;
-
-/// Counts per turn of the node's binary angle.
-const TURN: f64 = 4_294_967_296.0;
-
-/// The planner's model of `s`'s node law: the same gains, law, periods, latency, loss and
-/// clamps the simulated nodes run.
-fn model_of(s: &Scenario) -> Model {
-    let c = &s.config;
-    let law = match c.law() {
-        Law::Linear => plan::Law::Linear,
-        _ => plan::Law::Sine,
-    };
-    let trim_ppm = f64::from(c.trim_limit_ppb()) / 1000.0;
-    Model {
-        law,
-        kp: c.kp().to_f64(),
-        ki: c.ki().to_f64(),
-        update_period_s: s.update_period_s(),
-        phase_period_s: s.phase_period_s(),
-        delay_updates: s.beacons.latency_ticks / c.update_ticks(),
-        success_prob: s.beacons.success_prob,
-        slew_limit_turns: f64::from(c.slew_limit()) / TURN,
-        trim_limit_ppm: if trim_ppm > 0.0 {
-            trim_ppm
-        } else {
-            f64::MIN_POSITIVE
-        },
-    }
-}
 
 /// The planner's settling of a chain scenario from a start spread of `e0` turns to the
 /// scenario's tolerance.
@@ -49,7 +21,7 @@ fn settling(s: &Scenario, e0: f64) -> Settling {
         initial_spread_s: e0 * period,
         tolerance_s: s.settle.tolerance_turns * period,
     };
-    plan::settle(&model_of(s), &spectrum, &spread).unwrap()
+    plan::settle(&planner_model(s), &spectrum, &spread).unwrap()
 }
 
 /// The planner's lock verdict and per-edge steady offsets (`θ_{k+1} − θ_k`, turns) for a
@@ -59,7 +31,7 @@ fn chain_offsets(s: &Scenario) -> (Locking, Vec<f64>) {
         panic!("crystals must be given per node");
     };
     let mut offsets = vec![0.0; ppm.len() - 1];
-    let locking = plan::chain_lock(&model_of(s), ppm, &mut offsets).unwrap();
+    let locking = plan::chain_lock(&planner_model(s), ppm, &mut offsets).unwrap();
     (locking, offsets)
 }
 

@@ -92,14 +92,20 @@ pub fn check(r: &Assessment, command: &str) -> String {
     header(&mut s, command, sc);
     let _ = writeln!(s);
     verdict(&mut s, r);
-    margins(&mut s, r);
-    figures(&mut s, r);
-    if let Some(t) = &r.gains.tuning {
-        tuning(&mut s, t, sc);
-    }
-    warnings(&mut s, &r.warnings);
-    closing(&mut s);
+    body(&mut s, r);
     s
+}
+
+/// Margins, figures, tuning, warnings and the closing lines: what `check` and `tune`
+/// print after their heads.
+fn body(s: &mut String, r: &Assessment) {
+    margins(s, r);
+    figures(s, r);
+    if let Some(t) = &r.gains.tuning {
+        tuning(s, t, &r.scenario);
+    }
+    warnings(s, &r.warnings);
+    closing(s);
 }
 
 fn verdict(s: &mut String, r: &Assessment) {
@@ -595,13 +601,7 @@ pub fn tune(r: &Assessment, written: Option<&Path>) -> String {
             "the verdict fails: nothing is written",
         ),
     }
-    margins(&mut s, r);
-    figures(&mut s, r);
-    if let Some(t) = &r.gains.tuning {
-        tuning(&mut s, t, sc);
-    }
-    warnings(&mut s, &r.warnings);
-    closing(&mut s);
+    body(&mut s, r);
     s
 }
 

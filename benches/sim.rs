@@ -13,7 +13,7 @@ use std::time::Instant;
 
 use entrain::plan::Topology;
 use entrain::sim::{
-    Crystals, Links, Network, Scenario, Schedule, SettleCriterion, StartPhases, monte_carlo,
+    Crystals, Links, Network, Schedule, SettleCriterion, Setup, StartPhases, monte_carlo,
 };
 use entrain::{Config, Gain, Law, Node, Observation, Phase};
 use rayon::prelude::*;
@@ -71,7 +71,7 @@ fn start_turns(n: usize, run: usize) -> Vec<f64> {
 
 /// The simulator: lock-step network of real nodes, `rounds` samples per run.
 fn simulator<const N: usize>(l: &Links, runs: usize, rounds: u64) -> (u64, f64) {
-    let mut s = Scenario::new(l.clone(), config(), 1e6);
+    let mut s = Setup::new(l.clone(), config(), 1e6);
     s.start = StartPhases::Uniform { spread_turns: 0.4 };
     s.settle = SettleCriterion {
         tolerance_turns: 1e-9,
@@ -214,7 +214,7 @@ fn throughput<const N: usize>(name: &str, t: Topology, rounds: u64) {
 fn monte_carlo_chain() {
     // A footbridge handrail string of 24 sensors: ±20 ppm crystals, independent start
     // instants, update jitter, start phases within a fifth of a turn.
-    let mut s = Scenario::new(links(Topology::Chain { nodes: 24 }), config(), 1e6);
+    let mut s = Setup::new(links(Topology::Chain { nodes: 24 }), config(), 1e6);
     s.crystals = Crystals::Uniform {
         tolerance_ppm: 20.0,
     };

@@ -9,9 +9,12 @@
 #   5. the size probe and the sync-pulse demo run (pulse logs decoded when defmt-print
 #      is installed);
 #   6. the cost tables (instructions per update, per law and neighbour count);
-#   7. the chain of five emulated nodes locks.
+#   7. the chain of five emulated nodes locks;
+#   8. the figures in boards/README.md (digests, sizes, cost tables: all deterministic
+#      under -icount) are the ones this run printed (BOARDS_UPDATE_README=1 rewrites them).
 # environment: BOARDS_TARGET_DIR (default boards/target), HOST_TARGET_DIR (default
-# target/), NODES / RUN_MS / TOL_US for the chain (see run-chain.sh).
+# target/), NODES / RUN_MS / TOL_US for the chain (see run-chain.sh),
+# BOARDS_UPDATE_README=1 to rewrite the README's figures instead of checking them.
 set -euo pipefail
 
 started=$(date +%s)
@@ -20,6 +23,12 @@ export CARGO_TARGET_DIR=${BOARDS_TARGET_DIR:-$here/target}
 m4=$CARGO_TARGET_DIR/thumbv7em-none-eabihf/release
 m0=$CARGO_TARGET_DIR/thumbv6m-none-eabi/release
 step() { printf '\n== %s (%ss)\n' "$1" "$(( $(date +%s) - started ))"; }
+# What the README's figures block is generated from: the deterministic lines this run
+# prints, in the order printed.
+figures=$CARGO_TARGET_DIR/readme-figures.txt
+mkdir -p "$CARGO_TARGET_DIR"
+: >"$figures"
+record() { tee -a "$figures"; }
 
 step "tools"
 missing=()
@@ -32,6 +41,16 @@ fi
 qemu-system-arm --version | head -1
 if command -v rustup >/dev/null; then
     rustup target add thumbv7em-none-eabihf thumbv6m-none-eabi riscv32imc-unknown-none-elf
+fi
+# llvm-size for the size figures: on PATH, or rustup's llvm-tools component.
+llvm_size=$(command -v llvm-size || true)
+if [[ -z $llvm_size ]] && command -v rustup >/dev/null; then
+    rustup component add llvm-tools
+    llvm_size=$(find "$(rustc --print sysroot)/lib/rustlib" -name llvm-size -type f | head -1)
+fi
+if [[ -z $llvm_size ]]; then
+    echo "llvm-size not found (install llvm, or rustup component add llvm-tools)"
+    exit 1
 fi
 
 step "bit-exactness vectors are fresh"
@@ -72,14 +91,14 @@ qemu_m0() {
 }
 
 step "bit-exact replay"
-qemu_m4 "$m4/bitexact"
-qemu_m0 "$m0/bitexact"
+qemu_m4 "$m4/bitexact" | record
+qemu_m0 "$m0/bitexact" | record
 # The RISC-V board runs when QEMU's RISC-V system emulator is there (Debian package
 # qemu-system-misc, not installed by this script).
 if command -v qemu-system-riscv32 >/dev/null; then
     timeout 120 qemu-system-riscv32 -machine sifive_e -nographic -monitor none \
         -semihosting-config enable=on,target=native \
-        -kernel "$CARGO_TARGET_DIR/riscv32imc-unknown-none-elf/release/bitexact"
+        -kernel "$CARGO_TARGET_DIR/riscv32imc-unknown-none-elf/release/bitexact" | record
 else
     echo "sifive_e (RISC-V): built, not run (qemu-system-riscv32 missing; apt-get install qemu-system-misc)"
 fi
@@ -87,11 +106,11 @@ fi
 step "size of the node law alone (.text/.bss; size-empty is the same skeleton without it)"
 qemu_m4 "$m4/size"
 qemu_m0 "$m0/size"
-if command -v llvm-size >/dev/null; then
-    (cd "$CARGO_TARGET_DIR" && llvm-size thumbv7em-none-eabihf/release/size{,-empty} thumbv6m-none-eabi/release/size{,-empty})
-else
-    echo "llvm-size not found: sizes not printed"
-fi
+(cd "$CARGO_TARGET_DIR" && "$llvm_size" thumbv7em-none-eabihf/release/size{,-empty} thumbv6m-none-eabi/release/size{,-empty}) |
+    awk '{ print } $6 ~ /size$/ { text[$6] = $1; bss[$6] = $3 }
+         $6 ~ /size-empty$/ { split($6, p, "/"); full = p[1] "/" p[2] "/size";
+                              printf "law alone on %s: .text %d bytes, .bss %d bytes\n",
+                                     p[1], text[full] - $1, bss[full] - $3 }' | record
 
 step "sync pulse with defmt logs"
 for core in m4 m0; do
@@ -112,10 +131,13 @@ for core in m4 m0; do
 done
 
 step "cost of Node::update (instructions, -icount shift=0)"
-qemu_m4 "$m4/cost"
-qemu_m0 "$m0/cost"
+qemu_m4 "$m4/cost" | record
+qemu_m0 "$m0/cost" | record
 
 step "chain of emulated nodes"
 "$here/run-chain.sh" "$m4/chain"
+
+step "figures in boards/README.md are the ones printed above"
+"$here/readme-figures.sh" "$figures" "$here/README.md"
 
 step "done: boards CI passed in $(( $(date +%s) - started )) s"

@@ -31,6 +31,13 @@ pub mod assess;
 pub mod beacon;
 mod config;
 #[cfg(feature = "sim")]
+#[cfg_attr(docsrs, doc(cfg(feature = "sim")))]
+#[allow(
+    clippy::unwrap_used,
+    clippy::expect_used,
+    clippy::panic,
+    clippy::indexing_slicing
+)]
 pub mod forecast;
 mod gain;
 #[cfg(feature = "check")]
@@ -73,5 +80,5 @@ pub mod sim;
 pub use config::{Config, ConfigBuilder, ConfigError, MAX_TRIM_LIMIT_PPB};
 pub use gain::{GAIN_FRAC_BITS, Gain};
 pub use law::Law;
-pub use node::{Node, NodeId, Observation, TableFull, UpdateReport};
+pub use node::{MAX_NEIGHBOURS, Node, NodeId, Observation, TableFull, UpdateReport};
 pub use phase::Phase;

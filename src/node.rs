@@ -62,8 +62,8 @@ pub struct UpdateReport {
 struct Entry {
     id: NodeId,
     /// Estimated Δ (neighbour − self) at the node's current instant, plus the
-    /// node's cumulative correction then: Δ now = offset − corrections.
-    offset: u32,
+    /// node's cumulative correction then: Δ now = anchored_diff − corrections.
+    anchored_diff: u32,
     /// Local ticks when last heard.
     heard: u32,
 }
@@ -112,15 +112,22 @@ pub struct Node<const N: usize> {
     trim_next: i64,
     /// Local timer at the last advance.
     now: u32,
-    /// Sum of all corrections applied (wrapping), the reference of `Entry::offset`.
+    /// Sum of all corrections applied (wrapping), the reference of `Entry::anchored_diff`.
     corrections: u32,
     /// Completed turns, net of corrections stepping back across zero.
     cycles: u32,
     table: Vec<Entry, N>,
 }
 
+/// Largest neighbour table a [`Node`] holds (`N ≤ MAX_NEIGHBOURS`): table indices fit a `u8`.
+/// Every host-side neighbour limit (simulator, scenario files) is this one.
+pub const MAX_NEIGHBOURS: usize = 255;
+
 impl<const N: usize> Node<N> {
-    const CAPACITY_OK: () = assert!(N >= 1 && N <= 255, "a node holds 1 to 255 neighbours");
+    const CAPACITY_OK: () = assert!(
+        N >= 1 && N <= MAX_NEIGHBOURS,
+        "a node holds 1 to 255 neighbours"
+    );
 
     /// A node starting at `phase` with its timer reading `now_ticks`, no neighbours, and
     /// zero trim.
@@ -250,7 +257,7 @@ impl<const N: usize> Node<N> {
         let diff = (neighbour.wrapping_sub(self.acc).wrapping_add(1 << 31) >> 32) as u32;
         let entry = Entry {
             id: obs.from,
-            offset: diff.wrapping_add(self.corrections),
+            anchored_diff: diff.wrapping_add(self.corrections),
             heard: obs.rx_ticks,
         };
         if let Some(held) = self.table.iter_mut().find(|e| e.id == obs.from) {
@@ -305,7 +312,7 @@ impl<const N: usize> Node<N> {
             if age > timeout as i32 {
                 return false;
             }
-            let diff = e.offset.wrapping_sub(corrections) as i32;
+            let diff = e.anchored_diff.wrapping_sub(corrections) as i32;
             largest = largest.max(diff.unsigned_abs());
             sum = sum.wrapping_add(i64::from(L::pull(diff)));
             used = used.wrapping_add(1);

@@ -95,7 +95,7 @@ fn spectrum_of_the_greenhouse_grid_and_the_text_report() {
 /// The footbridge example as the planner sees it, mapped by hand from the file.
 fn footbridge_model() -> Model {
     Model {
-        law: plan::Law::Sine,
+        law: plan::Shape::Sine,
         kp: 15_073.0 / 65_536.0, // 0.23 × 65536 = 15073.28 → 15073 in Q16.16
         ki: 754.0 / 65_536.0,    // 0.0115 × 65536 = 753.66 → 754
         update_period_s: 0.1,
@@ -144,7 +144,7 @@ fn check_footbridge_matches_the_planner_and_the_simulator() {
         .timeout_ticks(500_000)
         .build()
         .unwrap();
-    let mut s = sim::Scenario::new(sim::Links::chain(24).unwrap(), config, 1e6);
+    let mut s = sim::Setup::new(sim::Links::chain(24).unwrap(), config, 1e6);
     s.crystals = sim::Crystals::Uniform {
         tolerance_ppm: 20.0,
     };
@@ -264,7 +264,7 @@ fn tune_writes_constants_that_build_the_tuned_config() {
     // The tuner called directly on the same model (courtyard: ring of 12, 20 Hz, 20 ms
     // turn, 3 ms latency = 0 updates, 10 % loss, slew 1/8 turn, trim ±150 ppm).
     let template = Model {
-        law: plan::Law::Sine,
+        law: plan::Shape::Sine,
         kp: 1.0,
         ki: 0.1,
         update_period_s: 0.05,

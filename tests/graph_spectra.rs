@@ -3,7 +3,7 @@
 #![cfg(feature = "check")]
 
 use entrain::graph::{Graph, GraphError};
-use entrain::plan::{Law, Model, Topology, stability};
+use entrain::plan::{Model, Shape, Topology, stability};
 use nalgebra::{DMatrix, SymmetricEigen};
 use proptest::prelude::*;
 
@@ -48,7 +48,7 @@ fn bad_edge_lists_are_errors() {
     let summary = split.spectrum().unwrap();
     assert!(!summary.connected && summary.lambda_slow == 0.0);
     // The planner refuses it with a clear error, never a NaN.
-    let m = Model::p_only(Law::Linear, 0.2, 0.1, 1e-3);
+    let m = Model::p_only(Shape::Linear, 0.2, 0.1, 1e-3);
     assert_eq!(
         stability(&m, &summary),
         Err(entrain::plan::PlanError::Disconnected)

@@ -6,13 +6,13 @@
 use std::f64::consts::PI;
 
 use entrain::plan::{
-    Law, Model, PlanError, Topology, chain_lock, kp_lock_minimum, lock_worst_case,
+    Model, PlanError, Shape, Topology, chain_lock, kp_lock_minimum, lock_worst_case,
     pinned_chain_lock, worst_chain_pattern,
 };
 use nalgebra::DMatrix;
 
 /// A model in which 1 ppm of crystal error is 1 turn per update (T/P = 1e6).
-fn unit_model(law: Law, kp: f64) -> Model {
+fn unit_model(law: Shape, kp: f64) -> Model {
     Model::p_only(law, kp, 1.0, 1e-6)
 }
 
@@ -23,7 +23,7 @@ fn strogatz_mirollo_critical_coupling() {
     let mut offsets = [0.0; 3];
     let kc = 1.2;
     let above = chain_lock(
-        &unit_model(Law::Sine, 2.0 * PI * kc * 1.001),
+        &unit_model(Shape::Sine, 2.0 * PI * kc * 1.001),
         &omega,
         &mut offsets,
     )
@@ -31,7 +31,7 @@ fn strogatz_mirollo_critical_coupling() {
     assert!(above.locks);
     assert!((above.edge_flow_turns_per_update - kc).abs() < 1e-12);
     let below = chain_lock(
-        &unit_model(Law::Sine, 2.0 * PI * kc * 0.999),
+        &unit_model(Shape::Sine, 2.0 * PI * kc * 0.999),
         &omega,
         &mut offsets,
     )
@@ -40,16 +40,16 @@ fn strogatz_mirollo_critical_coupling() {
     // Edge offsets −arcsin(S_k/K)/(2π) with S = [1.0, 1.2, 0.7] (partial sums by hand).
     let k = 2.0;
     let kp = 2.0 * PI * k;
-    let got = chain_lock(&unit_model(Law::Sine, kp), &omega, &mut offsets).unwrap();
+    let got = chain_lock(&unit_model(Shape::Sine, kp), &omega, &mut offsets).unwrap();
     assert!(got.locks);
     for (o, s) in offsets.iter().zip([1.0f64, 1.2, 0.7]) {
         assert!((o - (-(s / k).asin() / (2.0 * PI))).abs() < 1e-12);
     }
     // Linear law: offsets −S_k/kp, lock iff below ½ turn.
-    let lin = chain_lock(&unit_model(Law::Linear, 3.0), &omega, &mut offsets).unwrap();
+    let lin = chain_lock(&unit_model(Shape::Linear, 3.0), &omega, &mut offsets).unwrap();
     assert!(lin.locks && (offsets[1] + 0.4).abs() < 1e-12);
     assert!(
-        !chain_lock(&unit_model(Law::Linear, 2.4), &omega, &mut offsets)
+        !chain_lock(&unit_model(Shape::Linear, 2.4), &omega, &mut offsets)
             .unwrap()
             .locks
     );
@@ -60,7 +60,7 @@ fn sine_offsets_match_simulation() {
     // Run the sine law θ_i += ω_i + kp Σ sin(2π(θ_j − θ_i))/(2π) to its locked state.
     let omega = [0.004, -0.001, 0.002, -0.003, -0.002];
     let kp = 0.3;
-    let m = unit_model(Law::Sine, kp);
+    let m = unit_model(Shape::Sine, kp);
     let mut offsets = [0.0; 4];
     let lock = chain_lock(&m, &omega, &mut offsets).unwrap();
     assert!(lock.locks);
@@ -87,7 +87,7 @@ fn pinned_offsets_match_simulation() {
     let omega = [0.002, -0.001, 0.003];
     let kp = 0.4;
     let mut offsets = [0.0; 3];
-    let lock = pinned_chain_lock(&unit_model(Law::Sine, kp), &omega, &mut offsets).unwrap();
+    let lock = pinned_chain_lock(&unit_model(Shape::Sine, kp), &omega, &mut offsets).unwrap();
     assert!(lock.locks);
     let mut th = [0.0f64; 4]; // th[0] is the reference, never moves
     for _ in 0..20000 {
@@ -116,14 +116,14 @@ fn worst_chain_pattern_is_worst_by_brute_force() {
             let omega: Vec<f64> = (0..n)
                 .map(|i| if bits >> i & 1 == 1 { w } else { -w })
                 .collect();
-            let l = chain_lock(&unit_model(Law::Sine, 100.0), &omega, &mut offsets).unwrap();
+            let l = chain_lock(&unit_model(Shape::Sine, 100.0), &omega, &mut offsets).unwrap();
             worst = worst.max(l.edge_flow_turns_per_update);
         }
         let factor = Topology::Chain { nodes: n }.worst_flow_factor().unwrap();
         assert!((worst - factor * w).abs() < 1e-12, "n = {n}");
         let mut pattern = vec![0.0; n];
         worst_chain_pattern(w, false, &mut pattern).unwrap();
-        let l = chain_lock(&unit_model(Law::Sine, 100.0), &pattern, &mut offsets).unwrap();
+        let l = chain_lock(&unit_model(Shape::Sine, 100.0), &pattern, &mut offsets).unwrap();
         assert!((l.edge_flow_turns_per_update - factor * w).abs() < 1e-12);
     }
 }
@@ -156,7 +156,7 @@ fn worst_case_verdict_and_pi_trims() {
     let t = Topology::Chain { nodes: 8 };
     let sp = t.spectrum().unwrap();
     // 10 Hz updates, 1 ms phase period: 20 ppm is 2e-3 turns per update.
-    let m = Model::p_only(Law::Sine, 0.2, 0.1, 1e-3);
+    let m = Model::p_only(Shape::Sine, 0.2, 0.1, 1e-3);
     let f = t.worst_flow_factor().unwrap();
     let l = lock_worst_case(&m, &sp, f, 20.0).unwrap();
     assert!((l.edge_flow_turns_per_update - 2e-3 * 4.0).abs() < 1e-15);
@@ -198,7 +198,7 @@ fn worst_case_verdict_and_pi_trims() {
     let l = chain_lock(&pi, &[10.0, -5.0, 3.0, -8.0], &mut offsets).unwrap();
     assert_eq!(offsets, [0.0; 3]);
     assert!((l.trim_min_ppm - (0.0 - 10.0)).abs() < 1e-12 && (l.trim_max_ppm - 8.0).abs() < 1e-12);
-    assert!(l.locks && l.max_offset_turns == 0.0);
+    assert!(l.locks && l.max_edge_lag_turns == 0.0);
     let tight = Model {
         trim_limit_ppm: 5.0,
         ..pi
@@ -211,7 +211,7 @@ fn worst_case_verdict_and_pi_trims() {
     // Slew limit below the needed correction: no lock.
     let slow = Model {
         slew_limit_turns: 1e-4,
-        ..Model::p_only(Law::Sine, 2.0, 0.1, 1e-3)
+        ..Model::p_only(Shape::Sine, 2.0, 0.1, 1e-3)
     };
     assert!(
         !chain_lock(&slow, &[10.0, -5.0, 3.0, -8.0], &mut offsets)
@@ -222,7 +222,7 @@ fn worst_case_verdict_and_pi_trims() {
 
 #[test]
 fn bad_lock_inputs_are_errors() {
-    let m = unit_model(Law::Sine, 1.0);
+    let m = unit_model(Shape::Sine, 1.0);
     let mut out = [0.0; 1];
     assert!(matches!(
         chain_lock(&m, &[1.0], &mut []),
@@ -239,5 +239,5 @@ fn bad_lock_inputs_are_errors() {
     assert!(worst_chain_pattern(-1.0, false, &mut out).is_err());
     let sp = Topology::Chain { nodes: 3 }.spectrum().unwrap();
     assert!(lock_worst_case(&m, &sp, 1.0, f64::NAN).is_err());
-    assert!(lock_worst_case(&unit_model(Law::Sine, -1.0), &sp, 1.0, 1.0).is_err());
+    assert!(lock_worst_case(&unit_model(Shape::Sine, -1.0), &sp, 1.0, 1.0).is_err());
 }

@@ -2,7 +2,7 @@
 #![cfg(feature = "plan")]
 
 use entrain::plan::{
-    Budget, Infeasibility, Law, MIN_GAIN_MARGIN, Margins, Model, PlanError, Search, Spread,
+    Budget, Infeasibility, MIN_GAIN_MARGIN, Margins, Model, PlanError, Search, Shape, Spread,
     Topology, continuous_coherence, mode_variance, phase_jitter, predicted_lock_s, settle,
     stability, tune, tune_topology,
 };
@@ -46,7 +46,7 @@ fn pi_mode_variance_matches_lyapunov() {
 fn ring_jitter_scales_with_timestamp_jitter() {
     // Ring (regular, degree 2): per-node variance = 2(σ/P)²·(1/N)Σ mode variances.
     let t = Topology::Ring { nodes: 10 };
-    let m = Model::p_only(Law::Linear, 0.25, 0.1, 1e-3);
+    let m = Model::p_only(Shape::Linear, 0.25, 0.1, 1e-3);
     let n = phase_jitter(&m, &t.spectrum().unwrap(), t.nonzero_modes(), 1e-6).unwrap();
     let sum: f64 = t
         .nonzero_modes()
@@ -78,7 +78,7 @@ fn lock(_: &Model, s: &entrain::plan::Settling) -> f64 {
 #[test]
 fn tuner_recommends_gains_that_meet_the_budget() {
     let t = Topology::Chain { nodes: 16 };
-    let template = Model::p_only(Law::Sine, 0.1, 0.1, 1e-3);
+    let template = Model::p_only(Shape::Sine, 0.1, 0.1, 1e-3);
     let tuning = tune_topology(
         &template,
         &t,
@@ -113,7 +113,7 @@ fn tuner_recommends_gains_that_meet_the_budget() {
 #[test]
 fn tuner_explains_a_short_budget() {
     let t = Topology::Chain { nodes: 64 };
-    let template = Model::p_only(Law::Sine, 0.1, 0.1, 1e-3);
+    let template = Model::p_only(Shape::Sine, 0.1, 0.1, 1e-3);
     let tuning = tune_topology(
         &template,
         &t,
@@ -142,7 +142,7 @@ fn tuner_explains_a_short_budget() {
 #[test]
 fn tuner_reports_cannot_lock_and_pi_trims() {
     let t = Topology::Chain { nodes: 16 };
-    let template = Model::p_only(Law::Sine, 0.1, 0.1, 1e-3);
+    let template = Model::p_only(Shape::Sine, 0.1, 0.1, 1e-3);
     let tuning = tune_topology(
         &template,
         &t,
@@ -180,7 +180,7 @@ fn tuner_reports_cannot_lock_and_pi_trims() {
 #[test]
 fn tuner_bad_inputs_are_errors() {
     let sp = Topology::Chain { nodes: 5 }.spectrum().unwrap();
-    let m = Model::p_only(Law::Sine, 0.1, 0.1, 1e-3);
+    let m = Model::p_only(Shape::Sine, 0.1, 0.1, 1e-3);
     assert!(matches!(
         tune(
             &m,

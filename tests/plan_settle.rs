@@ -2,7 +2,7 @@
 //! direct simulation of the linear iteration written here.
 #![cfg(feature = "plan")]
 
-use entrain::plan::{Law, Model, PlanError, Spread, Topology, settle};
+use entrain::plan::{Model, PlanError, Shape, Spread, Topology, settle};
 
 fn laplacian_step(x: &[f64], kp: f64, edges: &[(usize, usize)]) -> Vec<f64> {
     let mut next = x.to_vec();
@@ -21,7 +21,7 @@ fn spread(x: &[f64]) -> f64 {
 fn xiao_boyd_p5_two_percent_in_19_steps() {
     // Xiao & Boyd 2004: P5 at ε* = 0.5, ρ* = 0.809016994: 2 % in 19 steps,
     // ⌈ln(0.02)/ln ρ⌉ (standard control practice).
-    let m = Model::p_only(Law::Linear, 0.5, 0.01, 1.0);
+    let m = Model::p_only(Shape::Linear, 0.5, 0.01, 1.0);
     let s = settle(
         &m,
         &Topology::Chain { nodes: 5 }.spectrum().unwrap(),
@@ -65,7 +65,7 @@ fn bound_holds_in_simulation() {
     for (kp, ki) in [(0.3, 0.0), (0.45, 0.0), (0.3, 0.03)] {
         let m = Model {
             ki,
-            ..Model::p_only(Law::Linear, kp, 0.01, 1.0)
+            ..Model::p_only(Shape::Linear, kp, 0.01, 1.0)
         };
         let s = settle(
             &m,
@@ -105,7 +105,7 @@ fn bound_holds_in_simulation() {
 #[test]
 fn sine_law_estimate_and_warnings() {
     let ring = Topology::Ring { nodes: 16 };
-    let m = Model::p_only(Law::Sine, 0.3, 0.01, 1.0);
+    let m = Model::p_only(Shape::Sine, 0.3, 0.01, 1.0);
     let small = settle(
         &m,
         &ring.spectrum().unwrap(),
@@ -148,7 +148,7 @@ fn sine_law_estimate_and_warnings() {
 #[test]
 fn bad_spreads_are_errors() {
     let sp = Topology::Chain { nodes: 5 }.spectrum().unwrap();
-    let m = Model::p_only(Law::Linear, 0.3, 0.01, 1.0);
+    let m = Model::p_only(Shape::Linear, 0.3, 0.01, 1.0);
     assert_eq!(
         settle(
             &m,
@@ -193,7 +193,7 @@ fn bad_spreads_are_errors() {
         ),
         Err(PlanError::InvalidParameter { .. })
     ));
-    let unstable = Model::p_only(Law::Linear, 0.6, 0.01, 1.0);
+    let unstable = Model::p_only(Shape::Linear, 0.6, 0.01, 1.0);
     assert_eq!(
         settle(
             &unstable,
@@ -217,7 +217,7 @@ fn delayed_bound_holds_in_simulation() {
     for (kp, d) in [(0.1, 1u32), (0.08, 2), (0.2, 1)] {
         let m = Model {
             delay_updates: d,
-            ..Model::p_only(Law::Linear, kp, 0.01, 1.0)
+            ..Model::p_only(Shape::Linear, kp, 0.01, 1.0)
         };
         let s = settle(
             &m,

@@ -316,7 +316,7 @@ fn huge_counts_are_refused_not_overflowed() {
     );
     assert_eq!(
         Topology::Chain {
-            nodes: entrain::plan::MAX_NODES + 1
+            nodes: entrain::plan::MAX_PLAN_NODES + 1
         }
         .lambda_slow(),
         Err(PlanError::TooManyNodes)

@@ -3,7 +3,7 @@
 #![cfg(feature = "plan")]
 
 use entrain::plan::{
-    Law, Model, PlanError, Topology, delay_gain_bound, mode_radius, pi_jury_stable, stability,
+    Model, PlanError, Shape, Topology, delay_gain_bound, mode_radius, pi_jury_stable, stability,
 };
 use nalgebra::DMatrix;
 use proptest::prelude::*;
@@ -11,7 +11,7 @@ use proptest::prelude::*;
 fn model(kp: f64, ki: f64) -> Model {
     Model {
         ki,
-        ..Model::p_only(Law::Linear, kp, 0.1, 1e-3)
+        ..Model::p_only(Shape::Linear, kp, 0.1, 1e-3)
     }
 }
 

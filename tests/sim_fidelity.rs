@@ -6,15 +6,14 @@
 use entrain::forecast::planner_model;
 use entrain::plan::{self, Locking, Settling, Spread, Topology};
 use entrain::sim::{
-    Beacons, Crystals, Links, Scenario, SettleCriterion, StartPhases, monte_carlo, run_once,
-    trace_run,
+    Beacons, Crystals, Links, SettleCriterion, Setup, StartPhases, monte_carlo, run_once, trace_run,
 };
 use entrain::{Config, Gain, Law};
 use rayon::prelude::*;
 
 /// The planner's settling of a chain scenario from a start spread of `e0` turns to the
 /// scenario's tolerance.
-fn settling(s: &Scenario, e0: f64) -> Settling {
+fn settling(s: &Setup, e0: f64) -> Settling {
     let spectrum = s.links.topology().unwrap().spectrum().unwrap();
     let period = s.phase_period_s();
     let spread = Spread {
@@ -26,7 +25,7 @@ fn settling(s: &Scenario, e0: f64) -> Settling {
 
 /// The planner's lock verdict and per-edge steady offsets (`θ_{k+1} − θ_k`, turns) for a
 /// chain scenario with crystals given per node.
-fn chain_offsets(s: &Scenario) -> (Locking, Vec<f64>) {
+fn chain_offsets(s: &Setup) -> (Locking, Vec<f64>) {
     let Crystals::Fixed(ppm) = &s.crystals else {
         panic!("crystals must be given per node");
     };
@@ -73,8 +72,8 @@ fn slow_mode_start(n: usize, spread: f64) -> Vec<f64> {
 }
 
 /// A lock-step, linear-law chain scenario from the slow-mode start.
-fn linear_chain(n: usize, kp: f64, e0: f64, tol: f64, horizon: u64) -> Scenario {
-    let mut s = Scenario::new(
+fn linear_chain(n: usize, kp: f64, e0: f64, tol: f64, horizon: u64) -> Setup {
+    let mut s = Setup::new(
         Links::chain(n).unwrap(),
         p_only(Law::Linear, kp, 100_000, M),
         1e6,
@@ -190,7 +189,7 @@ fn p_only_chain_locks_at_the_predicted_offsets_or_never() {
     let config = p_only(Law::Sine, kp, period, update);
     let gradient = |g: f64| -> Vec<f64> { (0..n).map(|i| g * (i as f64 - 3.5)).collect() };
     let scenario = |g: f64| {
-        let mut s = Scenario::new(Links::chain(n).unwrap(), config, 1e6);
+        let mut s = Setup::new(Links::chain(n).unwrap(), config, 1e6);
         s.crystals = Crystals::Fixed(gradient(g));
         s.start = StartPhases::Fixed(vec![0.0; n]);
         s.beacons = Beacons {
@@ -269,7 +268,7 @@ fn loss_slows_the_lock_by_the_predicted_factor() {
         .timeout_ticks(M)
         .build()
         .unwrap();
-    let mut s = Scenario::new(Links::chain(n).unwrap(), config, 1e6);
+    let mut s = Setup::new(Links::chain(n).unwrap(), config, 1e6);
     s.start = StartPhases::Fixed(slow_mode_start(n, e0));
     s.settle = SettleCriterion {
         tolerance_turns: tol,

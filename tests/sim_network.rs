@@ -9,7 +9,7 @@ use common::sim::{config, pool};
 use entrain::Law;
 use entrain::plan::Topology;
 use entrain::sim::{
-    Beacons, Crystals, Links, Network, Reboot, Scenario, Schedule, SettleCriterion, SimError,
+    Beacons, Crystals, Links, Network, Reboot, Schedule, SettleCriterion, Setup, SimError,
     StartPhases, monte_carlo, run_once, trace_run,
 };
 
@@ -18,8 +18,8 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 /// A courtyard lighting ring of 10 fixtures with everything random switched on: crystal
 /// spread, random start instants, update jitter, timestamp jitter, loss, latency and a
 /// reboot.
-fn messy_ring() -> Scenario {
-    let mut s = Scenario::new(Links::ring(10).unwrap(), config(Law::Sine, 0.4, 0.02), 1e6);
+fn messy_ring() -> Setup {
+    let mut s = Setup::new(Links::ring(10).unwrap(), config(Law::Sine, 0.4, 0.02), 1e6);
     s.crystals = Crystals::Uniform {
         tolerance_ppm: 30.0,
     };
@@ -78,7 +78,7 @@ fn same_seed_same_result_on_any_number_of_threads() {
 fn lock_step_shortcut_is_bit_identical_to_the_event_queue() {
     // Ideal crystals and a lock-step schedule qualify for the shortcut; loss, latency,
     // the PI law and the sine law exercise it.
-    let mut s = Scenario::new(
+    let mut s = Setup::new(
         Links::from_topology(&Topology::Grid { rows: 3, cols: 5 }).unwrap(),
         config(Law::Sine, 0.3, 0.03),
         1e6,
@@ -113,7 +113,7 @@ fn lock_step_shortcut_is_bit_identical_to_the_event_queue() {
 
 #[test]
 fn a_rebooted_node_rejoins_and_the_network_settles_again() {
-    let mut s = Scenario::new(Links::chain(6).unwrap(), config(Law::Sine, 0.4, 0.02), 1e6);
+    let mut s = Setup::new(Links::chain(6).unwrap(), config(Law::Sine, 0.4, 0.02), 1e6);
     s.crystals = Crystals::Uniform {
         tolerance_ppm: 20.0,
     };
@@ -152,7 +152,7 @@ fn a_rebooted_node_rejoins_and_the_network_settles_again() {
 fn ring_twisted_states_stick_or_unwind_as_published() {
     let n = 12;
     let run = |q: f64| {
-        let mut s = Scenario::new(Links::ring(n).unwrap(), config(Law::Sine, 0.3, 0.0), 1e6);
+        let mut s = Setup::new(Links::ring(n).unwrap(), config(Law::Sine, 0.3, 0.0), 1e6);
         // The twist plus a small seeded ripple, so the unstable state can leave.
         s.start = StartPhases::Fixed(
             (0..n)
@@ -171,7 +171,7 @@ fn ring_twisted_states_stick_or_unwind_as_published() {
     let four = run(4.0);
     assert_ne!(four.winding, Some(4));
     let summary = {
-        let mut s = Scenario::new(Links::ring(n).unwrap(), config(Law::Sine, 0.3, 0.0), 1e6);
+        let mut s = Setup::new(Links::ring(n).unwrap(), config(Law::Sine, 0.3, 0.0), 1e6);
         s.start = StartPhases::Uniform { spread_turns: 1.0 };
         s.horizon_updates = 3_000;
         monte_carlo(&s, 32, 3, &|_| {}).unwrap()
@@ -191,7 +191,7 @@ fn ring_twisted_states_stick_or_unwind_as_published() {
 #[test]
 fn summary_percentiles_come_from_the_run_outcomes() {
     // The footbridge string of the module example, ±20 ppm crystals.
-    let mut s = Scenario::new(Links::chain(12).unwrap(), config(Law::Sine, 0.4, 0.02), 1e6);
+    let mut s = Setup::new(Links::chain(12).unwrap(), config(Law::Sine, 0.4, 0.02), 1e6);
     s.crystals = Crystals::Uniform {
         tolerance_ppm: 20.0,
     };
@@ -234,7 +234,7 @@ fn summary_percentiles_come_from_the_run_outcomes() {
 
 #[test]
 fn trace_writes_csv() {
-    let mut s = Scenario::new(Links::chain(3).unwrap(), config(Law::Sine, 0.4, 0.0), 1e6);
+    let mut s = Setup::new(Links::chain(3).unwrap(), config(Law::Sine, 0.4, 0.0), 1e6);
     s.horizon_updates = 2_000;
     let (o, trace) = trace_run(&s, 2, 0, true).unwrap();
     assert_eq!((trace.len(), o.samples), (2_000, 2_000));
@@ -264,31 +264,31 @@ fn trace_writes_csv() {
 
 #[test]
 fn bad_input_is_an_error_not_a_panic() {
-    let base = Scenario::new(Links::chain(4).unwrap(), config(Law::Sine, 0.4, 0.0), 1e6);
-    let mut cases: Vec<Scenario> = Vec::new();
+    let base = Setup::new(Links::chain(4).unwrap(), config(Law::Sine, 0.4, 0.0), 1e6);
+    let mut cases: Vec<Setup> = Vec::new();
     for f in [
-        |s: &mut Scenario| s.tick_hz = 0.0,
-        |s: &mut Scenario| s.crystals = Crystals::Fixed(vec![0.0; 3]),
-        |s: &mut Scenario| {
+        |s: &mut Setup| s.tick_hz = 0.0,
+        |s: &mut Setup| s.crystals = Crystals::Fixed(vec![0.0; 3]),
+        |s: &mut Setup| {
             s.crystals = Crystals::Uniform {
                 tolerance_ppm: -1.0,
             }
         },
-        |s: &mut Scenario| s.beacons.success_prob = 0.0,
-        |s: &mut Scenario| s.beacons.success_prob = f64::NAN,
-        |s: &mut Scenario| s.start = StartPhases::Fixed(vec![f64::INFINITY; 4]),
-        |s: &mut Scenario| s.start = StartPhases::Uniform { spread_turns: 2.0 },
-        |s: &mut Scenario| {
+        |s: &mut Setup| s.beacons.success_prob = 0.0,
+        |s: &mut Setup| s.beacons.success_prob = f64::NAN,
+        |s: &mut Setup| s.start = StartPhases::Fixed(vec![f64::INFINITY; 4]),
+        |s: &mut Setup| s.start = StartPhases::Uniform { spread_turns: 2.0 },
+        |s: &mut Setup| {
             s.reboots = vec![Reboot {
                 node: 9,
                 at_updates: 1,
                 down_updates: 1,
             }]
         },
-        |s: &mut Scenario| s.settle.tolerance_turns = 0.5,
-        |s: &mut Scenario| s.horizon_updates = 0,
-        |s: &mut Scenario| s.horizon_updates = u64::MAX,
-        |s: &mut Scenario| s.schedule.jitter_ticks = 5_000,
+        |s: &mut Setup| s.settle.tolerance_turns = 0.5,
+        |s: &mut Setup| s.horizon_updates = 0,
+        |s: &mut Setup| s.horizon_updates = u64::MAX,
+        |s: &mut Setup| s.schedule.jitter_ticks = 5_000,
     ] {
         let mut s = base.clone();
         f(&mut s);
@@ -301,7 +301,7 @@ fn bad_input_is_an_error_not_a_panic() {
     }
     assert_eq!(monte_carlo(&base, 0, 0, &|_| {}), Err(SimError::NoRuns));
     // A table too small for the degree is refused, not overrun.
-    let star = Scenario::new(
+    let star = Setup::new(
         Links::from_topology(&Topology::Star { nodes: 6 }).unwrap(),
         config(Law::Sine, 0.1, 0.0),
         1e6,
@@ -329,7 +329,7 @@ fn bad_input_is_an_error_not_a_panic() {
 /// run for `horizon` updates; returns each node's common rate (trim plus crystal, ppm)
 /// at the end, and whether it settled.
 fn pi_string_rates(horizon: u64) -> (Vec<f64>, bool) {
-    let mut s = Scenario::new(Links::chain(24).unwrap(), config(Law::Sine, 0.3, 0.02), 1e6);
+    let mut s = Setup::new(Links::chain(24).unwrap(), config(Law::Sine, 0.3, 0.02), 1e6);
     s.crystals = Crystals::Uniform {
         tolerance_ppm: 20.0,
     };
@@ -384,7 +384,7 @@ fn pi_common_rate_holds_over_a_long_run() {
 fn pinned_chain_follows_its_reference() {
     let links = Links::from_topology(&Topology::PinnedChain { nodes: 5 }).unwrap();
     let reference = links.reference().unwrap();
-    let mut s = Scenario::new(links, config(Law::Sine, 0.4, 0.02), 1e6);
+    let mut s = Setup::new(links, config(Law::Sine, 0.4, 0.02), 1e6);
     s.crystals = Crystals::Uniform {
         tolerance_ppm: 20.0,
     };

@@ -11,7 +11,7 @@ mod common;
 use common::sim::{config, pool};
 
 use entrain::sim::{
-    Beacons, Crystals, Links, Scenario, Schedule, SettleCriterion, SettleTracker, StartPhases,
+    Beacons, Crystals, Links, Schedule, SettleCriterion, SettleTracker, Setup, StartPhases,
     monte_carlo, run_once, trace_run,
 };
 use entrain::{Law, Phase};
@@ -138,8 +138,8 @@ fn tracker_counts_down_nodes_and_restarts_as_outside() {
 /// with a negative discriminant, −4·ki·λ2 + ((kp + ki)λ2)² ≈ −0.0044: complex roots, an
 /// underdamped mode (damping ratio about kp·√λ2/(2√ki) ≈ 0.17, from the continuous
 /// approximation, from memory), so the error overshoots through the band.
-fn pi_chain(horizon: u64) -> Scenario {
-    let mut s = Scenario::new(Links::chain(16).unwrap(), config(Law::Sine, 0.3, 0.03), 1e6);
+fn pi_chain(horizon: u64) -> Setup {
+    let mut s = Setup::new(Links::chain(16).unwrap(), config(Law::Sine, 0.3, 0.03), 1e6);
     s.start = StartPhases::Uniform { spread_turns: 0.2 };
     s.settle = SettleCriterion {
         tolerance_turns: 1e-3,
@@ -239,8 +239,8 @@ fn settling_summary_is_the_same_on_one_and_two_threads() {
 
 /// A courtyard ring of 10 lamp controllers with ±20 ppm crystals, random start instants
 /// and a timestamp jitter of ±`jitter` ticks (one tick is 10⁻⁴ turn).
-fn noisy_ring(jitter: u32, tol: f64, horizon: u64) -> Scenario {
-    let mut s = Scenario::new(Links::ring(10).unwrap(), config(Law::Sine, 0.3, 0.02), 1e6);
+fn noisy_ring(jitter: u32, tol: f64, horizon: u64) -> Setup {
+    let mut s = Setup::new(Links::ring(10).unwrap(), config(Law::Sine, 0.3, 0.02), 1e6);
     s.crystals = Crystals::Uniform {
         tolerance_ppm: 20.0,
     };
@@ -263,7 +263,7 @@ fn noisy_ring(jitter: u32, tol: f64, horizon: u64) -> Scenario {
 /// The pooled steady-window samples, recomputed from raw traces by a separate loop:
 /// settling from the last exit, the window from max(settling, H/2) or the final fifth,
 /// every stride-th sample with stride ⌈⌊H/2⌋/1024⌉.
-fn pooled_from_traces(s: &Scenario, runs: u64, seed: u64) -> (Vec<f64>, usize) {
+fn pooled_from_traces(s: &Setup, runs: u64, seed: u64) -> (Vec<f64>, usize) {
     let h = s.horizon_updates as usize;
     let tol = s.settle.tolerance_turns;
     let stride = (h / 2).div_ceil(1024).max(1);

@@ -17,7 +17,7 @@ pub fn setup(
     network: &NetworkModel,
     constants: &NodeConstants,
     horizon_updates: u64,
-) -> Result<sim::Scenario, AssessError> {
+) -> Result<sim::Setup, AssessError> {
     let input = |message: String| AssessError::input(&scenario.path, message);
     let links = match (&network.topology, &network.graph) {
         (Some(t), _) => sim::Links::from_topology(t),
@@ -34,7 +34,7 @@ pub fn setup(
         .config()
         .map_err(|e| input(format!("law: the node law refuses these values: {e}")))?;
     let timer_hz = f64::from(scenario.timer_hz);
-    let mut s = sim::Scenario::new(links, config, timer_hz);
+    let mut s = sim::Setup::new(links, config, timer_hz);
     s.crystals = sim::Crystals::Uniform {
         tolerance_ppm: scenario.crystal_tolerance_ppm,
     };
@@ -69,7 +69,7 @@ pub struct Simulation {
     /// Master seed.
     pub seed: u64,
     /// The setup that was simulated (for tracing sample runs).
-    pub setup: sim::Scenario,
+    pub setup: sim::Setup,
 }
 
 /// Run `runs` runs of `setup` with master `seed`, reporting progress to `progress`.
@@ -78,7 +78,7 @@ pub struct Simulation {
 /// [`AssessError::Input`] for a request the simulator refuses.
 pub fn simulate(
     scenario: &Scenario,
-    setup: sim::Scenario,
+    setup: sim::Setup,
     runs: u32,
     seed: u64,
     progress: &(dyn Fn(sim::Progress) + Sync),

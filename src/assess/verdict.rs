@@ -100,6 +100,18 @@ pub enum Reason {
 }
 
 impl Reason {
+    /// Every reason's [`code`](Reason::code), in declaration order.
+    pub const CODES: &'static [&'static str] = &[
+        "unstable",
+        "cannot_lock",
+        "margin_too_small",
+        "predicted_over_budget",
+        "runs_never_settled",
+        "simulated_over_budget",
+        "noise_floor",
+        "timer_resolution",
+    ];
+
     /// Stable keyword for JSON.
     #[must_use]
     pub fn code(&self) -> &'static str {
@@ -255,6 +267,22 @@ pub enum Warning {
 }
 
 impl Warning {
+    /// Every warning's [`code`](Warning::code), in declaration order.
+    pub const CODES: &'static [&'static str] = &[
+        "spread_half_turn_or_more",
+        "twisted_states_possible",
+        "slew_limited",
+        "bound_not_computed",
+        "lock_not_predicted",
+        "noise_near_tolerance",
+        "timer_rounding",
+        "horizon_capped",
+        "forecast_skipped",
+        "closest_gains_shown",
+        "lock_test_sufficient_only",
+        "twisted_runs",
+    ];
+
     /// Stable keyword for JSON.
     #[must_use]
     pub fn code(&self) -> &'static str {

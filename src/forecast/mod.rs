@@ -1,5 +1,5 @@
 //! Forecast of settling and of the steady noise floor from a simulator
-//! [`Scenario`], by an independent model of the network that is
+//! [`Setup`], by an independent model of the network that is
 //! cheap to sample: the node law written out again in `f64`, in node coordinates,
 //! stepped on the real-time schedule the nodes' own timers give.
 //!
@@ -79,12 +79,12 @@
 //!
 //! ```
 //! use entrain::forecast::forecast;
-//! use entrain::sim::{Crystals, Links, Scenario};
+//! use entrain::sim::{Crystals, Links, Setup};
 //! use entrain::{Config, Gain};
 //!
 //! // Light fixtures around a courtyard: a ring of 10, 1 MHz timers, 10 ms period.
 //! let config = Config::builder(10_000, 10_000).kp(Gain::from_f32(0.3)?).build()?;
-//! let mut s = Scenario::new(Links::ring(10)?, config, 1e6);
+//! let mut s = Setup::new(Links::ring(10)?, config, 1e6);
 //! s.crystals = Crystals::Uniform { tolerance_ppm: 20.0 };
 //! s.horizon_updates = 400;
 //! let f = forecast(&s, 64, 1)?;
@@ -100,7 +100,7 @@ use core::fmt;
 use nalgebra::{DMatrix, SymmetricEigen};
 use rayon::prelude::*;
 
-use crate::sim::{Scenario, SimError, final_fifth_start, steady_stride};
+use crate::sim::{Setup, SimError, final_fifth_start, steady_stride};
 
 /// Predicted settling from random starts, nominal update intervals (nearest-rank
 /// quantiles over the sampled runs that settle before the final fifth of the horizon,
@@ -160,7 +160,7 @@ impl Forecast {
 #[derive(Clone, Debug, PartialEq)]
 pub enum ForecastError {
     /// The scenario's own validation failed.
-    Scenario(SimError),
+    Setup(SimError),
     /// Zero samples, or a horizon of fewer than 2 updates.
     TooFewSamples,
     /// The scenario has reboots, which the model does not follow.
@@ -170,7 +170,7 @@ pub enum ForecastError {
 impl fmt::Display for ForecastError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {
-            ForecastError::Scenario(e) => write!(f, "scenario: {e}"),
+            ForecastError::Setup(e) => write!(f, "scenario: {e}"),
             ForecastError::TooFewSamples => {
                 write!(f, "need at least one sample and a horizon of 2 updates")
             }
@@ -186,7 +186,7 @@ impl std::error::Error for ForecastError {}
 /// The scenario's settling tolerance, turns (one place to follow a rename of the
 /// criterion).
 #[must_use]
-pub fn tolerance_turns(s: &Scenario) -> f64 {
+pub fn tolerance_turns(s: &Setup) -> f64 {
     s.settle.tolerance_turns
 }
 
@@ -229,17 +229,17 @@ pub fn nearest_rank(sorted: &[f64], q: f64) -> f64 {
 /// depend on the thread count). Runs span `s.horizon_updates` samples.
 ///
 /// # Errors
-/// [`ForecastError::Scenario`] if the scenario does not validate;
+/// [`ForecastError::Setup`] if the scenario does not validate;
 /// [`ForecastError::TooFewSamples`]; [`ForecastError::RebootsNotModelled`].
-pub fn forecast(s: &Scenario, samples: usize, seed: u64) -> Result<Forecast, ForecastError> {
-    s.validate().map_err(ForecastError::Scenario)?;
+pub fn forecast(s: &Setup, samples: usize, seed: u64) -> Result<Forecast, ForecastError> {
+    s.validate().map_err(ForecastError::Setup)?;
     if samples == 0 || s.horizon_updates < 2 {
         return Err(ForecastError::TooFewSamples);
     }
     if !s.reboots.is_empty() {
         return Err(ForecastError::RebootsNotModelled);
     }
-    let setup = replica::Setup::new(s);
+    let setup = replica::Replica::new(s);
     let tol = tolerance_turns(s);
     let per_run: Vec<(Option<usize>, Vec<f64>)> = (0..samples as u64)
         .into_par_iter()
@@ -276,7 +276,7 @@ pub fn forecast(s: &Scenario, samples: usize, seed: u64) -> Result<Forecast, For
 
 /// Longest `2π/|arg z|` over the complex (or negative real) roots of the per-mode
 /// polynomials on the Laplacian's eigenvalues (grounded at a pinned reference).
-fn slowest_period(s: &Scenario) -> Option<f64> {
+fn slowest_period(s: &Setup) -> Option<f64> {
     let n = s.nodes();
     let reference = s.links.reference();
     let keep: Vec<usize> = (0..n).filter(|&i| Some(i) != reference).collect();
@@ -331,7 +331,7 @@ pub fn mode_period(kp: f64, ki: f64, lambda: f64) -> Option<f64> {
 /// updates, loss, clamps), for setting [`crate::plan::settle`]'s worst-case bound beside
 /// the forecast. A zero trim range is the smallest positive one to the planner.
 #[must_use]
-pub fn planner_model(s: &Scenario) -> crate::plan::Model {
+pub fn planner_model(s: &Setup) -> crate::plan::Model {
     let c = &s.config;
     let trim_ppm = f64::from(c.trim_limit_ppb()) / 1000.0;
     crate::plan::Model {
@@ -354,7 +354,7 @@ pub fn planner_model(s: &Scenario) -> crate::plan::Model {
 /// The widest start spread of `s`, turns: the interval width for uniform start phases,
 /// the largest pairwise wrapped difference for given ones (`0 ..= ½` then).
 #[must_use]
-pub fn start_spread_turns(s: &Scenario) -> f64 {
+pub fn start_spread_turns(s: &Setup) -> f64 {
     match &s.start {
         crate::sim::StartPhases::Uniform { spread_turns } => *spread_turns,
         crate::sim::StartPhases::Fixed(v) => replica::largest_pairwise(v, &mut Vec::new()),

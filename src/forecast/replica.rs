@@ -5,7 +5,7 @@
 //! specification (see the module docs of [`super`]) so that the forecast is an
 //! independent model of the simulation, not a second run of the same code.
 
-// Host-side code: every index comes from the adjacency built in `Setup::new`.
+// Host-side code: every index comes from the adjacency built in `Replica::new`.
 #![allow(clippy::indexing_slicing)]
 
 use std::collections::{BinaryHeap, VecDeque};
@@ -15,12 +15,12 @@ use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 
 use crate::Law;
-use crate::sim::{Crystals, Scenario, StartPhases};
+use crate::sim::{self, Crystals, StartPhases};
 
 /// What the stepping needs from a scenario, in model units: time in nominal timer
 /// ticks, phase in turns, phase relative to an ideal clock started at 0.
 #[derive(Clone, Debug)]
-pub(crate) struct Setup {
+pub(crate) struct Replica {
     /// Neighbour lists: node i hears `nbr[off[i]..off[i+1]]`.
     off: Vec<usize>,
     nbr: Vec<usize>,
@@ -51,8 +51,8 @@ pub(crate) struct Setup {
     pub(crate) horizon: usize,
 }
 
-impl Setup {
-    pub(crate) fn new(s: &Scenario) -> Setup {
+impl Replica {
+    pub(crate) fn new(s: &sim::Setup) -> Replica {
         let n = s.nodes();
         let mut lists: Vec<Vec<usize>> = vec![Vec::new(); n];
         for &(a, b) in s.links.pairs() {
@@ -81,7 +81,7 @@ impl Setup {
         }
         let c = &s.config;
         let r = 1.0 / f64::from(c.ticks_per_period());
-        Setup {
+        Replica {
             off,
             nbr,
             back,
@@ -125,7 +125,7 @@ struct Flight {
 /// A neighbour-table entry: Δ at observation plus the node's corrections then.
 #[derive(Clone, Copy, Debug)]
 struct Entry {
-    offset: f64,
+    anchored_diff: f64,
     /// Receiver's timestamp of the reception, local ticks.
     heard: f64,
 }
@@ -205,7 +205,7 @@ pub(crate) fn largest_pairwise(x: &[f64], scratch: &mut Vec<f64>) -> f64 {
 
 /// One run of the model from the generator's stream `run`: the largest pairwise phase
 /// error at each sample `k` (at `(k + ½)` update intervals), turns.
-pub(crate) fn run(setup: &Setup, seed: u64, run: u64) -> Vec<f64> {
+pub(crate) fn run(setup: &Replica, seed: u64, run: u64) -> Vec<f64> {
     let mut rng = ChaCha8Rng::seed_from_u64(seed);
     rng.set_stream(run);
     let n = setup.nodes();
@@ -223,11 +223,11 @@ pub(crate) fn run(setup: &Setup, seed: u64, run: u64) -> Vec<f64> {
             let e = if setup.reference == Some(i) {
                 0.0
             } else {
-                ppm.get(i).copied().unwrap_or(0.0) * 1e-6
+                ppm[i] * 1e-6
             };
             let x = match &setup.start {
                 StartPhases::Uniform { spread_turns } => (rng.random::<f64>() - 0.5) * spread_turns,
-                StartPhases::Fixed(v) => v.get(i).copied().unwrap_or(0.0),
+                StartPhases::Fixed(v) => v[i],
             };
             let first = if setup.random_start {
                 rng.random_range(0..setup.m as u64) as f64
@@ -282,7 +282,7 @@ pub(crate) fn run(setup: &Setup, seed: u64, run: u64) -> Vec<f64> {
 /// Node `i`'s update at real time `t` (ticks): take the beacons that arrived strictly
 /// before, apply the law, schedule the next update, send beacons.
 fn update(
-    setup: &Setup,
+    setup: &Replica,
     st: &mut [State],
     flights: &mut [VecDeque<Flight>],
     table: &mut [Option<Entry>],
@@ -314,7 +314,7 @@ fn update(
             let est = f.x + (r + me.trim) * span - r * (t - sent_at);
             let diff = est - me.x;
             let entry = Entry {
-                offset: diff + me.corr,
+                anchored_diff: diff + me.corr,
                 heard,
             };
             match &mut table[s] {
@@ -333,7 +333,7 @@ fn update(
                 *slot = None;
                 continue;
             }
-            let d = wrap(e.offset - me.corr);
+            let d = wrap(e.anchored_diff - me.corr);
             sum += if setup.sine { (TAU * d).sin() / TAU } else { d };
             used += 1;
         }

@@ -19,12 +19,15 @@ impl DenseSpectrum {
 
     /// λ2, the algebraic connectivity (0 for a disconnected graph, up to rounding).
     pub fn lambda2(&self) -> f64 {
-        self.eigenvalues.get(1).copied().unwrap_or(0.0)
+        self.eigenvalues[1]
     }
 
     /// λmax.
     pub fn lambda_max(&self) -> f64 {
-        self.eigenvalues.last().copied().unwrap_or(0.0)
+        *self
+            .eigenvalues
+            .last()
+            .expect("a spectrum of a graph with 2 or more nodes")
     }
 
     /// The eigenvector of λ2, scaled so its largest magnitude is 1 and its largest entry

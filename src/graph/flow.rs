@@ -30,9 +30,7 @@ impl Graph {
         Ok(self
             .edges()
             .iter()
-            .map(|e| {
-                e.weight * (x.get(e.a).copied().unwrap_or(0.0) - x.get(e.b).copied().unwrap_or(0.0))
-            })
+            .map(|e| e.weight * (x[e.a] - x[e.b]))
             .collect())
     }
 

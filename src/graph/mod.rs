@@ -78,8 +78,8 @@ pub struct Edge {
 pub struct Graph {
     nodes: usize,
     edges: Vec<Edge>,
-    /// `offsets[i]..offsets[i+1]` indexes `neighbours` for node i.
-    offsets: Vec<usize>,
+    /// `row_start[i]..row_start[i+1]` indexes `neighbours` for node i.
+    row_start: Vec<usize>,
     neighbours: Vec<(usize, f64)>,
     degrees: Vec<f64>,
     components: usize,
@@ -152,14 +152,11 @@ impl Graph {
                 }
             }
         }
-        let mut offsets = counts;
-        for i in 1..offsets.len() {
-            let prev = offsets.get(i - 1).copied().unwrap_or(0);
-            if let Some(o) = offsets.get_mut(i) {
-                *o += prev;
-            }
+        let mut row_start = counts;
+        for i in 1..row_start.len() {
+            row_start[i] += row_start[i - 1];
         }
-        let mut fill = offsets.clone();
+        let mut fill = row_start.clone();
         let mut neighbours = vec![(0_usize, 0.0_f64); 2 * list.len()];
         let mut degrees = vec![0.0_f64; nodes];
         for e in &list {
@@ -178,7 +175,7 @@ impl Graph {
         let mut graph = Self {
             nodes,
             edges: list,
-            offsets,
+            row_start,
             neighbours,
             degrees,
             components: 0,
@@ -248,8 +245,8 @@ impl Graph {
 
     /// Neighbours of `node` with the edge weights (empty for an unknown node).
     pub fn neighbours(&self, node: usize) -> &[(usize, f64)] {
-        let start = self.offsets.get(node).copied().unwrap_or(0);
-        let end = self.offsets.get(node + 1).copied().unwrap_or(start);
+        let start = self.row_start.get(node).copied().unwrap_or(0);
+        let end = self.row_start.get(node + 1).copied().unwrap_or(start);
         self.neighbours.get(start..end).unwrap_or(&[])
     }
 
@@ -298,11 +295,11 @@ impl Graph {
             }
         }
         for (i, out) in y.iter_mut().enumerate() {
-            let xi = x.get(i).copied().unwrap_or(0.0);
+            let xi = x[i];
             *out = self
                 .neighbours(i)
                 .iter()
-                .map(|&(j, w)| w * (xi - x.get(j).copied().unwrap_or(0.0)))
+                .map(|&(j, w)| w * (xi - x[j]))
                 .sum();
         }
         Ok(())

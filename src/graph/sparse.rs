@@ -103,8 +103,7 @@ impl Grounded {
     pub(crate) fn apply(&self, x: &[f64], y: &mut [f64]) {
         let n = self.nodes;
         let mean = x.iter().sum::<f64>() / n as f64;
-        let mut rhs =
-            Mat::<f64>::from_fn(n - 1, 1, |i, _| x.get(i + 1).copied().unwrap_or(0.0) - mean);
+        let mut rhs = Mat::<f64>::from_fn(n - 1, 1, |i, _| x[i + 1] - mean);
         self.llt.solve_in_place(rhs.as_mut());
         let solved = rhs.col_as_slice(0);
         if let Some(first) = y.first_mut() {
@@ -142,7 +141,7 @@ impl Shifted {
     }
 
     fn apply(&self, x: &[f64], y: &mut [f64]) {
-        let mut rhs = Mat::<f64>::from_fn(self.nodes, 1, |i, _| x.get(i).copied().unwrap_or(0.0));
+        let mut rhs = Mat::<f64>::from_fn(self.nodes, 1, |i, _| x[i]);
         self.llt.solve_in_place(rhs.as_mut());
         for (out, v) in y.iter_mut().zip(rhs.col_as_slice(0)) {
             *out = *v;
@@ -168,9 +167,9 @@ fn ritz(alphas: &[f64], betas: &[f64]) -> (f64, Vec<f64>) {
     let m = alphas.len();
     let t = DMatrix::<f64>::from_fn(m, m, |i, j| {
         if i == j {
-            alphas.get(i).copied().unwrap_or(0.0)
+            alphas[i]
         } else if i + 1 == j || j + 1 == i {
-            betas.get(i.min(j)).copied().unwrap_or(0.0)
+            betas[i.min(j)]
         } else {
             0.0
         }
@@ -266,7 +265,7 @@ fn lanczos_largest(
             alphas.push(alpha);
             let beta = dot(&w, &w).sqrt();
             (theta, s) = ritz(&alphas, &betas);
-            let residual = beta * s.last().copied().unwrap_or(0.0).abs();
+            let residual = beta * s.last().expect("a Ritz vector has m ≥ 1 entries").abs();
             let relative = if theta != 0.0 {
                 residual / theta.abs()
             } else {

@@ -17,7 +17,7 @@ pub enum PlanError {
         /// Node count that was given.
         got: usize,
     },
-    /// The node count is above [`crate::plan::MAX_NODES`] (or rows × cols overflowed).
+    /// The node count is above [`crate::plan::MAX_PLAN_NODES`] (or rows × cols overflowed).
     TooManyNodes,
     /// A numeric parameter is NaN, infinite or outside its valid range.
     InvalidParameter {
@@ -70,7 +70,7 @@ impl fmt::Display for PlanError {
             Self::TooManyNodes => write!(
                 f,
                 "too many nodes; at most {} are supported",
-                super::topology::MAX_NODES
+                super::topology::MAX_PLAN_NODES
             ),
             Self::InvalidParameter { name, valid } => {
                 write!(f, "parameter `{name}` is invalid; it must be {valid}")

@@ -8,7 +8,7 @@
 use core::f64::consts::PI;
 
 use super::error::{PlanError, non_negative};
-use super::model::{Law, Model};
+use super::model::{Model, Shape};
 use super::spectrum::Spectrum;
 
 /// Lock verdict for a crystal pattern or for the worst pattern within a tolerance.
@@ -25,9 +25,9 @@ pub struct Locking {
     pub lock_margin: f64,
     /// Largest steady phase offset across one edge, turns (0 for the PI law). Sine law:
     /// `arcsin(2π·flow/kp)/(2π)`; linear law: `flow/kp` (Strogatz & Mirollo 1988).
-    pub max_offset_turns: f64,
-    /// [`Self::max_offset_turns`] in seconds.
-    pub max_offset_s: f64,
+    pub max_edge_lag_turns: f64,
+    /// [`Self::max_edge_lag_turns`] in seconds.
+    pub max_edge_lag_s: f64,
     /// Largest steady correction one node applies per update, turns (its drift against
     /// the common rate; 0 for the PI law once trimmed).
     pub max_correction_turns_per_update: f64,
@@ -41,12 +41,12 @@ pub struct Locking {
     pub trim_ok: bool,
 }
 
-fn offset_turns(law: Law, flow: f64, kp: f64) -> f64 {
+fn edge_lag_turns(law: Shape, flow: f64, kp: f64) -> f64 {
     Model {
         law,
         ..Model::p_only(law, kp, 1.0, 1.0)
     }
-    .edge_offset_turns(flow)
+    .edge_lag_turns(flow)
 }
 
 fn verdict(
@@ -63,13 +63,13 @@ fn verdict(
         model.edge_capacity_turns_per_update()
     };
     let fits = match model.law {
-        Law::Sine => flow <= capacity,
-        Law::Linear => flow < capacity,
+        Shape::Sine => flow <= capacity,
+        Shape::Linear => flow < capacity,
     };
     let (offset, correction) = if pi {
         (0.0, 0.0)
     } else {
-        (offset_turns(model.law, flow, model.kp), correction)
+        (edge_lag_turns(model.law, flow, model.kp), correction)
     };
     let slew_ok = correction <= model.slew_limit_turns;
     let (trim_min_ppm, trim_max_ppm) = if pi {
@@ -88,8 +88,8 @@ fn verdict(
         edge_flow_turns_per_update: flow,
         edge_capacity_turns_per_update: capacity,
         lock_margin,
-        max_offset_turns: libm::fabs(offset),
-        max_offset_s: libm::fabs(offset) * model.phase_period_s,
+        max_edge_lag_turns: libm::fabs(offset),
+        max_edge_lag_s: libm::fabs(offset) * model.phase_period_s,
         max_correction_turns_per_update: correction,
         slew_ok,
         trim_min_ppm,
@@ -154,7 +154,7 @@ pub fn chain_lock(
         *slot = if model.is_pi() {
             0.0
         } else {
-            -offset_turns(model.law, partial, model.kp)
+            -edge_lag_turns(model.law, partial, model.kp)
         };
     }
     Ok(pattern_verdict(model, crystal_ppm, mean_ppm, flow))
@@ -202,7 +202,7 @@ pub fn pinned_chain_lock(
         *slot = if model.is_pi() {
             0.0
         } else {
-            offset_turns(model.law, tail, model.kp)
+            edge_lag_turns(model.law, tail, model.kp)
         };
     }
     Ok(pattern_verdict(model, crystal_ppm, 0.0, flow))
@@ -281,7 +281,7 @@ pub fn lock_worst_case(
 pub fn kp_lock_minimum(model: &Model, flow_factor: f64, tolerance_ppm: f64) -> f64 {
     let flow = model.ppm_to_turns_per_update(tolerance_ppm) * flow_factor;
     match model.law {
-        Law::Sine => 2.0 * PI * flow,
-        Law::Linear => 2.0 * flow,
+        Shape::Sine => 2.0 * PI * flow,
+        Shape::Linear => 2.0 * flow,
     }
 }

@@ -18,11 +18,11 @@
 //! phase period, sine law with `kp = 0.2`:
 //!
 //! ```
-//! use entrain::plan::{Law, Model, Spread, Topology, settle, stability};
+//! use entrain::plan::{Shape, Model, Spread, Topology, settle, stability};
 //!
 //! let string = Topology::Chain { nodes: 24 };
 //! let spectrum = string.spectrum()?;
-//! let model = Model::p_only(Law::Sine, 0.2, 0.1, 1e-3);
+//! let model = Model::p_only(Shape::Sine, 0.2, 0.1, 1e-3);
 //! let st = stability(&model, &spectrum)?;
 //! assert!(st.stable && st.gain_margin > 2.0);
 //! let s = settle(&model, &spectrum, &Spread { initial_spread_s: 4e-4, tolerance_s: 1e-6 })?;
@@ -45,13 +45,13 @@ pub use error::PlanError;
 pub use lock::{
     Locking, chain_lock, kp_lock_minimum, lock_worst_case, pinned_chain_lock, worst_chain_pattern,
 };
-pub use model::{Law, MAX_DELAY_UPDATES, Model};
+pub use model::{MAX_DELAY_UPDATES, Model, Shape};
 pub use noise::{Noise, continuous_coherence, mode_variance, phase_jitter};
 pub use roots::mode_radius;
 pub use settle::{BOUND_ITERATION_CAP_UPDATES, SettleWarnings, Settling, Spread, settle};
 pub use spectrum::Spectrum;
 pub use stability::{Stability, delay_gain_bound, pi_jury_stable, stability};
-pub use topology::{MAX_NODES, Topology, tridiagonal_toeplitz_eigenvalue};
+pub use topology::{MAX_PLAN_NODES, Topology, tridiagonal_toeplitz_eigenvalue};
 pub use tune::{
     Alternatives, Budget, GainChoice, GainRanges, Infeasibility, KP_SCAN_POINTS,
     MIN_DELAY_MARGIN_UPDATES, MIN_GAIN_MARGIN, Margins, PI_RATIOS, Search, Tuning, delay_margin,

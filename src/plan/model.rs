@@ -6,10 +6,12 @@ use super::error::{PlanError, non_negative, positive};
 /// degree `d + 2`).
 pub const MAX_DELAY_UPDATES: u32 = 30;
 
-/// The coupling function `f(Δ)` applied to each wrapped neighbour difference Δ (turns).
+/// The shape of the coupling function `f(Δ)` applied to each wrapped neighbour difference
+/// Δ (turns), as the planner sees it. Every node [`Law`](crate::Law) has one
+/// (`From<crate::Law>`): the integer and `f32` sine laws are all [`Shape::Sine`].
 #[non_exhaustive]
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
-pub enum Law {
+pub enum Shape {
     /// `f(Δ) = Δ` with Δ wrapped into [−½, ½) turn.
     Linear,
     /// `f(Δ) = sin(2πΔ)/(2π)`: slope 1 at Δ = 0, largest value `1/(2π)` turn.
@@ -27,8 +29,8 @@ pub enum Law {
 /// P-only law `z^{d+1} − z^d + kp·λ = 0`).
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Model {
-    /// Coupling law.
-    pub law: Law,
+    /// Shape of the coupling function (the node law's, see `From<crate::Law>`).
+    pub law: Shape,
     /// Proportional gain per update (dimensionless; the consensus step ε), `> 0`.
     pub kp: f64,
     /// Integral (rate-trim) gain per update, `0 ≤ ki < kp`; 0 gives the P-only law.
@@ -49,7 +51,7 @@ pub struct Model {
 
 impl Model {
     /// A P-only model with no delay, no loss and no clamps: the textbook consensus step.
-    pub const fn p_only(law: Law, kp: f64, update_period_s: f64, phase_period_s: f64) -> Self {
+    pub const fn p_only(law: Shape, kp: f64, update_period_s: f64, phase_period_s: f64) -> Self {
         Self {
             law,
             kp,
@@ -141,14 +143,14 @@ impl Model {
     /// `arcsin(2π·flow/kp)/(2π)` for the sine law, `flow/kp` for the linear law
     /// (Strogatz & Mirollo 1988), saturating at ±¼ turn (sine) or ±½ turn (linear) past the
     /// edge capacity. For a general graph use the flows of the numeric path; exact on trees.
-    pub fn edge_offset_turns(&self, flow_turns_per_update: f64) -> f64 {
+    pub fn edge_lag_turns(&self, flow_turns_per_update: f64) -> f64 {
         let kp = self.kp;
         match self.law {
-            Law::Sine => {
+            Shape::Sine => {
                 let x = (2.0 * core::f64::consts::PI * flow_turns_per_update / kp).clamp(-1.0, 1.0);
                 libm::asin(x) / (2.0 * core::f64::consts::PI)
             }
-            Law::Linear => (flow_turns_per_update / kp).clamp(-0.5, 0.5),
+            Shape::Linear => (flow_turns_per_update / kp).clamp(-0.5, 0.5),
         }
     }
 
@@ -157,19 +159,19 @@ impl Model {
     /// ½-turn wrap).
     pub fn edge_capacity_turns_per_update(&self) -> f64 {
         match self.law {
-            Law::Sine => self.kp / (2.0 * core::f64::consts::PI),
-            Law::Linear => self.kp / 2.0,
+            Shape::Sine => self.kp / (2.0 * core::f64::consts::PI),
+            Shape::Linear => self.kp / 2.0,
         }
     }
 }
 
-impl From<crate::Law> for Law {
+impl From<crate::Law> for Shape {
     /// The planner's view of a node law: the integer and `f32` sine laws are all the
     /// sine law; the linear law is the linear law.
-    fn from(law: crate::Law) -> Law {
+    fn from(law: crate::Law) -> Shape {
         match law {
-            crate::Law::Linear => Law::Linear,
-            _ => Law::Sine,
+            crate::Law::Linear => Shape::Linear,
+            _ => Shape::Sine,
         }
     }
 }

@@ -7,7 +7,7 @@
 use core::f64::consts::PI;
 
 use super::error::{PlanError, positive};
-use super::model::{Law, MAX_DELAY_UPDATES, Model};
+use super::model::{MAX_DELAY_UPDATES, Model, Shape};
 use super::spectrum::Spectrum;
 use super::stability::radii;
 
@@ -277,7 +277,7 @@ pub(crate) fn settle_with(
         s0.max(f0)
     };
     let bound = match (bound, model.law) {
-        (Some(b), Law::Sine) => {
+        (Some(b), Shape::Sine) => {
             let mut extra = 0.0;
             let mut upper = e0.min(0.5);
             let ln2 = core::f64::consts::LN_2;
@@ -303,7 +303,7 @@ pub(crate) fn settle_with(
     };
 
     let (sine_rate_factor, sine_updates) = match model.law {
-        Law::Sine => {
+        Shape::Sine => {
             let x = 2.0 * PI * e0;
             let factor = libm::sin(x) / x;
             let updates = if e0 < 0.5 && radius > 0.0 {
@@ -314,7 +314,7 @@ pub(crate) fn settle_with(
             };
             (Some(factor), updates)
         }
-        Law::Linear => (None, None),
+        Shape::Linear => (None, None),
     };
 
     warnings.spread_half_turn_or_more = e0 >= 0.5;

@@ -64,7 +64,7 @@ pub enum Topology {
 
 /// Largest node count any topology accepts (2^30, so index arithmetic such as `2N + 1`
 /// cannot overflow even where `usize` is 32 bits).
-pub const MAX_NODES: usize = 1 << 30;
+pub const MAX_PLAN_NODES: usize = 1 << 30;
 
 /// `2 − 2cos(x)`, written as `4 sin²(x/2)` so small eigenvalues keep full relative precision.
 fn two_minus_two_cos(x: f64) -> f64 {
@@ -97,7 +97,7 @@ impl Topology {
     ///
     /// # Errors
     /// [`PlanError::TooFewNodes`] below each kind's minimum (see the variants);
-    /// [`PlanError::TooManyNodes`] above [`MAX_NODES`] nodes (or if `rows·cols` overflows).
+    /// [`PlanError::TooManyNodes`] above [`MAX_PLAN_NODES`] nodes (or if `rows·cols` overflows).
     pub fn validate(&self) -> Result<(), PlanError> {
         let (min, got) = match *self {
             Self::Chain { nodes } | Self::Star { nodes } | Self::Complete { nodes } => (2, nodes),
@@ -114,7 +114,7 @@ impl Topology {
         };
         if got < min {
             Err(PlanError::TooFewNodes { min, got })
-        } else if self.node_count() > MAX_NODES {
+        } else if self.node_count() > MAX_PLAN_NODES {
             Err(PlanError::TooManyNodes)
         } else {
             Ok(())

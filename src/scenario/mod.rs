@@ -22,15 +22,15 @@ use toml::Spanned;
 /// The scenario-file version this build reads.
 pub const SCENARIO_VERSION: i64 = 1;
 
-/// Largest node count accepted for any topology (keeps the simulator's work bounded).
-pub const MAX_NODES: usize = 10_000;
+/// Largest node count a scenario file may give any layout (keeps the simulator's work per
+/// run bounded; within the simulator's [`MAX_SIM_NODES`](crate::sim::MAX_SIM_NODES)).
+pub const MAX_SCENARIO_NODES: usize = 10_000;
 
-/// Largest node count of a star or complete graph: a node's neighbour table holds at most
-/// 255 neighbours.
-pub const MAX_DENSE_NODES: usize = 256;
+/// Largest node count of a star or complete graph: one hub (or every node) neighbours all
+/// the others, and a node's table holds at most [`crate::MAX_NEIGHBOURS`].
+pub const MAX_DENSE_NODES: usize = crate::MAX_NEIGHBOURS + 1;
 
-/// Largest neighbour-table size of a node (the node law's own limit).
-pub const MAX_NEIGHBOURS: usize = 255;
+const _: () = assert!(MAX_SCENARIO_NODES <= crate::sim::MAX_SIM_NODES);
 
 /// Largest number of Monte-Carlo runs.
 pub const MAX_RUNS: u32 = 10_000;
@@ -66,13 +66,13 @@ impl fmt::Display for ScenarioError {
 
 impl std::error::Error for ScenarioError {}
 
-/// 1-based line and column (in characters) of byte `offset` in `text`.
+/// 1-based line and column (in characters) of byte `byte_offset` in `text`.
 #[must_use]
-pub fn line_column(text: &str, offset: usize) -> (usize, usize) {
+pub fn line_column(text: &str, byte_offset: usize) -> (usize, usize) {
     let mut line = 1;
     let mut column = 1;
     for (at, ch) in text.char_indices() {
-        if at >= offset {
+        if at >= byte_offset {
             break;
         }
         if ch == '\n' {
@@ -1034,7 +1034,7 @@ fn refuse_extra(
 fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Layout, ScenarioError> {
     let n = net.get_ref();
     let topology = n.topology.get_ref().as_str();
-    let max = MAX_NODES as i64;
+    let max = MAX_SCENARIO_NODES as i64;
     let dense = MAX_DENSE_NODES as i64;
     let side = 1_000;
     let linear = |kind: &str, min: i64, max: i64| -> Result<usize, ScenarioError> {
@@ -1049,12 +1049,12 @@ fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Layout, Scena
         let rows = count_key(loc, net, "rows", n.rows.as_ref(), min, side, kind)?;
         let cols = count_key(loc, net, "cols", n.cols.as_ref(), min, side, kind)?;
         let total = rows.saturating_mul(cols);
-        if !(2..=MAX_NODES).contains(&total) {
+        if !(2..=MAX_SCENARIO_NODES).contains(&total) {
             return Err(refuse(
                 loc,
                 net.span(),
                 format!(
-                    "network.rows × network.cols = {total} nodes is out of range: a {kind} needs from 2 to {MAX_NODES}"
+                    "network.rows × network.cols = {total} nodes is out of range: a {kind} needs from 2 to {MAX_SCENARIO_NODES}"
                 ),
             ));
         }
@@ -1210,7 +1210,7 @@ pub fn read_edge_list(
                     ),
                 )
             })?;
-            let limit = nodes.unwrap_or(MAX_NODES);
+            let limit = nodes.unwrap_or(MAX_SCENARIO_NODES);
             if *slot >= limit {
                 return Err(here(
                     line_no,
@@ -1251,13 +1251,15 @@ pub fn read_edge_list(
         for end in [a, b] {
             if let Some(d) = degree.get_mut(end) {
                 *d += 1;
-                if *d > MAX_NEIGHBOURS {
+                if *d > crate::MAX_NEIGHBOURS {
                     return Err(ScenarioError {
                         file: path.to_path_buf(),
                         line: None,
                         column: None,
                         message: format!(
-                            "node {end} has more than {MAX_NEIGHBOURS} neighbours: a node's neighbour table holds at most {MAX_NEIGHBOURS}"
+                            "node {end} has more than {} neighbours: a node's neighbour table holds at most {}",
+                            crate::MAX_NEIGHBOURS,
+                            crate::MAX_NEIGHBOURS
                         ),
                     });
                 }

@@ -1,6 +1,6 @@
 //! Monte-Carlo verification by simulating the real node code.
 //!
-//! A [`Scenario`] says what is simulated (links, node law, crystals, update schedule,
+//! A [`Setup`] says what is simulated (links, node law, crystals, update schedule,
 //! beacon latency, timestamp jitter and loss, start phases, reboots, settling criterion,
 //! horizon). A [`Network`] steps real [`crate::Node`] values through it in real time,
 //! always to the horizon; a [`SettleTracker`] finds the settling instant, the first entry
@@ -16,7 +16,7 @@
 //! start (times the update period for seconds).
 //!
 //! ```
-//! use entrain::sim::{Crystals, Links, Scenario, Schedule, monte_carlo};
+//! use entrain::sim::{Crystals, Links, Setup, Schedule, monte_carlo};
 //! use entrain::{Config, Gain, Law};
 //!
 //! // A footbridge handrail string of 12 vibration sensors: 1 MHz timers, a 10 ms phase
@@ -26,7 +26,7 @@
 //!     .kp(Gain::from_f32(0.4)?)
 //!     .ki(Gain::from_f32(0.02)?)
 //!     .build()?;
-//! let mut scenario = Scenario::new(Links::chain(12)?, config, 1e6);
+//! let mut scenario = Setup::new(Links::chain(12)?, config, 1e6);
 //! scenario.crystals = Crystals::Uniform { tolerance_ppm: 20.0 };
 //! scenario.schedule = Schedule { random_start: true, jitter_ticks: 50 };
 //! scenario.horizon_updates = 3_000;
@@ -45,8 +45,8 @@ mod error;
 mod monte_carlo;
 mod network;
 mod outcome;
-mod scenario;
 mod settle;
+mod setup;
 mod trace;
 
 pub use error::SimError;
@@ -55,12 +55,12 @@ pub use monte_carlo::{
 };
 pub use network::{Network, Sample, phase_from_turns};
 pub use outcome::{RunOutcome, RunStats};
-pub use scenario::{
-    Beacons, Crystals, Links, MAX_DEGREE, MAX_NODES, Reboot, Scenario, Schedule, SettleCriterion,
-    StartPhases,
-};
 pub use settle::{
     STEADY_SAMPLES, Settle, SettleTracker, final_fifth_start, largest_neighbour_diff,
     largest_pairwise_diff, steady_stride, winding_number,
+};
+pub use setup::{
+    Beacons, Crystals, Links, MAX_DEGREE, MAX_SIM_NODES, Reboot, Schedule, SettleCriterion, Setup,
+    StartPhases,
 };
 pub use trace::Trace;

@@ -11,16 +11,16 @@ use rayon::prelude::*;
 use super::error::SimError;
 use super::network::Network;
 use super::outcome::RunOutcome;
-use super::scenario::Scenario;
 use super::settle::TURN;
+use super::setup::Setup;
 use super::trace::Trace;
 
 /// Run `run` of `scenario` with `seed` (the same run as number `run` of a Monte Carlo
 /// with that seed).
 ///
 /// # Errors
-/// The scenario's [`Scenario::validate`] error.
-pub fn run_once(scenario: &Scenario, seed: u64, run: u64) -> Result<RunOutcome, SimError> {
+/// The scenario's [`Setup::validate`] error.
+pub fn run_once(scenario: &Setup, seed: u64, run: u64) -> Result<RunOutcome, SimError> {
     with_capacity(scenario, seed, run, None)
 }
 
@@ -28,9 +28,9 @@ pub fn run_once(scenario: &Scenario, seed: u64, run: u64) -> Result<RunOutcome, 
 /// `phases`).
 ///
 /// # Errors
-/// The scenario's [`Scenario::validate`] error.
+/// The scenario's [`Setup::validate`] error.
 pub fn trace_run(
-    scenario: &Scenario,
+    scenario: &Setup,
     seed: u64,
     run: u64,
     phases: bool,
@@ -47,13 +47,13 @@ pub fn trace_run(
 
 /// Pick the smallest neighbour-table capacity that holds the largest degree.
 fn with_capacity(
-    scenario: &Scenario,
+    scenario: &Setup,
     seed: u64,
     run: u64,
     trace: Option<&mut Trace>,
 ) -> Result<RunOutcome, SimError> {
     fn go<const N: usize>(
-        s: &Scenario,
+        s: &Setup,
         seed: u64,
         run: u64,
         trace: Option<&mut Trace>,
@@ -258,9 +258,9 @@ impl Summary {
 /// finished run, from whichever thread finished it.
 ///
 /// # Errors
-/// [`SimError::NoRuns`] for zero runs; the scenario's [`Scenario::validate`] error.
+/// [`SimError::NoRuns`] for zero runs; the scenario's [`Setup::validate`] error.
 pub fn monte_carlo(
-    scenario: &Scenario,
+    scenario: &Setup,
     runs: usize,
     seed: u64,
     progress: &(dyn Fn(Progress) + Sync),

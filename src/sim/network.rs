@@ -33,10 +33,10 @@ use rand_chacha::ChaCha8Rng;
 
 use super::error::SimError;
 use super::outcome::{RunOutcome, RunStats};
-use super::scenario::{Crystals, Scenario, StartPhases};
 use super::settle::{
     SettleTracker, TURN, largest_neighbour_diff, largest_pairwise_diff, winding_number,
 };
+use super::setup::{Crystals, Setup, StartPhases};
 use super::trace::Trace;
 use crate::{Config, Node, NodeId, Observation, Phase, UpdateReport};
 
@@ -126,7 +126,7 @@ struct RebootEvent {
 pub struct Network<const N: usize> {
     config: Config,
     stations: Vec<Station<N>>,
-    offsets: Vec<usize>,
+    row_start: Vec<usize>,
     targets: Vec<u16>,
     pairs: Vec<(usize, usize)>,
     ring: bool,
@@ -187,9 +187,9 @@ impl<const N: usize> Network<N> {
     /// can be replayed on its own).
     ///
     /// # Errors
-    /// The scenario's [`Scenario::validate`] error, or [`SimError::DegreeTooHigh`] if a
+    /// The scenario's [`Setup::validate`] error, or [`SimError::DegreeTooHigh`] if a
     /// node has more neighbours than the table capacity `N`.
-    pub fn new(scenario: &Scenario, seed: u64, run: u64) -> Result<Network<N>, SimError> {
+    pub fn new(scenario: &Setup, seed: u64, run: u64) -> Result<Network<N>, SimError> {
         scenario.validate()?;
         let degree = scenario.links.max_degree();
         if degree > N {
@@ -265,8 +265,8 @@ impl<const N: usize> Network<N> {
             })
             .collect();
         reboots.sort_by_key(|r| (r.at, r.up));
-        let (offsets, targets) = scenario.links.adjacency();
-        let reverse = reverse_slots(&offsets, &targets);
+        let (row_start, targets) = scenario.links.adjacency();
+        let reverse = reverse_slots(&row_start, &targets);
         let b = &scenario.beacons;
         let lock_step = !scenario.schedule.random_start
             && scenario.schedule.jitter_ticks == 0
@@ -278,7 +278,7 @@ impl<const N: usize> Network<N> {
         Ok(Network {
             config,
             stations,
-            offsets,
+            row_start,
             targets,
             pairs: scenario.links.pairs().to_vec(),
             ring: scenario.links.is_ring(),
@@ -511,9 +511,8 @@ impl<const N: usize> Network<N> {
         // Beacons.
         let from = i as NodeId;
         let arrive = t + self.latency_sub;
-        let lo = self.offsets.get(i).copied().unwrap_or(0);
-        let hi = self.offsets.get(i + 1).copied().unwrap_or(lo);
-        for &j in self.targets.get(lo..hi).unwrap_or(&[]) {
+        let (lo, hi) = (self.row_start[i], self.row_start[i + 1]);
+        for &j in &self.targets[lo..hi] {
             let j = usize::from(j);
             let Some(rx) = self.stations.get(j) else {
                 continue;
@@ -552,8 +551,7 @@ impl<const N: usize> Network<N> {
         for (i, st) in self.stations.iter_mut().enumerate() {
             let local = st.next_local as u32;
             st.node.advance_to(local);
-            let lo = self.offsets.get(i).copied().unwrap_or(0);
-            let hi = self.offsets.get(i + 1).copied().unwrap_or(lo);
+            let (lo, hi) = (self.row_start[i], self.row_start[i + 1]);
             if !first && !st.reference {
                 // Beacons of the previous round: sent at local − m, received `latency`
                 // ticks later by this node's (ideal) timer.
@@ -675,24 +673,18 @@ fn largest_neighbour_diff_live(
 
 /// For each receiver slot (node i's neighbour j, in `targets`), the slot of i in j's
 /// neighbour list.
-fn reverse_slots(offsets: &[usize], targets: &[u16]) -> Vec<usize> {
+fn reverse_slots(row_start: &[usize], targets: &[u16]) -> Vec<usize> {
     let mut reverse = vec![0; targets.len()];
-    for (i, w) in offsets.windows(2).enumerate() {
-        let (lo, hi) = (
-            w.first().copied().unwrap_or(0),
-            w.get(1).copied().unwrap_or(0),
-        );
+    for (i, w) in row_start.windows(2).enumerate() {
+        let (lo, hi) = (w[0], w[1]);
         for s in lo..hi {
-            let Some(&j) = targets.get(s) else { continue };
-            let j = usize::from(j);
-            let jlo = offsets.get(j).copied().unwrap_or(0);
-            let jhi = offsets.get(j + 1).copied().unwrap_or(jlo);
-            let found = targets
-                .get(jlo..jhi)
-                .and_then(|l| l.iter().position(|&x| usize::from(x) == i));
-            if let (Some(pos), Some(slot)) = (found, reverse.get_mut(s)) {
-                *slot = jlo + pos;
-            }
+            let j = usize::from(targets[s]);
+            let (jlo, jhi) = (row_start[j], row_start[j + 1]);
+            let pos = targets[jlo..jhi]
+                .iter()
+                .position(|&x| usize::from(x) == i)
+                .expect("links are undirected: j lists i when i lists j");
+            reverse[s] = jlo + pos;
         }
     }
     reverse

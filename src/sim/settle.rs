@@ -6,7 +6,7 @@
 //!
 //! Settling is defined on [`SettleTracker`].
 
-use super::scenario::SettleCriterion;
+use super::setup::SettleCriterion;
 use crate::Phase;
 
 /// Counts per turn as `f64`.

@@ -5,7 +5,7 @@
 
 use entrain::forecast::{Forecast, forecast, planner_model, start_spread_turns, tolerance_turns};
 use entrain::plan::{self, Spread, Topology};
-use entrain::sim::{Beacons, Crystals, Links, Scenario, Schedule, StartPhases, monte_carlo};
+use entrain::sim::{Beacons, Crystals, Links, Schedule, Setup, StartPhases, monte_carlo};
 use entrain::{Config, Gain, Law};
 
 /// Simulated runs per scenario.
@@ -18,7 +18,7 @@ pub struct Case {
     /// Short name for the table.
     pub name: &'static str,
     /// The scenario (horizon filled in by [`horizon`]).
-    pub scenario: Scenario,
+    pub scenario: Setup,
 }
 
 /// One line of the table.
@@ -78,7 +78,7 @@ impl Spec {
             .timeout_ticks(M * 20)
             .build()
             .unwrap();
-        let mut s = Scenario::new(self.links, config, 1e6);
+        let mut s = Setup::new(self.links, config, 1e6);
         s.start = StartPhases::Uniform {
             spread_turns: self.spread,
         };
@@ -337,7 +337,7 @@ pub fn cases() -> Vec<Case> {
 
 /// The planner's worst-case settling bound for `s`, updates: the simulator's model of
 /// the law and the network's spectrum handed to `plan::settle`, as `sim::predict` does.
-pub fn planner_bound(s: &Scenario) -> Option<u64> {
+pub fn planner_bound(s: &Setup) -> Option<u64> {
     let spectrum = match s.links.topology() {
         Some(t) => t.spectrum().ok()?,
         None => s.links.graph().spectrum().ok()?,
@@ -354,7 +354,7 @@ pub fn planner_bound(s: &Scenario) -> Option<u64> {
 
 /// Pick the horizon: at least 3× the planner's worst-case bound, 10 slowest oscillation
 /// periods and 300 updates.
-pub fn horizon(s: &mut Scenario) -> Option<u64> {
+pub fn horizon(s: &mut Setup) -> Option<u64> {
     s.horizon_updates = 300;
     let bound = planner_bound(s);
     let period = forecast(s, 1, 0)

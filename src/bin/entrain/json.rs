@@ -9,7 +9,9 @@
 use crate::report::{CAUTION, PHASE_ERROR_NOTE, infeasibility, infeasibility_code};
 use entrain::assess::{Assessment, NetworkModel, Prediction, Warning};
 use entrain::plan::{GainChoice, GainRanges, Search, Topology, Tuning};
-use entrain::scenario::{GainSetting, Layout, SCENARIO_VERSION, Scenario, law_keyword};
+use entrain::scenario::{
+    GainSetting, Layout, LockQuantile, SCENARIO_VERSION, Scenario, law_keyword,
+};
 use serde_json::{Map, Value, json};
 use std::path::{Path, PathBuf};
 
@@ -78,6 +80,10 @@ fn scenario_json(s: &Scenario) -> Value {
         "initial_spread_s": num(s.initial_spread_s),
         "lock_tolerance_s": num(s.lock_tolerance_s),
         "lock_budget_s": num(s.lock_budget_s),
+        "lock_quantile": match s.quantile {
+            LockQuantile::Fraction(q) => num(q),
+            LockQuantile::Bound => json!("bound"),
+        },
         "runs": s.runs,
         "seed": s.seed,
         "duration_s": opt(s.duration_s),
@@ -118,7 +124,7 @@ fn prediction_json(p: &Prediction) -> Value {
             "lock_margin": num(l.lock_margin),
             "edge_flow_turns_per_update": num(l.edge_flow_turns_per_update),
             "edge_capacity_turns_per_update": num(l.edge_capacity_turns_per_update),
-            "max_offset_s": num(l.max_offset_s),
+            "max_edge_lag_s": num(l.max_edge_lag_s),
             "max_correction_turns_per_update": num(l.max_correction_turns_per_update),
             "slew_ok": l.slew_ok,
             "trim_min_ppm": num(l.trim_min_ppm),

@@ -361,7 +361,7 @@ fn figures(s: &mut String, r: &Assessment) {
             row(
                 s,
                 "  steady offset, worst edge",
-                &seconds(l.max_offset_s),
+                &seconds(l.max_edge_lag_s),
                 "the P law holds drift with a standing offset",
             );
         }

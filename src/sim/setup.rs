@@ -9,11 +9,15 @@ use crate::Config;
 use crate::graph::Graph;
 use crate::plan::Topology;
 
-/// Largest node count: node ids are `u16`.
-pub const MAX_NODES: usize = 1 << 16;
+/// Largest node count the simulator takes: node ids are `u16` (within the planner's
+/// [`MAX_PLAN_NODES`](crate::plan::MAX_PLAN_NODES)).
+pub const MAX_SIM_NODES: usize = 1 << 16;
 
-/// Largest neighbour count of one node: the node table's capacity limit.
-pub const MAX_DEGREE: usize = 255;
+/// Largest neighbour count of one node: the node table's capacity limit,
+/// [`crate::MAX_NEIGHBOURS`].
+pub const MAX_DEGREE: usize = crate::MAX_NEIGHBOURS;
+
+const _: () = assert!(MAX_SIM_NODES <= crate::plan::MAX_PLAN_NODES);
 
 /// The undirected links beacons travel along (each link carries beacons both ways),
 /// built from the checker's shared graph types so the prediction and the simulation see
@@ -33,7 +37,7 @@ impl Links {
     ///
     /// # Errors
     /// [`SimError::Graph`] for an invalid topology; [`SimError::TooManyNodes`] above
-    /// [`MAX_NODES`]; [`SimError::DegreeTooHigh`] above [`MAX_DEGREE`] neighbours.
+    /// [`MAX_SIM_NODES`]; [`SimError::DegreeTooHigh`] above [`MAX_DEGREE`] neighbours.
     pub fn from_topology(topology: &Topology) -> Result<Links, SimError> {
         let graph = Graph::from_topology(topology).map_err(SimError::Graph)?;
         let reference = topology.is_pinned().then(|| topology.node_count());
@@ -89,9 +93,9 @@ impl Links {
         reference: Option<usize>,
     ) -> Result<Links, SimError> {
         let nodes = graph.node_count();
-        if nodes > MAX_NODES {
+        if nodes > MAX_SIM_NODES {
             return Err(SimError::TooManyNodes {
-                max: MAX_NODES,
+                max: MAX_SIM_NODES,
                 got: nodes,
             });
         }
@@ -165,25 +169,25 @@ impl Links {
     }
 
     /// Neighbour lists in compressed form: node i's neighbours are
-    /// `targets[offsets[i]..offsets[i+1]]`, ascending.
+    /// `targets[row_start[i]..row_start[i+1]]`, ascending.
     pub(crate) fn adjacency(&self) -> (Vec<usize>, Vec<u16>) {
         let n = self.nodes();
-        let mut offsets = Vec::with_capacity(n + 1);
+        let mut row_start = Vec::with_capacity(n + 1);
         let mut targets = Vec::with_capacity(2 * self.pairs.len());
-        offsets.push(0);
+        row_start.push(0);
         for i in 0..n {
             let mut l: Vec<u16> = self
                 .graph
                 .neighbours(i)
                 .iter()
-                // Node indices are below MAX_NODES = 2^16 (checked at construction).
+                // Node indices are below MAX_SIM_NODES = 2^16 (checked at construction).
                 .map(|&(j, _)| j as u16)
                 .collect();
             l.sort_unstable();
             targets.extend_from_slice(&l);
-            offsets.push(targets.len());
+            row_start.push(targets.len());
         }
-        (offsets, targets)
+        (row_start, targets)
     }
 }
 
@@ -285,9 +289,9 @@ pub struct SettleCriterion {
     pub tolerance_turns: f64,
 }
 
-/// One simulated deployment. Build with [`Scenario::new`], then adjust the public fields.
+/// One simulated deployment. Build with [`Setup::new`], then adjust the public fields.
 #[derive(Clone, Debug, PartialEq)]
-pub struct Scenario {
+pub struct Setup {
     /// The links beacons travel along.
     pub links: Links,
     /// The node law every node runs (gains, law, update interval, clamps).
@@ -314,13 +318,13 @@ pub struct Scenario {
     pub horizon_updates: u64,
 }
 
-impl Scenario {
+impl Setup {
     /// A scenario with ideal crystals, lock-step updates, ideal beacons, start phases
     /// spread over a tenth of a turn, no reboots, a tolerance of 10⁻³ turn and a horizon
     /// of 10,000 updates.
     #[must_use]
-    pub fn new(links: Links, config: Config, tick_hz: f64) -> Scenario {
-        Scenario {
+    pub fn new(links: Links, config: Config, tick_hz: f64) -> Setup {
+        Setup {
             links,
             config,
             tick_hz,
@@ -501,7 +505,7 @@ mod tests {
     #[test]
     fn validation_names_the_bad_field() {
         let config = Config::builder(1000, 100).build().unwrap();
-        let mut s = Scenario::new(Links::chain(4).unwrap(), config, 1e6);
+        let mut s = Setup::new(Links::chain(4).unwrap(), config, 1e6);
         assert_eq!(s.validate(), Ok(()));
         s.schedule.jitter_ticks = 50;
         assert!(matches!(

@@ -17,7 +17,11 @@ fn scenario(text: &str) -> Scenario {
 
 fn run(text: &str, runs: u32) -> Assessment {
     let s = scenario(text);
-    let options = Options { runs, seed: 7 };
+    let options = Options {
+        runs,
+        seed: 7,
+        time_limit_s: None,
+    };
     assess(s, &options, &|_| {}).unwrap()
 }
 
@@ -140,18 +144,21 @@ fn tuned_gains_that_miss_a_margin_say_which() {
 fn a_gain_given_as_a_number_is_never_tuned() {
     let s = scenario(&chain(24, "kp = 0.25\nki = \"tune\"", ""));
     assert_eq!(search(&s), Some(Search::Ki { kp: 0.25 }));
-    let a = assess(s, &Options { runs: 0, seed: 1 }, &|_| {}).unwrap();
+    let o = Options::predict_only(&s);
+    let a = assess(s, &o, &|_| {}).unwrap();
     assert_eq!(a.prediction.constants.kp_q16, 16_384); // 0.25 × 65536
     assert!(a.prediction.ki() > 0.0 && a.prediction.ki() < 0.25);
 
     let s = scenario(&chain(24, "kp = \"tune\"\nki = 0.01", ""));
     assert_eq!(search(&s), Some(Search::Kp { ki: 0.01 }));
-    let a = assess(s, &Options { runs: 0, seed: 1 }, &|_| {}).unwrap();
+    let o = Options::predict_only(&s);
+    let a = assess(s, &o, &|_| {}).unwrap();
     assert_eq!(a.prediction.constants.ki_q16, 655); // 0.01 × 65536 = 655.36
     // A P-law search has no integral range at all.
     let s = scenario(&chain(24, "kp = \"tune\"", ""));
     assert_eq!(search(&s), Some(Search::Kp { ki: 0.0 }));
-    let a = assess(s, &Options { runs: 0, seed: 1 }, &|_| {}).unwrap();
+    let o = Options::predict_only(&s);
+    let a = assess(s, &o, &|_| {}).unwrap();
     let t = a.gains.tuning.unwrap();
     assert!(t.meeting_budget.ki.is_none() && t.meeting_budget.ki_over_kp.is_none());
     assert_eq!(a.prediction.constants.ki_q16, 0);

@@ -130,5 +130,5 @@ fn simulate_refuses_zero_runs() {
         .output()
         .unwrap();
     assert_eq!(out.status.code(), Some(2));
-    assert!(String::from_utf8_lossy(&out.stderr).contains("--runs must be at least 1"));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("0 is not in 1..=10000"));
 }

@@ -58,7 +58,7 @@ mod tuning;
 mod verdict;
 
 pub use constants::NodeConstants;
-pub use error::AssessError;
+pub use error::{AssessError, WorkEstimate, human_duration};
 pub use network::{NetworkModel, SpectrumSource};
 pub use prediction::{
     FORECAST_MAX_WORK, FORECAST_MIN_SAMPLES, FORECAST_SAMPLES, FORECAST_SEED, HORIZON_BOUND_FACTOR,
@@ -77,12 +77,18 @@ use crate::scenario::Scenario;
 use crate::sim;
 
 /// How much verification to run.
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Options {
     /// Monte-Carlo runs; 0 skips the simulation (the verdict rests on the prediction).
     pub runs: u32,
     /// Master seed of the Monte Carlo.
     pub seed: u64,
+    /// Refuse a Monte Carlo estimated to take longer than this, seconds (`None`: no
+    /// limit). The estimate is the work (runs × horizon × Σ degree neighbour-updates) at
+    /// a rate measured on the spot on this scenario ([`sim::measure_rate`]), spread over
+    /// the Monte Carlo's threads; the refusal is [`AssessError::TooMuchWork`], before any
+    /// run starts.
+    pub time_limit_s: Option<f64>,
 }
 
 impl Options {
@@ -92,6 +98,7 @@ impl Options {
         Options {
             runs: scenario.runs,
             seed: scenario.seed,
+            time_limit_s: None,
         }
     }
 
@@ -149,6 +156,9 @@ pub fn assess(
             &prediction.constants,
             prediction.horizon_updates,
         )?;
+        if let Some(limit_s) = options.time_limit_s {
+            check_work(&scenario, &s, options, limit_s)?;
+        }
         let v = simulate(&scenario, s, options.runs, options.seed, progress)?;
         warnings.extend(simulation_warnings(&v));
         Some(v)
@@ -165,4 +175,44 @@ pub fn assess(
         verdict,
         warnings,
     })
+}
+
+/// Work below which no rate is measured (well under a second on any desk machine).
+const WORK_NOT_WORTH_MEASURING: f64 = 2e7;
+
+/// Updates of the timed sample run behind the rate estimate.
+const RATE_SAMPLE_UPDATES: u64 = 2_000;
+
+/// Refuse a Monte Carlo of `options.runs` runs of `setup` estimated to take longer than
+/// `limit_s` seconds.
+fn check_work(
+    scenario: &Scenario,
+    setup: &sim::Setup,
+    options: &Options,
+    limit_s: f64,
+) -> Result<(), AssessError> {
+    let work = setup.neighbour_updates_per_run() * f64::from(options.runs);
+    if work < WORK_NOT_WORTH_MEASURING {
+        return Ok(());
+    }
+    // Enough updates that the timed run does at least ~10⁶ neighbour-updates.
+    let per_update =
+        (setup.neighbour_updates_per_run() / setup.horizon_updates.max(1) as f64).max(1.0);
+    let sample = RATE_SAMPLE_UPDATES.max((1e6 / per_update) as u64);
+    let rate = sim::measure_rate(setup, options.seed, sample)
+        .map_err(|e| AssessError::input(&scenario.path, format!("simulation: {e}")))?;
+    let threads = rayon::current_num_threads().max(1);
+    // Runs are spread over the threads whole: the slowest thread does ⌈runs/threads⌉.
+    let runs_per_thread = (f64::from(options.runs) / threads as f64).ceil();
+    let estimated_s = setup.neighbour_updates_per_run() * runs_per_thread / rate;
+    if estimated_s > limit_s {
+        return Err(AssessError::TooMuchWork(WorkEstimate {
+            neighbour_updates: work,
+            rate_per_thread: rate,
+            threads,
+            estimated_s,
+            limit_s,
+        }));
+    }
+    Ok(())
 }

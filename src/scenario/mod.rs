@@ -15,6 +15,7 @@ use crate::plan::Topology;
 use serde::Deserialize;
 use serde::de::{self, Deserializer, Visitor};
 use std::fmt;
+use std::io::{BufRead, BufReader, Read};
 use std::ops::Range;
 use std::path::{Path, PathBuf};
 use toml::Spanned;
@@ -527,12 +528,14 @@ impl Scenario {
     /// or missing key, a value of the wrong type or out of range, or names an edge list
     /// that cannot be read.
     pub fn load(path: &Path) -> Result<Scenario, ScenarioError> {
-        let text = std::fs::read_to_string(path).map_err(|e| ScenarioError {
-            file: path.to_path_buf(),
-            line: None,
-            column: None,
-            message: format!("cannot read the scenario file: {e}"),
-        })?;
+        let file = open_regular(path, MAX_SCENARIO_BYTES, "scenario file")?;
+        let mut text = String::new();
+        file.take(MAX_SCENARIO_BYTES + 1)
+            .read_to_string(&mut text)
+            .map_err(|e| whole_file_error(path, format!("cannot read the scenario file: {e}")))?;
+        if text.len() as u64 > MAX_SCENARIO_BYTES {
+            return Err(too_large(path, "scenario file", MAX_SCENARIO_BYTES));
+        }
         Scenario::from_toml(path, &text)
     }
 
@@ -1138,6 +1141,68 @@ fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Layout, Scena
     })
 }
 
+/// Largest scenario file read, bytes (a scenario is a few hundred bytes; the cap keeps a
+/// wrong path, such as a disk image, from being read into memory).
+pub const MAX_SCENARIO_BYTES: u64 = 1 << 20;
+
+/// Largest edge-list file read, bytes: room for every edge of
+/// [`MAX_SCENARIO_NODES`] nodes with up to 255 neighbours each, written out with comments.
+pub const MAX_EDGE_LIST_BYTES: u64 = 64 << 20;
+
+fn whole_file_error(path: &Path, message: String) -> ScenarioError {
+    ScenarioError {
+        file: path.to_path_buf(),
+        line: None,
+        column: None,
+        message,
+    }
+}
+
+fn too_large(path: &Path, what: &str, cap: u64) -> ScenarioError {
+    whole_file_error(
+        path,
+        format!(
+            "the {what} {} is larger than the {cap}-byte limit for a {what}",
+            path.display()
+        ),
+    )
+}
+
+/// Open `path` for reading only if it is a regular file no larger than `cap` bytes.
+/// The type is checked before opening (opening a pipe would wait for a writer) and again
+/// on the opened file.
+fn open_regular(path: &Path, cap: u64, what: &str) -> Result<std::fs::File, ScenarioError> {
+    let refuse = |message: String| whole_file_error(path, message);
+    let kind = |m: &std::fs::Metadata| {
+        if m.is_dir() {
+            "a directory"
+        } else {
+            "a device, pipe or socket"
+        }
+    };
+    let unreadable =
+        |e: std::io::Error| refuse(format!("cannot read the {what} {}: {e}", path.display()));
+    let regular = |meta: &std::fs::Metadata| {
+        if meta.is_file() {
+            Ok(())
+        } else {
+            Err(refuse(format!(
+                "the {what} {} is {}, not a regular file",
+                path.display(),
+                kind(meta)
+            )))
+        }
+    };
+    let meta = std::fs::metadata(path).map_err(unreadable)?;
+    regular(&meta)?;
+    if meta.len() > cap {
+        return Err(too_large(path, what, cap));
+    }
+    let file = std::fs::File::open(path).map_err(unreadable)?;
+    regular(&file.metadata().map_err(unreadable)?)?;
+    Ok(file)
+}
+
 /// Read an edge-list file: one undirected edge `a b` per line (0-based node numbers,
 /// separated by spaces, tabs or a comma), `#` starts a comment, blank lines are skipped.
 /// The node count is `nodes` when given, else one more than the largest number seen.
@@ -1150,12 +1215,10 @@ pub fn read_edge_list(
     path: &Path,
     nodes: Option<usize>,
 ) -> Result<(usize, Vec<(usize, usize)>), ScenarioError> {
-    let text = std::fs::read_to_string(path).map_err(|e| ScenarioError {
-        file: path.to_path_buf(),
-        line: None,
-        column: None,
-        message: format!("cannot read the edge-list file {}: {e}", path.display()),
-    })?;
+    let file = open_regular(path, MAX_EDGE_LIST_BYTES, "edge-list file")?;
+    // Read as a stream, a line at a time, never more than the cap.
+    let reader = BufReader::new(file.take(MAX_EDGE_LIST_BYTES + 1));
+    let mut read_bytes = 0u64;
     let here = |line: usize, column: usize, message: String| ScenarioError {
         file: path.to_path_buf(),
         line: Some(line),
@@ -1165,8 +1228,19 @@ pub fn read_edge_list(
     let mut edges = Vec::new();
     let mut seen = std::collections::BTreeSet::new();
     let mut largest = 0usize;
-    for (index, raw_line) in text.lines().enumerate() {
+    for (index, raw_line) in reader.lines().enumerate() {
         let line_no = index + 1;
+        let raw_line = raw_line.map_err(|e| {
+            if e.kind() == std::io::ErrorKind::InvalidData {
+                here(line_no, 1, "this line is not UTF-8 text".to_owned())
+            } else {
+                whole_file_error(path, format!("cannot read the edge-list file: {e}"))
+            }
+        })?;
+        read_bytes += raw_line.len() as u64 + 1;
+        if read_bytes > MAX_EDGE_LIST_BYTES + 1 {
+            return Err(too_large(path, "edge-list file", MAX_EDGE_LIST_BYTES));
+        }
         let body = raw_line.split('#').next().unwrap_or("");
         let mut fields = Vec::new();
         let mut start = None;

@@ -51,7 +51,7 @@ mod trace;
 
 pub use error::SimError;
 pub use monte_carlo::{
-    NoiseFloor, Percentiles, Progress, Summary, monte_carlo, run_once, trace_run,
+    NoiseFloor, Percentiles, Progress, Summary, measure_rate, monte_carlo, run_once, trace_run,
 };
 pub use network::{Network, Sample, phase_from_turns};
 pub use outcome::{RunOutcome, RunStats};

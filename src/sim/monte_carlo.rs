@@ -24,6 +24,21 @@ pub fn run_once(scenario: &Setup, seed: u64, run: u64) -> Result<RunOutcome, Sim
     with_capacity(scenario, seed, run, None)
 }
 
+/// Neighbour-updates per second of one thread on `scenario`, measured on the spot: one
+/// run cut to at most `updates` updates (its first ones, so the transient, usually the
+/// costliest part, is included), timed with the wall clock.
+///
+/// # Errors
+/// The scenario's [`Setup::validate`] error.
+pub fn measure_rate(scenario: &Setup, seed: u64, updates: u64) -> Result<f64, SimError> {
+    let mut short = scenario.clone();
+    short.horizon_updates = scenario.horizon_updates.min(updates.max(2));
+    let started = std::time::Instant::now();
+    let outcome = run_once(&short, seed, 0)?;
+    let elapsed = started.elapsed().as_secs_f64().max(1e-6);
+    Ok(outcome.stats.neighbour_updates as f64 / elapsed)
+}
+
 /// Run `run` of `scenario` with `seed` and record its trace (with every node's phase if
 /// `phases`).
 ///

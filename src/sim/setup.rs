@@ -346,6 +346,14 @@ impl Setup {
         self.links.nodes()
     }
 
+    /// Neighbour-updates one run performs: every node folds in each of its neighbours
+    /// once per update, over the whole horizon (`horizon × Σ degree`). The unit of the
+    /// simulator's work.
+    #[must_use]
+    pub fn neighbour_updates_per_run(&self) -> f64 {
+        self.horizon_updates as f64 * 2.0 * self.links.pairs().len() as f64
+    }
+
     /// Nominal update interval, seconds.
     #[must_use]
     pub fn update_period_s(&self) -> f64 {

@@ -1,6 +1,7 @@
 //! The commands: load the scenario, call the library's assessment, render the answer.
 //! No formula, threshold or unit conversion beyond presentation lives here.
 
+use crate::output::WritePolicy;
 use crate::{firmware, json, plot, report};
 use entrain::assess::{self, AssessError, Assessment, NetworkModel, Options};
 use entrain::scenario::Scenario;
@@ -64,18 +65,56 @@ pub enum Command {
         file: PathBuf,
         runs: Option<u32>,
         no_simulate: bool,
+        limits: Limits,
     },
     /// Tune the gains marked "tune"; optionally write firmware constants.
-    Tune { file: PathBuf, out: Option<PathBuf> },
+    Tune {
+        file: PathBuf,
+        out: Option<PathBuf>,
+        limits: Limits,
+    },
     /// Run the Monte Carlo; optionally write SVG plots.
     Simulate {
         file: PathBuf,
         plots: Option<PathBuf>,
         runs: Option<u32>,
         seed: Option<u64>,
+        limits: Limits,
     },
     /// Print the spectrum and the slowest mode.
     Spectrum { file: PathBuf },
+}
+
+/// Default limit on a Monte Carlo's estimated duration, minutes (`--max-minutes`).
+pub const DEFAULT_MAX_MINUTES: f64 = 30.0;
+
+/// How far a command may go: time and the files it may write through.
+#[derive(Clone, Copy)]
+pub struct Limits {
+    /// Refuse a Monte Carlo estimated to take longer, minutes.
+    pub max_minutes: f64,
+    /// Write through symbolic links.
+    pub force: bool,
+}
+
+impl Limits {
+    fn options(&self, scenario: &Scenario) -> Options {
+        Options {
+            time_limit_s: Some(self.max_minutes * 60.0),
+            ..Options::of(scenario)
+        }
+    }
+
+    fn policy(&self, scenario: &Scenario) -> WritePolicy {
+        let edges = match &scenario.layout {
+            entrain::scenario::Layout::EdgeList { path, .. } => Some(path.as_path()),
+            entrain::scenario::Layout::Topology(_) => None,
+        };
+        WritePolicy::new(
+            std::iter::once(scenario.path.as_path()).chain(edges),
+            self.force,
+        )
+    }
 }
 
 /// What a command prints and how it exits.
@@ -122,7 +161,13 @@ fn assess_with_progress(
     if options.runs > 0 {
         progress.finish();
     }
-    Ok(result?)
+    result.map_err(|e| match e {
+        AssessError::TooMuchWork(w) => CliError::Usage(format!(
+            "{w}: pass --max-minutes {} to accept it, or ask for fewer runs (--runs, monte_carlo.runs)",
+            (w.estimated_s / 60.0 * 1.2).ceil().max(1.0)
+        )),
+        other => CliError::Assess(other),
+    })
 }
 
 /// Run `command`, rendering in `format`, showing Monte-Carlo progress on `progress`.
@@ -136,9 +181,10 @@ pub fn run(
             file,
             runs,
             no_simulate,
+            limits,
         } => {
             let scenario = Scenario::load(file)?;
-            let mut options = Options::of(&scenario);
+            let mut options = limits.options(&scenario);
             if let Some(r) = runs {
                 options.runs = *r;
             }
@@ -160,14 +206,15 @@ pub fn run(
             plots,
             runs,
             seed,
+            limits,
         } => {
             let scenario = Scenario::load(file)?;
-            if runs == &Some(0) {
-                return Err(CliError::Usage(
-                    "--runs must be at least 1 for simulate".to_owned(),
-                ));
+            let policy = limits.policy(&scenario);
+            // Before the Monte Carlo, not after it: the folder must take the plots.
+            if let Some(dir) = plots {
+                policy.check_dir(dir)?;
             }
-            let mut options = Options::of(&scenario);
+            let mut options = limits.options(&scenario);
             if let Some(r) = runs {
                 options.runs = *r;
             }
@@ -176,7 +223,7 @@ pub fn run(
             }
             let a = assess_with_progress(scenario, &options, progress)?;
             let written = match plots {
-                Some(dir) => write_plots(&a, dir)?,
+                Some(dir) => write_plots(&a, dir, &policy)?,
                 None => Vec::new(),
             };
             let stdout = match format {
@@ -204,20 +251,21 @@ pub fn run(
                 status: EXIT_PASS,
             })
         }
-        Command::Tune { file, out } => {
+        Command::Tune { file, out, limits } => {
             let scenario = Scenario::load(file)?;
+            let policy = limits.policy(&scenario);
             // Nothing marked "tune": answered as `check` would (prediction and Monte
             // Carlo at the file's own gains).
             let options = if assess::search(&scenario).is_some() {
                 Options::predict_only(&scenario)
             } else {
-                Options::of(&scenario)
+                limits.options(&scenario)
             };
             let a = assess_with_progress(scenario, &options, progress)?;
             let mut written = None;
             if let (Some(path), true) = (out, a.verdict.pass) {
                 let text = firmware::to_rust(&a.prediction.constants, &a.scenario);
-                write_file(path, &text)?;
+                policy.write(path, text.as_bytes())?;
                 written = Some(path.clone());
             }
             let stdout = match format {
@@ -232,22 +280,9 @@ pub fn run(
     }
 }
 
-fn write_file(path: &Path, text: &str) -> Result<(), CliError> {
-    std::fs::write(path, text).map_err(|e| CliError::Output {
-        file: path.to_path_buf(),
-        message: e.to_string(),
-    })
-}
-
-fn write_plots(a: &Assessment, dir: &Path) -> Result<Vec<PathBuf>, CliError> {
-    std::fs::create_dir_all(dir).map_err(|e| CliError::Output {
-        file: dir.to_path_buf(),
-        message: e.to_string(),
-    })?;
-    let out = |e: plot::PlotError| CliError::Output {
-        file: PathBuf::from(e.file.clone()),
-        message: e.message,
-    };
+fn write_plots(a: &Assessment, dir: &Path, policy: &WritePolicy) -> Result<Vec<PathBuf>, CliError> {
+    policy.check_dir(dir)?;
+    let out = |e: plot::PlotError| std::io::Error::other(e.message);
     let s = &a.scenario;
     let mut written = Vec::new();
 
@@ -273,36 +308,42 @@ fn write_plots(a: &Assessment, dir: &Path) -> Result<Vec<PathBuf>, CliError> {
             bound_s: st.bound_s,
         });
         let path = dir.join("phase_error.svg");
-        plot::error_traces(
-            &path,
-            &format!("{}: largest phase difference, sample runs", s.name),
-            &traces,
-            envelope,
-            s.lock_tolerance_s,
-            s.lock_budget_s,
-        )
-        .map_err(out)?;
+        policy.write_with(&path, |temp| {
+            plot::error_traces(
+                temp,
+                &format!("{}: largest phase difference, sample runs", s.name),
+                &traces,
+                envelope,
+                s.lock_tolerance_s,
+                s.lock_budget_s,
+            )
+            .map_err(out)
+        })?;
         written.push(path);
 
         let path = dir.join("lock_times.svg");
-        plot::lock_histogram(
-            &path,
-            &format!("{}: settling times of {} runs", s.name, v.summary.runs),
-            &v.settle_times_s,
-            v.summary.runs.saturating_sub(v.summary.settled_runs),
-            s.lock_budget_s,
-        )
-        .map_err(out)?;
+        policy.write_with(&path, |temp| {
+            plot::lock_histogram(
+                temp,
+                &format!("{}: settling times of {} runs", s.name, v.summary.runs),
+                &v.settle_times_s,
+                v.summary.runs.saturating_sub(v.summary.settled_runs),
+                s.lock_budget_s,
+            )
+            .map_err(out)
+        })?;
         written.push(path);
     }
 
     let path = dir.join("slowest_mode.svg");
-    plot::mode_shape(
-        &path,
-        &format!("{}: slowest mode along the network", s.name),
-        &a.network.slow_mode,
-    )
-    .map_err(out)?;
+    policy.write_with(&path, |temp| {
+        plot::mode_shape(
+            temp,
+            &format!("{}: slowest mode along the network", s.name),
+            &a.network.slow_mode,
+        )
+        .map_err(out)
+    })?;
     written.push(path);
     Ok(written)
 }

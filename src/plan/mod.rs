@@ -50,10 +50,10 @@ pub use noise::{Noise, continuous_coherence, mode_variance, phase_jitter};
 pub use roots::mode_radius;
 pub use settle::{BOUND_ITERATION_CAP_UPDATES, SettleWarnings, Settling, Spread, settle};
 pub use spectrum::Spectrum;
-pub use stability::{Stability, delay_gain_bound, pi_jury_stable, stability};
+pub use stability::{Stability, delay_gain_bound, optimal_step, pi_jury_stable, stability};
 pub use topology::{MAX_PLAN_NODES, Topology, tridiagonal_toeplitz_eigenvalue};
 pub use tune::{
     Alternatives, Budget, GainChoice, GainRanges, Infeasibility, KP_SCAN_POINTS,
-    MIN_DELAY_MARGIN_UPDATES, MIN_GAIN_MARGIN, Margins, PI_RATIOS, Search, Tuning, delay_margin,
-    gain_choice, predicted_lock_s, tune, tune_topology, tune_with,
+    MIN_DELAY_MARGIN_UPDATES, MIN_GAIN_MARGIN, Margins, PI_RATIOS, REFINE_POINTS, Search, Tuning,
+    delay_margin, gain_choice, predicted_lock_s, tune, tune_topology, tune_with,
 };

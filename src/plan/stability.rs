@@ -2,7 +2,7 @@
 
 use core::f64::consts::PI;
 
-use super::error::PlanError;
+use super::error::{PlanError, positive};
 use super::model::{MAX_DELAY_UPDATES, Model};
 use super::roots::mode_radius;
 use super::spectrum::Spectrum;
@@ -44,6 +44,35 @@ pub struct Stability {
 pub fn delay_gain_bound(delay_updates: u32) -> f64 {
     let d = f64::from(delay_updates);
     2.0 * libm::sin(PI / (2.0 * (2.0 * d + 1.0)))
+}
+
+/// The step that makes the undelayed P law `x⁺ = (I − εL)x` converge fastest on a
+/// spectrum from `lambda_slow` to `lambda_max`, and the per-update convergence factor it
+/// gives: `ε* = 2/(λslow + λmax)`, `ρ* = (λmax − λslow)/(λmax + λslow)` (Xiao & Boyd,
+/// Systems & Control Letters 53 (2004), the best constant edge weight). It balances the
+/// slowest and the fastest mode, `|1 − ε*λslow| = |1 − ε*λmax|`.
+///
+/// # Errors
+/// [`PlanError::InvalidParameter`] unless `0 < lambda_slow ≤ lambda_max`, both finite.
+///
+/// ```
+/// // Chain of 4: λ = 2 − 2cos(kπ/4), λslow = 2 − √2, λmax = 2 + √2, so ε* = 1/2.
+/// let (step, rate) = entrain::plan::optimal_step(2.0 - 2f64.sqrt(), 2.0 + 2f64.sqrt())?;
+/// assert!((step - 0.5).abs() < 1e-15);
+/// assert!((rate - 2f64.sqrt() / 2.0).abs() < 1e-15);
+/// # Ok::<(), entrain::plan::PlanError>(())
+/// ```
+pub fn optimal_step(lambda_slow: f64, lambda_max: f64) -> Result<(f64, f64), PlanError> {
+    positive(lambda_slow, "lambda_slow")?;
+    positive(lambda_max, "lambda_max")?;
+    if lambda_slow > lambda_max {
+        return Err(PlanError::InvalidParameter {
+            name: "lambda_slow",
+            valid: "at most lambda_max",
+        });
+    }
+    let sum = lambda_slow + lambda_max;
+    Ok((2.0 / sum, (lambda_max - lambda_slow) / sum))
 }
 
 /// The Jury conditions for the undelayed PI law on every mode `λ ∈ (0, lambda_max]`:

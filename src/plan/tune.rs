@@ -165,7 +165,8 @@ pub struct Alternatives {
 }
 
 /// Smallest and largest scanned value of each swept quantity among the gains that meet
-/// a condition. A quantity the search does not sweep is `None`.
+/// a condition (the scan points, and the refined recommended and fastest gains between
+/// them). A quantity the search does not sweep is `None`.
 #[derive(Clone, Copy, Debug, Default, PartialEq)]
 pub struct GainRanges {
     /// Proportional gain per update.
@@ -251,6 +252,88 @@ fn largest_stable(lo: f64, hi: f64, stable: impl Fn(f64) -> bool) -> f64 {
     a
 }
 
+/// One gain pair as the scan sees it (rounded to whole Q16.16 steps), or `None` when it
+/// is invalid or unstable.
+fn evaluate(
+    template: &Model,
+    spectrum: &Spectrum,
+    flow_factor: Option<f64>,
+    budget: &Budget,
+    lock_time: &mut dyn FnMut(&Model, &Settling) -> f64,
+    kp: f64,
+    ki: f64,
+) -> Option<Candidate> {
+    let (kp, ki) = (flashable(kp), flashable(ki));
+    if !(kp > 0.0 && ki >= 0.0 && ki < kp) {
+        return None;
+    }
+    let model = Model {
+        kp,
+        ki,
+        ..*template
+    };
+    // The quick screen: the bound's recurrences run only for the gains reported.
+    let settling = settle_with(&model, spectrum, &budget.spread, false).ok()?;
+    let locks = match flow_factor {
+        Some(f) => lock_worst_case(&model, spectrum, f, budget.crystal_tolerance_ppm)
+            .is_ok_and(|l| l.locks),
+        None => true,
+    };
+    let margin = margin_of(&model, spectrum);
+    let delay_ok = stable_with_delay(
+        &model,
+        spectrum,
+        template
+            .delay_updates
+            .saturating_add(budget.margins.delay_updates),
+    );
+    Some(Candidate {
+        kp,
+        ki,
+        lock_s: lock_time(&model, &settling),
+        margin,
+        locks,
+        margins_ok: delay_ok && margin >= budget.margins.gain,
+    })
+}
+
+/// Points tried between a scan point's two neighbours when refining it: the scan points
+/// are 10⁴ᐟ⁹⁵ ≈ 1.10 apart, so the refined gain lies within 0.5 % of the best gain of
+/// the tuner's own objective on that stretch.
+pub const REFINE_POINTS: usize = 41;
+
+/// The best of `REFINE_POINTS` gains log-spaced from `c`'s scan neighbour below to its
+/// neighbour above (the swept gain only; for [`Search::Both`] the ratio `ki/kp` is
+/// kept), among those `accept` takes; `c` itself when none is faster.
+#[allow(clippy::too_many_arguments)]
+fn refine(
+    template: &Model,
+    spectrum: &Spectrum,
+    flow_factor: Option<f64>,
+    budget: &Budget,
+    search: Search,
+    lock_time: &mut dyn FnMut(&Model, &Settling) -> f64,
+    c: Candidate,
+    accept: impl Fn(&Candidate) -> bool,
+) -> Candidate {
+    let step = libm::pow(10.0, 4.0 / (KP_SCAN_POINTS - 1) as f64);
+    let mut best = c;
+    for i in 0..REFINE_POINTS {
+        let f = libm::pow(step, 2.0 * i as f64 / (REFINE_POINTS - 1) as f64 - 1.0);
+        let (kp, ki) = match search {
+            Search::Kp { ki } => (c.kp * f, ki),
+            Search::Ki { kp } => (kp, c.ki * f),
+            Search::Both => (c.kp * f, c.ki * f),
+        };
+        if let Some(t) = evaluate(template, spectrum, flow_factor, budget, lock_time, kp, ki) {
+            if accept(&t) && t.lock_s < best.lock_s {
+                best = t;
+            }
+        }
+    }
+    best
+}
+
 /// Visit every scanned gain pair (no storage, so the scan also runs on a small stack).
 fn scan(
     template: &Model,
@@ -262,40 +345,9 @@ fn scan(
     mut visit: impl FnMut(Candidate),
 ) {
     let mut try_pair = |kp: f64, ki: f64| {
-        let (kp, ki) = (flashable(kp), flashable(ki));
-        if !(kp > 0.0 && ki >= 0.0 && ki < kp) {
-            return;
+        if let Some(c) = evaluate(template, spectrum, flow_factor, budget, lock_time, kp, ki) {
+            visit(c);
         }
-        let model = Model {
-            kp,
-            ki,
-            ..*template
-        };
-        // The quick screen: the bound's recurrences run only for the gains reported.
-        let Ok(settling) = settle_with(&model, spectrum, &budget.spread, false) else {
-            return;
-        };
-        let locks = match flow_factor {
-            Some(f) => lock_worst_case(&model, spectrum, f, budget.crystal_tolerance_ppm)
-                .is_ok_and(|l| l.locks),
-            None => true,
-        };
-        let margin = margin_of(&model, spectrum);
-        let delay_ok = stable_with_delay(
-            &model,
-            spectrum,
-            template
-                .delay_updates
-                .saturating_add(budget.margins.delay_updates),
-        );
-        visit(Candidate {
-            kp,
-            ki,
-            lock_s: lock_time(&model, &settling),
-            margin,
-            locks,
-            margins_ok: delay_ok && margin >= budget.margins.gain,
-        });
     };
     let stable_at = |kp: f64, ki: f64| {
         let m = Model {
@@ -569,9 +621,44 @@ pub fn tune_with(
         fastest,
         best,
         widest_margin_in_budget,
-        meeting_budget,
-        meeting_both,
+        mut meeting_budget,
+        mut meeting_both,
     } = summarise(template, spectrum, flow_factor, budget, search, lock_time);
+    // Between scan points: the fastest gains that lock, and the fastest that also fit the
+    // budget and the margins.
+    let fastest = fastest.map(|c| {
+        refine(
+            template,
+            spectrum,
+            flow_factor,
+            budget,
+            search,
+            lock_time,
+            c,
+            |t| t.locks,
+        )
+    });
+    let best = best.map(|c| {
+        refine(
+            template,
+            spectrum,
+            flow_factor,
+            budget,
+            search,
+            lock_time,
+            c,
+            |t| t.meets_budget(budget) && t.margins_ok,
+        )
+    });
+    // The refined gains belong to the ranges they meet.
+    for c in [fastest, best].into_iter().flatten() {
+        if c.meets_budget(budget) {
+            meeting_budget.widen(&c, search);
+            if c.margins_ok {
+                meeting_both.widen(&c, search);
+            }
+        }
+    }
 
     let pi_trims_fit =
         !search.is_pi() || budget.crystal_tolerance_ppm * 2.0 <= template.trim_limit_ppm;

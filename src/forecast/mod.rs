@@ -90,6 +90,9 @@
 //! let f = forecast(&s, 64, 1)?;
 //! assert!(f.settle_updates.p50 <= f.settle_updates.p90);
 //! assert!(f.settle_updates.p90 < 400.0);
+//! // The error over time, pointwise over the sampled runs: one point per update here.
+//! assert_eq!(f.envelope.p50_turns.len(), 400);
+//! assert!(f.envelope.p50_turns.iter().zip(&f.envelope.p90_turns).all(|(a, b)| a <= b));
 //! # Ok::<(), Box<dyn std::error::Error>>(())
 //! ```
 

@@ -153,24 +153,41 @@ pub fn lock_histogram(path: &Path, p: &LockHistogram) -> Result<(), PlotError> {
         .flatten()
         .filter(|v| v.is_finite())
         .fold(0.0, f64::max);
+    // Nothing settled and nothing predicted: the axis is set by the budget and bound.
+    let base = if base > 0.0 {
+        base
+    } else {
+        [Some(p.budget_s), p.bound_s, Some(1.0)]
+            .into_iter()
+            .flatten()
+            .filter(|v| v.is_finite())
+            .fold(0.0, f64::max)
+    };
     // The budget and the bound widen the axis unless that would squeeze the bars
     // below a third of it; then they are shown as off-scale arrows at the right.
     let x_max = [Some(base), Some(p.budget_s), p.bound_s]
         .into_iter()
         .flatten()
-        .filter(|v| v.is_finite() && *v <= 3.0 * base.max(f64::MIN_POSITIVE))
+        .filter(|v| v.is_finite() && *v <= 3.0 * base)
         .fold(base, f64::max)
         * 1.06;
     let x_min = b.start.min(0.0);
 
+    let bins_said = match b.rule {
+        BinRule::Empty => b.rule.describe().to_owned(),
+        rule => format!("{}, width {}", rule.describe(), duration(b.width)),
+    };
+    let predicted_said = if p.p50_s.is_none() && p.p90_s.is_none() {
+        "; no predicted p50 or p90 (too few forecast runs settle, or no forecast)"
+    } else {
+        ""
+    };
     canvas::heading(
         &mut svg,
         &p.title,
         &format!(
-            "{settled} of {} runs settled, {never} never settled; {}, width {}",
-            p.runs,
-            b.rule.describe(),
-            duration(b.width)
+            "{settled} of {} runs settled, {never} never settled; {bins_said}{predicted_said}",
+            p.runs
         ),
     );
     let mut entries = vec![Entry {
@@ -300,6 +317,19 @@ pub fn lock_histogram(path: &Path, p: &LockHistogram) -> Result<(), PlotError> {
             );
         }
         svg.end();
+    }
+    if settled == 0 {
+        svg.text(
+            (
+                (area.left + area.right) / 2.0,
+                (area.top + area.bottom) / 2.0,
+            ),
+            "no run settled within the horizon",
+            14.0,
+            Anchor::Middle,
+            INK,
+            false,
+        );
     }
     svg.end();
 

@@ -174,12 +174,20 @@ pub fn phase_error(path: &Path, p: &PhaseErrorPlot) -> Result<(), PlotError> {
     entries.push(Entry {
         key: "first-entry",
         swatch: Swatch::Dot(RUNS, false),
-        text: "first entry into tolerance".into(),
+        text: format!(
+            "first entry into tolerance ({} of {})",
+            p.runs.iter().filter(|t| t.first_entry_s.is_some()).count(),
+            p.runs.len()
+        ),
     });
     entries.push(Entry {
         key: "settled",
         swatch: Swatch::Diamond(INK),
-        text: "settled (after last exit)".into(),
+        text: format!(
+            "settled, after the last exit ({} of {})",
+            p.runs.iter().filter(|t| t.settle_s.is_some()).count(),
+            p.runs.len()
+        ),
     });
     if p.envelope.is_some() {
         entries.push(Entry {

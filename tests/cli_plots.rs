@@ -477,7 +477,7 @@ fn no_plot_prints_a_negative_zero() {
                 let w = word.trim_start_matches(['-', '−']);
                 if word.len() != w.len() {
                     assert!(
-                        w.parse::<f64>().map_or(true, |x| x != 0.0),
+                        w.parse::<f64>() != Ok(0.0),
                         "{name}: negative zero in {t:?}"
                     );
                 }

@@ -374,7 +374,12 @@ fn simulate_writes_three_svg_plots() {
         assert!(texts.contains(must), "{name}: no `{must}` in {texts}");
         let drawn = doc
             .descendants()
-            .filter(|n| matches!(n.tag_name().name(), "polyline" | "path" | "rect" | "circle"))
+            .filter(|n| {
+                matches!(
+                    n.tag_name().name(),
+                    "polyline" | "polygon" | "line" | "rect" | "circle"
+                )
+            })
             .count();
         assert!(drawn > 10, "{name}: only {drawn} shapes");
     }

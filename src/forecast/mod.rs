@@ -90,6 +90,9 @@
 //! let f = forecast(&s, 64, 1)?;
 //! assert!(f.settle_updates.p50 <= f.settle_updates.p90);
 //! assert!(f.settle_updates.p90 < 400.0);
+//! // The error over time, pointwise over the sampled runs: one point per update here.
+//! assert_eq!(f.envelope.p50_turns.len(), 400);
+//! assert!(f.envelope.p50_turns.iter().zip(&f.envelope.p90_turns).all(|(a, b)| a <= b));
 //! # Ok::<(), Box<dyn std::error::Error>>(())
 //! ```
 
@@ -140,6 +143,46 @@ pub struct Forecast {
     pub samples: usize,
     /// Settling of every sampled run that settled, nominal updates, ascending.
     pub settled_updates: Vec<f64>,
+    /// The predicted error over time: pointwise quantiles over the sampled runs.
+    pub envelope: ErrorEnvelope,
+}
+
+/// Points of [`ErrorEnvelope`] at most (the horizon is strided down to this many).
+pub const ENVELOPE_POINTS: u64 = 600;
+
+/// The largest pairwise error over time as the sampled runs show it: at every
+/// `stride_updates`-th sample from power-up, the nearest-rank p50 and p90 of that
+/// sample's error over the runs, turns.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct ErrorEnvelope {
+    /// Nominal updates between points (point `k` is at update `k·stride_updates`).
+    pub stride_updates: u64,
+    /// Median error per point, turns.
+    pub p50_turns: Vec<f64>,
+    /// 90th-percentile error per point, turns.
+    pub p90_turns: Vec<f64>,
+}
+
+impl ErrorEnvelope {
+    /// Pointwise quantiles of `runs` (each the error at every `stride`-th sample, the
+    /// same length); empty without runs.
+    fn of(runs: &[Vec<f64>], stride: u64) -> ErrorEnvelope {
+        let points = runs.first().map_or(0, Vec::len);
+        let mut column = Vec::with_capacity(runs.len());
+        let (mut p50, mut p90) = (Vec::with_capacity(points), Vec::with_capacity(points));
+        for k in 0..points {
+            column.clear();
+            column.extend(runs.iter().filter_map(|r| r.get(k).copied()));
+            column.sort_by(f64::total_cmp);
+            p50.push(nearest_rank(&column, 0.5));
+            p90.push(nearest_rank(&column, 0.9));
+        }
+        ErrorEnvelope {
+            stride_updates: stride,
+            p50_turns: p50,
+            p90_turns: p90,
+        }
+    }
 }
 
 impl Forecast {
@@ -241,15 +284,23 @@ pub fn forecast(s: &Setup, samples: usize, seed: u64) -> Result<Forecast, Foreca
     }
     let setup = replica::Replica::new(s);
     let tol = tolerance_turns(s);
-    let per_run: Vec<(Option<usize>, Vec<f64>)> = (0..samples as u64)
+    let stride = s.horizon_updates.div_ceil(ENVELOPE_POINTS).max(1);
+    // Per run: settling, steady-window samples, strided errors for the envelope.
+    type PerRun = (Option<usize>, Vec<f64>, Vec<f64>);
+    let per_run: Vec<PerRun> = (0..samples as u64)
         .into_par_iter()
         .map(|r| {
             let errors = replica::run(&setup, seed, r);
             let settle = last_exit(&errors, tol);
             let tail = steady_window(&errors, settle).collect();
-            (settle, tail)
+            let points = errors.iter().step_by(stride as usize).copied().collect();
+            (settle, tail, points)
         })
         .collect();
+    let (per_run, points): (Vec<_>, Vec<Vec<f64>>) = per_run
+        .into_iter()
+        .map(|(settle, tail, points)| ((settle, tail), points))
+        .unzip();
     let mut settle: Vec<f64> = per_run
         .iter()
         .filter_map(|r| r.0.map(|a| a as f64))
@@ -271,6 +322,7 @@ pub fn forecast(s: &Setup, samples: usize, seed: u64) -> Result<Forecast, Foreca
         slowest_oscillation_period_updates: slowest_period(s),
         samples,
         settled_updates: settle,
+        envelope: ErrorEnvelope::of(&points, stride),
     })
 }
 

@@ -286,64 +286,167 @@ fn write_plots(a: &Assessment, dir: &Path, policy: &WritePolicy) -> Result<Vec<P
     let s = &a.scenario;
     let mut written = Vec::new();
 
-    // Sample runs: the same runs as the Monte Carlo's first ones, traced.
+    // Sample runs: the same runs as the Monte Carlo's first ones, traced over the whole
+    // horizon (the simulator never stops a run at settling).
     if let Some(v) = &a.simulation {
-        let mut traces = Vec::new();
+        let mut runs = Vec::new();
         for run in 0..PLOTTED_RUNS.min(v.summary.runs as u64) {
             let (_, trace) = entrain::sim::trace_run(&v.setup, v.seed, run, false)
                 .map_err(|e| AssessError::input(&s.path, format!("simulation: {e}")))?;
-            traces.push(plot::ErrorTrace {
+            let step_s = trace.update_period_s;
+            runs.push(plot::RunTrace {
                 run,
-                step_s: trace.update_period_s,
+                step_s,
                 error_s: trace
                     .network_turns
                     .iter()
                     .map(|t| t * s.phase_period_s)
                     .collect(),
+                first_entry_s: trace.first_entry_updates.map(|k| k as f64 * step_s),
+                settle_s: trace.settle_updates.map(|k| k as f64 * step_s),
             });
         }
-        let envelope = a.prediction.settling.map(|st| plot::Envelope {
-            initial_spread_s: s.initial_spread_s,
-            asymptotic_s: st.asymptotic_s,
-            bound_s: st.bound_s,
+        let period = s.update_period_s();
+        let envelope = a.prediction.forecast.as_ref().map(|f| plot::Envelope {
+            step_s: f.envelope.stride_updates as f64 * period,
+            p50_s: f
+                .envelope
+                .p50_turns
+                .iter()
+                .map(|t| t * s.phase_period_s)
+                .collect(),
+            p90_s: f
+                .envelope
+                .p90_turns
+                .iter()
+                .map(|t| t * s.phase_period_s)
+                .collect(),
+            samples: f.samples,
         });
+        let settle = a.prediction.settle;
         let path = dir.join("phase_error.svg");
-        policy.write_with(&path, |temp| {
-            plot::error_traces(
-                temp,
-                &format!("{}: largest phase difference, sample runs", s.name),
-                &traces,
-                envelope,
-                s.lock_tolerance_s,
-                s.lock_budget_s,
-            )
-            .map_err(out)
-        })?;
+        let plot = plot::PhaseErrorPlot {
+            title: format!("{}: largest phase difference over whole runs", s.name),
+            runs,
+            runs_total: v.summary.runs,
+            envelope,
+            bound_s: settle.map(|t| t.bound_s),
+            noise_floor_s: a.prediction.noise_floor.map(|n| (n.p50_s, n.p99_s)),
+            initial_spread_s: s.initial_spread_s,
+            tolerance_s: s.lock_tolerance_s,
+            budget_s: s.lock_budget_s,
+        };
+        policy.write_with(&path, |temp| plot::phase_error(temp, &plot).map_err(out))?;
         written.push(path);
 
         let path = dir.join("lock_times.svg");
+        let histogram = plot::LockHistogram {
+            title: format!("{}: settling times of {} runs", s.name, v.summary.runs),
+            settle_times_s: v.settle_times_s.clone(),
+            runs: v.summary.runs,
+            p50_s: settle.and_then(|t| t.p50_s),
+            p90_s: settle.and_then(|t| t.p90_s),
+            bound_s: settle.map(|t| t.bound_s),
+            budget_s: s.lock_budget_s,
+        };
         policy.write_with(&path, |temp| {
-            plot::lock_histogram(
-                temp,
-                &format!("{}: settling times of {} runs", s.name, v.summary.runs),
-                &v.settle_times_s,
-                v.summary.runs.saturating_sub(v.summary.settled_runs),
-                s.lock_budget_s,
-            )
-            .map_err(out)
+            plot::lock_histogram(temp, &histogram).map_err(out)
         })?;
         written.push(path);
     }
 
     let path = dir.join("slowest_mode.svg");
-    policy.write_with(&path, |temp| {
-        plot::mode_shape(
-            temp,
-            &format!("{}: slowest mode along the network", s.name),
-            &a.network.slow_mode,
-        )
-        .map_err(out)
-    })?;
+    let n = &a.network;
+    let mode = plot::ModePlot {
+        title: format!("{}: slowest mode over the network", s.name),
+        shape: n.slow_mode.clone(),
+        layout: mode_layout(n),
+        lambda_slow: n.spectrum.lambda_slow,
+        multiplicity: n
+            .eigenvalues
+            .as_deref()
+            .map(|e| plot::mode::multiplicity(e, n.spectrum.lambda_slow)),
+    };
+    policy.write_with(&path, |temp| plot::mode_shape(temp, &mode).map_err(out))?;
     written.push(path);
     Ok(written)
+}
+
+/// How the slowest-mode plot lays out `n`'s network.
+fn mode_layout(n: &NetworkModel) -> plot::ModeLayout {
+    use entrain::plan::Topology;
+    use plot::ModeLayout;
+    let on_circle = |count: usize, edges: Vec<(usize, usize)>, how: &str| ModeLayout::Graph {
+        positions: plot::mode::circle(count),
+        edges,
+        how: how.to_owned(),
+    };
+    let as_graph = |g: &entrain::graph::Graph| {
+        let edges: Vec<(usize, usize)> = g.edges().iter().map(|e| (e.a, e.b)).collect();
+        match plot::mode::spectral(g) {
+            Some(start) if g.node_count() <= plot::mode::SPREAD_MAX_NODES => ModeLayout::Graph {
+                positions: plot::mode::spread(&start, &edges),
+                edges,
+                how: "spectral layout spread to hop distances".to_owned(),
+            },
+            Some(positions) => ModeLayout::Graph {
+                positions,
+                edges,
+                how: "placed by the two slowest non-trivial modes (spectral layout)".to_owned(),
+            },
+            None => on_circle(
+                g.node_count(),
+                edges,
+                "nodes on a circle in number order (too many for the spectral layout)",
+            ),
+        }
+    };
+    match (&n.topology, &n.graph) {
+        (Some(Topology::Grid { rows, cols }), _) => ModeLayout::Cells {
+            rows: *rows,
+            cols: *cols,
+            wraps: false,
+        },
+        (Some(Topology::Torus { rows, cols }), _) => ModeLayout::Cells {
+            rows: *rows,
+            cols: *cols,
+            wraps: true,
+        },
+        (Some(Topology::Chain { .. }), _) => ModeLayout::Line { pinned: false },
+        (Some(Topology::PinnedChain { .. }), _) => ModeLayout::Line { pinned: true },
+        (Some(Topology::Ring { nodes }), _) => on_circle(
+            *nodes,
+            (0..*nodes).map(|i| (i, (i + 1) % nodes)).collect(),
+            "nodes on a circle in ring order",
+        ),
+        (Some(Topology::Star { nodes }), _) => ModeLayout::Graph {
+            positions: plot::mode::star(*nodes),
+            edges: (1..*nodes).map(|i| (0, i)).collect(),
+            how: "hub (node 0) in the middle".to_owned(),
+        },
+        (Some(Topology::Complete { nodes }), _) if *nodes <= 60 => on_circle(
+            *nodes,
+            (0..*nodes)
+                .flat_map(|i| (i + 1..*nodes).map(move |j| (i, j)))
+                .collect(),
+            "every node hears every other",
+        ),
+        (Some(Topology::Complete { nodes }), _) => on_circle(
+            *nodes,
+            Vec::new(),
+            "every node hears every other (edges not drawn above 60 nodes)",
+        ),
+        (Some(t), _) => match entrain::graph::Graph::from_topology(t) {
+            Ok(g) => as_graph(&g),
+            Err(_) => on_circle(
+                t.node_count(),
+                Vec::new(),
+                "nodes on a circle in number order",
+            ),
+        },
+        (None, Some(g)) => as_graph(g),
+        (None, None) => panic!(
+            "network model without topology or graph: a broken invariant of NetworkModel::of"
+        ),
+    }
 }

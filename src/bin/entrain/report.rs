@@ -22,7 +22,9 @@ fn row(s: &mut String, label: &str, value: &str, note: &str) {
     let _ = if note.is_empty() {
         writeln!(s, "  {label:<LABEL$}{value}")
     } else {
-        writeln!(s, "  {label:<LABEL$}{value:<VALUE$}{note}")
+        // A value longer than its column still gets two spaces before the note.
+        let gap = if value.chars().count() >= VALUE { "  " } else { "" };
+        writeln!(s, "  {label:<LABEL$}{value:<VALUE$}{gap}{note}")
     };
 }
 

@@ -206,7 +206,16 @@ impl<const N: usize> Node<N> {
     /// The current rate trim, parts per billion of the nominal rate (rounded toward zero).
     #[must_use]
     pub const fn trim_ppb(&self) -> i32 {
-        let ppb = self.trim as i128 * 1_000_000_000 / self.config.rate_nominal() as i128;
+        // `checked_div`, not `/`: the nominal rate is never zero (a built `Config` has at
+        // most 2^32 − 1 ticks per period, so the rate is at least 2^32), but the compiler
+        // cannot see that, and `/` would carry a division-by-zero panic into every
+        // firmware that sends a beacon. The `None` arm is never taken.
+        let ppb = match (self.trim as i128 * 1_000_000_000)
+            .checked_div(self.config.rate_nominal() as i128)
+        {
+            Some(ppb) => ppb,
+            None => 0,
+        };
         // |trim| ≤ 10 % of the nominal rate, so |ppb| ≤ 10⁸.
         ppb as i32
     }

@@ -76,7 +76,7 @@ fn exercise() -> u32 {
         delay_ticks: black_box(400),
     };
     if let Err(e) = node.observe(obs) {
-        mix(u32::from(e.0.from));
+        mix(u32::from(e.observation().from));
     }
     node.set_trim_ppb(black_box(i32::MIN));
     mix(node.trim_ppb() as u32 ^ node.trim_raw() as u32);

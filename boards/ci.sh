@@ -1,6 +1,9 @@
 #!/usr/bin/env bash
 # Everything the boards workspace proves, in one run (called by CI):
 #   1. QEMU and the Rust targets are there (installs only those, and only if missing);
+#      no panic is reachable from the node law or the beacon, and the beacon's tag
+#      comparison has no data-dependent branch, on all three targets (panic-check.sh,
+#      ct-check.sh, both on the `audit` firmware);
 #   2. the committed bit-exactness vectors are what the host generates now;
 #   3. the shared kit's unit tests pass on the host; every board and every firmware
 #      builds, clippy-clean;
@@ -53,6 +56,13 @@ if [[ -z $llvm_size ]]; then
     exit 1
 fi
 
+step "no panic reachable from the node law or the beacon (link-time audit, three targets)"
+"$here/panic-check.sh"
+
+step "the beacon's tag comparison has no data-dependent branch (three targets)"
+"$here/ct-check.sh"
+(cd "$here" && cargo clippy --release --quiet -p audit --target thumbv7em-none-eabihf -- -D warnings)
+
 step "bit-exactness vectors are fresh"
 "$here/check-vectors.sh"
 
@@ -93,8 +103,8 @@ qemu_m0() {
 step "bit-exact replay"
 qemu_m4 "$m4/bitexact" | record
 qemu_m0 "$m0/bitexact" | record
-# The RISC-V board runs when QEMU's RISC-V system emulator is there (Debian package
-# qemu-system-misc, not installed by this script).
+# The RISC-V board runs on QEMU's RISC-V system emulator (Debian package
+# qemu-system-misc, installed above when missing; skipped if the install failed).
 if command -v qemu-system-riscv32 >/dev/null; then
     timeout 120 qemu-system-riscv32 -machine sifive_e -nographic -monitor none \
         -semihosting-config enable=on,target=native \

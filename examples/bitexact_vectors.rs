@@ -2,7 +2,7 @@
 //!
 //! The integer laws (linear and sine, P and PI) run here, on the host, over scripted
 //! neighbour observations: drifting neighbour clocks, jittered and lost messages, late
-//! and stale observations, a full table, forgotten neighbours, timer wrap, slew and trim
+//! and stale observations, receptions stamped far in the future, a full table, forgotten neighbours, timer wrap, slew and trim
 //! limits. Every input and every output of the real [`entrain::Node`] goes into one
 //! binary file (layout documented in `boards/kit/src/vectors.rs`); the firmware feeds
 //! the same inputs to the same code on the target and compares every output.
@@ -11,7 +11,7 @@
 //! nothing but this file and the crate, so regenerating it must give the committed file
 //! byte for byte (`boards/check-vectors.sh` checks that).
 
-use entrain::{Config, Gain, Law, Node, Observation, Phase};
+use entrain::{Config, Gain, Law, Node, Observation, ObserveError, Phase};
 use std::fmt;
 use std::process::ExitCode;
 
@@ -318,6 +318,15 @@ fn script(s: &Scenario) -> Vec<Event> {
         for obs in replays.drain(..) {
             // A stale copy arriving now: older than what the node holds.
             arrivals.push((start + 1, obs));
+            if obs.rx_ticks % 2 == 1 {
+                // And, for every other one, a copy stamped a quarter of the timer's range
+                // ahead (a broken receive clock): refused as from the future.
+                let ahead = Observation {
+                    rx_ticks: obs.rx_ticks.wrapping_add(1 << 30),
+                    ..obs
+                };
+                arrivals.push((start + 1, ahead));
+            }
         }
         arrivals.sort_by_key(|&(rx, obs)| (rx, obs.from));
         for &(rx, obs) in &arrivals {
@@ -396,6 +405,7 @@ fn run<const N: usize>(
     let mut updates = 0;
     // What the script exercised, printed so a reader can see the edge cases are there.
     let (mut full, mut limited, mut evicted, mut forgotten, mut railed) = (0, 0, 0, 0, 0);
+    let mut ahead = 0;
     for event in events {
         match *event {
             Event::Observe(obs) => {
@@ -404,9 +414,15 @@ fn run<const N: usize>(
                 out.input(&obs.phase.counts().to_le_bytes());
                 out.input(&obs.rx_ticks.to_le_bytes());
                 out.input(&obs.delay_ticks.to_le_bytes());
-                let refused = node.observe(obs).is_err();
-                full += u32::from(refused);
-                out.output(&[u8::from(refused)]);
+                let code: u8 = match node.observe(obs) {
+                    Ok(()) => 0,
+                    Err(ObserveError::TableFull(_)) => 1,
+                    Err(ObserveError::FromTheFuture(_)) => 2,
+                    Err(e) => panic!("an observe error the vector format has no code for: {e}"),
+                };
+                full += u32::from(code == 1);
+                ahead += u32::from(code == 2);
+                out.output(&[code]);
             }
             Event::Advance(now) => {
                 out.input(&[TAG_ADVANCE]);
@@ -442,7 +458,8 @@ fn run<const N: usize>(
     }
     println!(
         "{:<20} capacity {} {updates:>4} updates: {limited} slew-limited, {railed} at the trim \
-         limit, {evicted} evictions, {full} refused (table full), {forgotten} forgotten",
+         limit, {evicted} evictions, {full} refused (table full), {ahead} refused (from the future), \
+         {forgotten} forgotten",
         s.name, s.capacity
     );
     Ok(updates)

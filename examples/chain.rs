@@ -46,8 +46,8 @@ fn main() -> Result<(), entrain::ConfigError> {
                         delay_ticks: 0,
                     };
                     nodes[i].advance_to(ticks[i]);
-                    if let Err(full) = nodes[i].observe(obs) {
-                        eprintln!("node {i}: {full}");
+                    if let Err(refused) = nodes[i].observe(obs) {
+                        eprintln!("node {i}: {refused}");
                     }
                 }
             }

@@ -80,5 +80,5 @@ pub mod sim;
 pub use config::{Config, ConfigBuilder, ConfigError, MAX_TRIM_LIMIT_PPB};
 pub use gain::{GAIN_FRAC_BITS, Gain};
 pub use law::Law;
-pub use node::{MAX_NEIGHBOURS, Node, NodeId, Observation, TableFull, UpdateReport};
+pub use node::{MAX_NEIGHBOURS, Node, NodeId, Observation, ObserveError, UpdateReport};
 pub use phase::Phase;

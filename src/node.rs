@@ -23,22 +23,53 @@ pub struct Observation {
     pub delay_ticks: u32,
 }
 
-/// The neighbour table is full: the rejected observation is handed back.
+/// Why [`Node::observe`] refused an observation; the observation is handed back and the
+/// node is unchanged.
+#[non_exhaustive]
 #[derive(Clone, Copy, PartialEq, Eq, Hash, Debug)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct TableFull(pub Observation);
+pub enum ObserveError {
+    /// The observation is from a neighbour not in the table, and all `N` entries are
+    /// taken.
+    TableFull(Observation),
+    /// The observation was received later than the node's current instant
+    /// ([`Node::now_ticks`]) by more than the timeout
+    /// ([`Config::timeout_ticks`](crate::Config::timeout_ticks)): a timestamp from a
+    /// broken clock or a wrong unit, or the node's clock was not advanced for longer than
+    /// the timeout (its next advance would empty the table anyway). Kept, such an entry
+    /// would count as the newest from its neighbour and shadow every genuine observation
+    /// until the node's clock caught up with it, up to 2^31 ticks.
+    FromTheFuture(Observation),
+}
 
-impl fmt::Display for TableFull {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        write!(
-            f,
-            "neighbour table full: observation from node {} rejected",
-            self.0.from
-        )
+impl ObserveError {
+    /// The refused observation.
+    #[must_use]
+    pub const fn observation(&self) -> Observation {
+        match *self {
+            ObserveError::TableFull(obs) | ObserveError::FromTheFuture(obs) => obs,
+        }
     }
 }
 
-impl core::error::Error for TableFull {}
+impl fmt::Display for ObserveError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            ObserveError::TableFull(obs) => write!(
+                f,
+                "neighbour table full: observation from node {} rejected",
+                obs.from
+            ),
+            ObserveError::FromTheFuture(obs) => write!(
+                f,
+                "observation from node {} received at tick {}, later than the node's clock by more than the timeout: rejected",
+                obs.from, obs.rx_ticks
+            ),
+        }
+    }
+}
+
+impl core::error::Error for ObserveError {}
 
 /// What one update did.
 #[derive(Clone, Copy, PartialEq, Eq, Hash, Debug, Default)]
@@ -206,7 +237,16 @@ impl<const N: usize> Node<N> {
     /// The current rate trim, parts per billion of the nominal rate (rounded toward zero).
     #[must_use]
     pub const fn trim_ppb(&self) -> i32 {
-        let ppb = self.trim as i128 * 1_000_000_000 / self.config.rate_nominal() as i128;
+        // `checked_div`, not `/`: the nominal rate is never zero (a built `Config` has at
+        // most 2^32 − 1 ticks per period, so the rate is at least 2^32), but the compiler
+        // cannot see that, and `/` would carry a division-by-zero panic into every
+        // firmware that sends a beacon. The `None` arm is never taken.
+        let ppb = match (self.trim as i128 * 1_000_000_000)
+            .checked_div(self.config.rate_nominal() as i128)
+        {
+            Some(ppb) => ppb,
+            None => 0,
+        };
         // |trim| ≤ 10 % of the nominal rate, so |ppb| ≤ 10⁸.
         ppb as i32
     }
@@ -245,11 +285,24 @@ impl<const N: usize> Node<N> {
     /// node's own rate. An entry for the same neighbour is replaced, unless the held one
     /// is newer (then it is kept: it is the fresher estimate).
     ///
+    /// `rx_ticks` may be later than [`now_ticks`](Node::now_ticks) (a frame heard
+    /// between two updates) by at most the timeout,
+    /// [`Config::timeout_ticks`](crate::Config::timeout_ticks); a reception stamped
+    /// further ahead is refused, so a held entry is never more than the timeout ahead of
+    /// the node's clock and cannot shadow later genuine observations for longer.
+    ///
     /// # Errors
-    /// [`TableFull`] with the observation, when it comes from a new neighbour and all `N`
-    /// entries are taken.
-    pub fn observe(&mut self, obs: Observation) -> Result<(), TableFull> {
+    /// The observation is handed back, the node unchanged:
+    /// [`ObserveError::FromTheFuture`] when `rx_ticks` is more than the timeout after
+    /// [`now_ticks`](Node::now_ticks) and at most 2^31 after (further still reads as the
+    /// past); [`ObserveError::TableFull`] when it comes from a new neighbour and
+    /// all `N` entries are taken.
+    pub fn observe(&mut self, obs: Observation) -> Result<(), ObserveError> {
         let age = self.now.wrapping_sub(obs.rx_ticks) as i32;
+        // The timeout is at most i32::MAX (checked when the configuration was built).
+        if age < 0 && age.unsigned_abs() > self.config.timeout_ticks() {
+            return Err(ObserveError::FromTheFuture(obs));
+        }
         let span = i64::from(obs.delay_ticks).wrapping_add(i64::from(age));
         let neighbour = (u64::from(obs.phase.counts()) << 32)
             .wrapping_add((span as u64).wrapping_mul(self.rate()));
@@ -266,7 +319,9 @@ impl<const N: usize> Node<N> {
             }
             return Ok(());
         }
-        self.table.push(entry).map_err(|_| TableFull(obs))
+        self.table
+            .push(entry)
+            .map_err(|_| ObserveError::TableFull(obs))
     }
 
     /// Drop a neighbour from the table; true if it was there.
@@ -467,7 +522,7 @@ mod tests {
         assert_eq!(n.observe(obs(2, 0, 0)), Ok(()));
         assert_eq!(n.observe(obs(1, 5, 0)), Ok(())); // same id: replaced
         let third = obs(3, 0, 0);
-        assert_eq!(n.observe(third), Err(TableFull(third)));
+        assert_eq!(n.observe(third), Err(ObserveError::TableFull(third)));
         assert!(n.forget(2));
         assert!(!n.forget(2));
         assert_eq!(n.observe(third), Ok(()));

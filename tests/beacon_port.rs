@@ -383,7 +383,7 @@ proptest! {
 #[cfg(feature = "mac")]
 mod authenticated {
     use super::*;
-    use entrain::beacon::NetworkKey;
+    use entrain::beacon::{NetworkKey, SavedWindow};
 
     const KEY: NetworkKey = NetworkKey::from_bytes([
         0x3d, 0x91, 0x0e, 0xc4, 0x57, 0xa8, 0x22, 0xf6, 0x8b, 0x10, 0x6f, 0xd3, 0x49, 0xe5, 0x7a,
@@ -393,6 +393,112 @@ mod authenticated {
 
     fn keyed(id: NodeId, key: NetworkKey) -> BeaconPort<3> {
         BeaconPort::with_key(Node::new(config(), Phase::ZERO, 0), id, 0, key)
+    }
+
+    /// Ten frames from `tx` to `rx`, one per update; returns their bytes as recorded by an
+    /// eavesdropper. `save` is called after each accepted frame with its index.
+    fn ten_frames(
+        tx: &mut BeaconPort<3>,
+        rx: &mut BeaconPort<3>,
+        mut save: impl FnMut(usize, &BeaconPort<3>),
+    ) -> Vec<[u8; FRAME_LEN]> {
+        (0..10)
+            .map(|k| {
+                let t = 100_000 * k as u32;
+                let mut wire = [0u8; FRAME_LEN];
+                tx.send(t, &mut wire).unwrap();
+                rx.node_mut().update(t);
+                rx.receive(&wire, t + 100, 100).unwrap();
+                save(k, rx);
+                wire
+            })
+            .collect()
+    }
+
+    /// The reproduction: a receiver that reboots starts with empty windows and takes
+    /// every recorded frame again (10 of 10), each as the first from its sender.
+    #[test]
+    fn a_rebooted_receiver_without_saved_windows_takes_recordings() {
+        let mut tx = keyed(2, KEY);
+        let mut rx = keyed(1, KEY);
+        let recorded = ten_frames(&mut tx, &mut rx, |_, _| {});
+        let mut rebooted = keyed(1, KEY);
+        let taken = recorded
+            .iter()
+            .filter(|w| rebooted.receive(&w[..], 0, 100).is_ok())
+            .count();
+        // One is taken as the first; each later one reads as newer still.
+        assert_eq!(taken, 10);
+    }
+
+    /// With its windows saved every fourth frame and restored after the reboot with a
+    /// margin of four frames, the receiver refuses every recording, and takes the
+    /// sender's frames again once they pass the restored window.
+    #[test]
+    fn restored_windows_refuse_every_recording_across_a_reboot() {
+        let mut tx = keyed(2, KEY);
+        let mut rx = keyed(1, KEY);
+        let mut flash = [0u8; SavedWindow::LEN];
+        let recorded = ten_frames(&mut tx, &mut rx, |k, rx| {
+            if k % 4 == 3 {
+                let saved: Vec<SavedWindow> = rx.saved_windows().collect();
+                assert_eq!(saved.len(), 1);
+                flash = saved[0].to_bytes();
+            }
+        });
+        // Saved at frame 7; frames 8 and 9 were accepted after the last save.
+        assert_eq!(
+            SavedWindow::from_bytes(flash),
+            SavedWindow { from: 2, newest: 7 }
+        );
+        let mut rebooted = keyed(1, KEY);
+        rebooted
+            .restore_window(SavedWindow::from_bytes(flash), 4, 0)
+            .unwrap();
+        for (k, w) in recorded.iter().enumerate() {
+            assert!(
+                rebooted.receive(&w[..], 0, 100).is_err(),
+                "frame {k} replayed"
+            );
+        }
+        assert_eq!(rebooted.accepted_count(), 0);
+        // The sender goes on: 10 and 11 fall in the margin (7 + 4), 12 is taken.
+        for (seq, t, ok) in [
+            (10u32, 1_000_000u32, false),
+            (11, 1_100_000, false),
+            (12, 1_200_000, true),
+        ] {
+            let mut wire = [0u8; FRAME_LEN];
+            let sent = tx.send(t, &mut wire).unwrap();
+            assert_eq!(sent.seq, seq);
+            rebooted.node_mut().update(t);
+            assert_eq!(
+                rebooted.receive(&wire, t + 100, 100).is_ok(),
+                ok,
+                "seq {seq}"
+            );
+        }
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(64))]
+
+        /// After a restore, a recorded frame is taken exactly when its sequence number is
+        /// past the saved one plus the margin: a margin that covers the frames accepted
+        /// since the last save refuses them all.
+        #[test]
+        fn a_restored_window_takes_only_numbers_past_the_margin(
+            saved in any::<u32>(),
+            margin in 0u32..1_000,
+            offset in 0u32..2_000,
+        ) {
+            let mut rebooted = keyed(1, KEY);
+            rebooted.restore_window(SavedWindow { from: 2, newest: saved }, margin, 0).unwrap();
+            let seq = saved.wrapping_sub(500).wrapping_add(offset);
+            let frame = Frame { from: 2, seq, phase_counts: 0, trim_ppb: 0, flags: Flags::NONE };
+            let taken = rebooted.receive(&frame.to_bytes_signed(&KEY), 0, 0).is_ok();
+            prop_assert_eq!(taken, offset > 500 + margin);
+        }
     }
 
     #[test]
@@ -465,4 +571,26 @@ mod authenticated {
         // CRC-32/ISCSI check value 0xE3069283 (published CRC catalogue; from memory).
         assert_eq!(crc32c(b"123456789"), 0xE306_9283);
     }
+}
+
+/// A frame whose receive time is later than the node's clock by more than the timeout is
+/// refused as from the future, like any other refusal: counted, nothing else changed.
+#[test]
+fn a_frame_stamped_from_the_future_is_refused_and_changes_nothing() {
+    let mut a: BeaconPort<2> = port(1, 0.0);
+    let timeout = config().timeout_ticks();
+    expect_refused(
+        &mut a,
+        &frame_bytes(2, 5, 0),
+        timeout + 1,
+        RejectKind::FromTheFuture,
+    );
+    assert!(a.window(2).is_none());
+    // Once the node's clock has moved on, the same frame is the first from 2.
+    a.node_mut().advance_to(timeout);
+    assert_eq!(
+        a.receive(&frame_bytes(2, 5, 0), timeout + 1, 0)
+            .map(|r| r.accepted),
+        Ok(Accepted::First)
+    );
 }

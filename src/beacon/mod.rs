@@ -59,6 +59,16 @@
 //! it from a boot counter kept in non-volatile memory (for example `boot_count << 16`), or
 //! have receivers call [`BeaconPort::forget`] for it.
 //!
+//! The windows live in RAM, so a *receiver* that reboots starts with empty ones and would
+//! take a recording of every frame it accepted before (each reads as the first from its
+//! sender). A receiver that must refuse those keeps its windows in non-volatile memory:
+//! it saves [`BeaconPort::saved_windows`] every so often (six bytes per sender,
+//! [`SavedWindow`]) and after a reboot gives them back to
+//! [`BeaconPort::restore_window`] with a margin that covers the frames accepted since the
+//! last save. The frame format is untouched (version-1 senders need no change); the
+//! cost is one flash write per save interval and, after a short reboot, up to one save
+//! interval of refused genuine frames per sender. (Tested in `tests/beacon_port.rs`.)
+//!
 //! # Authentication (feature `mac`)
 //!
 //! The tag is SipHash-2-4 with a 128-bit key over the 16 header bytes, sent in full
@@ -101,6 +111,6 @@ pub use flags::Flags;
 pub use frame::{DecodeError, EncodeError, FRAME_LEN, Frame, HEADER_LEN, TAG_LEN, VERSION};
 #[cfg(feature = "mac")]
 pub use mac::NetworkKey;
-pub use port::{BeaconPort, Received};
+pub use port::{BeaconPort, Received, SavedWindow};
 pub use reject::{RejectCounts, RejectKind};
 pub use window::{Accepted, SeqWindow, WINDOW_LEN, WindowReject};

@@ -131,6 +131,42 @@ impl<const N: usize> PeerWindows<N> {
         }
     }
 
+    /// `(id, window)` of every sender with a window.
+    pub(crate) fn iter(&self) -> impl Iterator<Item = (NodeId, &SeqWindow)> + '_ {
+        self.peers.iter().map(|p| (p.id, &p.window))
+    }
+
+    /// Installs `window` for `id` as heard at `rx_ticks`: in place of its own window, or
+    /// in a free slot. A live sender's slot is never taken (a stale one is: its sender is
+    /// out of the node's table too).
+    pub(crate) fn install(
+        &mut self,
+        id: NodeId,
+        window: SeqWindow,
+        rx_ticks: u32,
+        stale_ticks: u32,
+    ) -> Result<(), RejectKind> {
+        let peer = Peer {
+            id,
+            window,
+            last_rx_ticks: rx_ticks,
+        };
+        let slot = match self.peers.iter().position(|p| p.id == id) {
+            Some(i) => Slot::At(i),
+            None if !self.peers.is_full() => Slot::Push,
+            None => Slot::At(self.stale_slot(rx_ticks, stale_ticks)?),
+        };
+        match slot {
+            Slot::At(i) => {
+                if let Some(p) = self.peers.get_mut(i) {
+                    *p = peer;
+                }
+                Ok(())
+            }
+            Slot::Push => self.peers.push(peer).map_err(|_| RejectKind::PeersFull),
+        }
+    }
+
     /// Drops the window of `id`; returns whether there was one.
     pub(crate) fn forget(&mut self, id: NodeId) -> bool {
         match self.peers.iter().position(|p| p.id == id) {

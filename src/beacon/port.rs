@@ -5,7 +5,7 @@
 use super::NetworkKey;
 use super::peers::PeerWindows;
 use super::{Accepted, EncodeError, Flags, Frame, RejectCounts, RejectKind, SeqWindow};
-use crate::{Node, NodeId, Observation};
+use crate::{Node, NodeId, Observation, ObserveError};
 
 /// A frame the receive path accepted and handed to the node.
 #[derive(Clone, Copy, PartialEq, Eq, Hash, Debug)]
@@ -18,6 +18,40 @@ pub struct Received {
     /// How its sequence number stood to the sender's window: the first from that sender,
     /// or newer with the count of numbers skipped (frames lost, for link telemetry).
     pub accepted: Accepted,
+}
+
+/// What a receiver keeps of one sender's replay window in non-volatile memory, so that
+/// after its own reboot it refuses recordings of frames it accepted before: the sender's
+/// id and the newest sequence number accepted from it. Six bytes on flash
+/// ([`SavedWindow::to_bytes`]); see [`BeaconPort::restore_window`].
+#[derive(Clone, Copy, PartialEq, Eq, Hash, Debug)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct SavedWindow {
+    /// The sender.
+    pub from: NodeId,
+    /// The newest sequence number accepted from it when saved.
+    pub newest: u32,
+}
+
+impl SavedWindow {
+    /// Bytes of [`SavedWindow::to_bytes`].
+    pub const LEN: usize = 6;
+
+    /// `from` (`u16` LE) then `newest` (`u32` LE).
+    pub const fn to_bytes(&self) -> [u8; SavedWindow::LEN] {
+        let [f0, f1] = self.from.to_le_bytes();
+        let [n0, n1, n2, n3] = self.newest.to_le_bytes();
+        [f0, f1, n0, n1, n2, n3]
+    }
+
+    /// The inverse of [`SavedWindow::to_bytes`].
+    pub const fn from_bytes(bytes: [u8; SavedWindow::LEN]) -> SavedWindow {
+        let [f0, f1, n0, n1, n2, n3] = bytes;
+        SavedWindow {
+            from: u16::from_le_bytes([f0, f1]),
+            newest: u32::from_le_bytes([n0, n1, n2, n3]),
+        }
+    }
 }
 
 /// A [`Node`] with what it needs to speak beacons: its own id, its send sequence
@@ -53,6 +87,20 @@ pub struct Received {
 /// trim's share, `trim_limit_ppb · 10⁻⁹ · t` ticks' worth of phase. Replaying the
 /// liar's old frames gains it nothing more: the window refuses them. (Tested in
 /// `tests/beacon_port.rs`.)
+///
+/// That bound is per update. Held up for good, the liar's pull settles against the honest
+/// neighbours' at a steady displacement: with `h` honest neighbours that hold still and
+/// a liar that always claims the law's strongest pull `P_max`, the node settles where
+/// `h · pull(x*) = P_max`, that is `x* = pull⁻¹(P_max / h)`:
+/// `asin(1/h) / 2π` turn under the sine laws (1/12, 0.040, 0.020 turn for h = 2, 4, 8)
+/// and `(2^31 − 1)/h` counts, about `1/(2h)` turn, under the linear law. `x*` does not
+/// depend on `kp`, `ki` or the slew limit; they decide only whether the node settles
+/// there (it does when `kp · h · pull'(x*) < 2`: `kp·√(h² − 1) < 2` for the sine law,
+/// `kp · h < 2` for the linear law) and how soon (at least `x* / slew_limit` updates).
+/// With one honest neighbour the sine law balances only at a quarter turn, where the
+/// node creeps and wanders. Derivation and assumptions in `docs/design.md`; checked on
+/// the real node by `tests/hardening.rs`. Only more honest neighbours shrink it, or a
+/// key per sender, which the frame does not carry.
 ///
 /// # Replay windows
 ///
@@ -199,6 +247,83 @@ impl<const N: usize> BeaconPort<N> {
         self.peers.len()
     }
 
+    /// What to keep in non-volatile memory so that replays stay refused across this
+    /// node's own reboot: one [`SavedWindow`] per sender with a window. Save them every
+    /// `S` ticks (for example at each update whose count is a multiple of some k) and
+    /// give them back to [`BeaconPort::restore_window`] after a reboot.
+    pub fn saved_windows(&self) -> impl Iterator<Item = SavedWindow> + '_ {
+        self.peers
+            .iter()
+            .filter_map(|(from, w)| w.newest().map(|newest| SavedWindow { from, newest }))
+    }
+
+    /// After a reboot of this node, installs the window of a sender from a
+    /// [`SavedWindow`] kept in non-volatile memory, moved on by `margin`: every sequence
+    /// number up to `saved.newest + margin` (and up to 2^31 before it) is then refused,
+    /// later ones are taken. Call it once per saved sender before the first frame is
+    /// received; `now_ticks` is this node's timer (the window counts as heard then).
+    ///
+    /// Choose `margin` at least the number of frames a sender can send between two saves
+    /// (the save interval divided by the sender's beacon interval, rounded up, plus one):
+    /// frames accepted after the last save, which a recording may replay, are then
+    /// refused too. The price: after a reboot shorter than the save interval, up to
+    /// `margin` genuine frames from each sender are refused (as
+    /// [`RejectKind::Duplicate`] or [`RejectKind::TooOld`]) until its sequence passes
+    /// the restored one, a silence of at most one save interval per sender. Keep
+    /// `margin` below 2^30.
+    ///
+    /// Why not carry a boot epoch in the frame: it would change the version-1 wire format
+    /// and every sender, where this needs only a few bytes of flash per sender on the
+    /// receiver and one write per save interval; and a challenge to a sender needs a reply
+    /// path that beacons do not have.
+    ///
+    /// # Errors
+    /// [`RejectKind::PeersFull`] when the sender has no window, none is free and no
+    /// sender has been silent for the timeout: nothing changed.
+    ///
+    /// ```
+    /// use entrain::beacon::{BeaconPort, FRAME_LEN, RejectKind, SavedWindow};
+    /// use entrain::{Config, Node, Phase};
+    ///
+    /// let config = Config::builder(1_000_000, 100_000).build().unwrap();
+    /// let mut rx: BeaconPort<4> = BeaconPort::new(Node::new(config, Phase::ZERO, 0), 1, 0);
+    /// let mut tx: BeaconPort<4> = BeaconPort::new(Node::new(config, Phase::ZERO, 0), 2, 0);
+    /// let mut recorded = [[0u8; FRAME_LEN]; 6];
+    /// let mut flash = [0u8; SavedWindow::LEN];
+    /// for (k, wire) in recorded.iter_mut().enumerate() {
+    ///     let t = 100_000 * k as u32;
+    ///     tx.send(t, wire).unwrap();
+    ///     rx.node_mut().update(t);
+    ///     rx.receive(wire, t + 100, 100).unwrap();
+    ///     if k == 2 {
+    ///         // The save every third frame: one sender, one record.
+    ///         let saved = rx.saved_windows().next().unwrap();
+    ///         flash = saved.to_bytes();
+    ///     }
+    /// }
+    /// // Reboot: a fresh port, its window restored with a margin of three frames.
+    /// let mut rx: BeaconPort<4> = BeaconPort::new(Node::new(config, Phase::ZERO, 0), 1, 0);
+    /// rx.restore_window(SavedWindow::from_bytes(flash), 3, 0).unwrap();
+    /// for wire in &recorded {
+    ///     assert_eq!(rx.receive(wire, 700_000, 100), Err(RejectKind::Duplicate));
+    /// }
+    /// rx.node_mut().update(700_000);
+    /// let mut wire = [0u8; FRAME_LEN];
+    /// tx.send(700_000, &mut wire).unwrap(); // sequence 6: after 2 + 3
+    /// assert!(rx.receive(&wire, 700_100, 100).is_ok());
+    /// ```
+    pub fn restore_window(
+        &mut self,
+        saved: SavedWindow,
+        margin: u32,
+        now_ticks: u32,
+    ) -> Result<(), RejectKind> {
+        let window = SeqWindow::resume_after(saved.newest.wrapping_add(margin));
+        let stale_ticks = self.node.config().timeout_ticks();
+        self.peers
+            .install(saved.from, window, now_ticks, stale_ticks)
+    }
+
     /// Forgets sender `id`: its replay window and its node neighbour entry. Call it for a
     /// sender known to have restarted its sequence. Returns whether either was held.
     pub fn forget(&mut self, id: NodeId) -> bool {
@@ -248,9 +373,10 @@ impl<const N: usize> BeaconPort<N> {
             rx_ticks,
             delay_ticks,
         };
-        self.node
-            .observe(observation)
-            .map_err(|_| RejectKind::NodeFull)?;
+        self.node.observe(observation).map_err(|e| match e {
+            ObserveError::FromTheFuture(_) => RejectKind::FromTheFuture,
+            ObserveError::TableFull(_) => RejectKind::NodeFull,
+        })?;
         let accepted = admission.accepted();
         self.peers.commit(admission);
         Ok(Received {

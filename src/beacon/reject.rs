@@ -34,11 +34,15 @@ pub enum RejectKind {
     PeersFull,
     /// The node's neighbour table refused the observation (full).
     NodeFull,
+    /// Received later than the node's clock by more than its timeout
+    /// ([`ObserveError::FromTheFuture`](crate::ObserveError::FromTheFuture)): the
+    /// receive time handed in is wrong, or the node was not advanced for too long.
+    FromTheFuture,
 }
 
 impl RejectKind {
     /// Every kind, in the order of [`RejectCounts::iter`].
-    pub const ALL: [RejectKind; 11] = [
+    pub const ALL: [RejectKind; 12] = [
         RejectKind::TooShort,
         RejectKind::TooLong,
         RejectKind::UnsupportedVersion,
@@ -50,6 +54,7 @@ impl RejectKind {
         RejectKind::Late,
         RejectKind::PeersFull,
         RejectKind::NodeFull,
+        RejectKind::FromTheFuture,
     ];
 
     /// A short lower-case name for logs and telemetry keys (`"bad_check"`, ...).
@@ -66,6 +71,7 @@ impl RejectKind {
             RejectKind::Late => "late",
             RejectKind::PeersFull => "peers_full",
             RejectKind::NodeFull => "node_full",
+            RejectKind::FromTheFuture => "from_the_future",
         }
     }
 
@@ -110,6 +116,9 @@ impl fmt::Display for RejectKind {
             RejectKind::Late => "beacon refused: older than a frame already accepted",
             RejectKind::PeersFull => "beacon refused: replay-window table full of live senders",
             RejectKind::NodeFull => "beacon refused: node neighbour table full",
+            RejectKind::FromTheFuture => {
+                "beacon refused: received later than the node's clock by more than the timeout"
+            }
         })
     }
 }

@@ -91,6 +91,28 @@ impl SeqWindow {
         SeqWindow { newest: 0, seen: 0 }
     }
 
+    /// A window that refuses `last` and every number up to 2^31 before it, as if all of
+    /// them had been accepted, and takes any number after it as [`Accepted::Newer`]: the
+    /// window a receiver restores for a sender after its own reboot (see
+    /// [`BeaconPort::restore_window`](super::BeaconPort::restore_window)).
+    ///
+    /// ```
+    /// use entrain::beacon::{Accepted, SeqWindow, WindowReject};
+    ///
+    /// let mut w = SeqWindow::resume_after(500);
+    /// assert_eq!(w.accept(500), Err(WindowReject::Duplicate));
+    /// assert_eq!(w.accept(499), Err(WindowReject::Duplicate));
+    /// assert_eq!(w.accept(3), Err(WindowReject::TooOld { behind: 497 }));
+    /// assert_eq!(w.accept(502), Ok(Accepted::Newer { skipped: 1 }));
+    /// assert_eq!(w.accept(501), Ok(Accepted::Late { behind: 1 }));
+    /// ```
+    pub const fn resume_after(last: u32) -> SeqWindow {
+        SeqWindow {
+            newest: last,
+            seen: u64::MAX,
+        }
+    }
+
     /// Whether nothing was accepted yet.
     pub const fn is_empty(&self) -> bool {
         self.seen == 0

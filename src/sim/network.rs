@@ -38,7 +38,7 @@ use super::settle::{
 };
 use super::setup::{Crystals, Setup, StartPhases};
 use super::trace::Trace;
-use crate::{Config, Node, NodeId, Observation, Phase, UpdateReport};
+use crate::{Config, Node, NodeId, Observation, ObserveError, Phase, UpdateReport};
 
 /// Sub-ticks per nominal tick.
 const SUB: u64 = 1 << 16;
@@ -478,7 +478,11 @@ impl<const N: usize> Network<N> {
                     rx_ticks: b.rx_ticks,
                     delay_ticks: delay,
                 };
-                if node.observe(obs).is_err() {
+                // A reception more than the timeout after the node's last update
+                // (only with a timeout shorter than the update interval) is refused
+                // as from the future; the node's next update would have emptied its
+                // table anyway. Only a full table is counted.
+                if let Err(ObserveError::TableFull(_)) = node.observe(obs) {
                     full += 1;
                 }
                 false
@@ -572,7 +576,8 @@ impl<const N: usize> Network<N> {
                         rx_ticks,
                         delay_ticks: latency,
                     };
-                    if st.node.observe(obs).is_err() {
+                    // As above: only a full table is counted.
+                    if let Err(ObserveError::TableFull(_)) = st.node.observe(obs) {
                         self.stats.table_full += 1;
                     }
                 }

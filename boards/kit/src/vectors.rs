@@ -21,7 +21,7 @@
 //!
 //! | tag | event | inputs | expected outputs |
 //! |---|---|---|---|
-//! | 1 | `observe` | `u16` from, `u32` phase, `u32` rx ticks, `u32` delay ticks | `u8` 0 accepted, 1 table full |
+//! | 1 | `observe` | `u16` from, `u32` phase, `u32` rx ticks, `u32` delay ticks | `u8` 0 accepted, 1 table full, 2 from the future |
 //! | 2 | `advance_to` | `u32` now | `u32` wraps, `u32` phase, `u32` cycles |
 //! | 3 | `update` | `u32` now | `i32` correction, `u8` slew limited, `u8` used, `u8` evicted, `u32` largest diff, `u32` phase, `i64` trim (Q32.32), `u32` cycles |
 //! | 4 | `forget` | `u16` id | `u8` 1 if it was there |
@@ -31,7 +31,7 @@
 //! firmware prints when it has replayed it.
 
 use core::fmt;
-use entrain::{Config, Gain, Law, Node, Observation, Phase};
+use entrain::{Config, Gain, Law, Node, Observation, ObserveError, Phase};
 
 /// The magic bytes that open a vector file.
 pub const MAGIC: &[u8; 8] = b"ENTRVEC1";
@@ -333,8 +333,14 @@ fn run<const N: usize>(
                     rx_ticks: r.u32("rx ticks")?,
                     delay_ticks: r.u32("delay ticks")?,
                 };
-                let full = u8::from(node.observe(obs).is_err());
-                c.u8(r, "observe result", full)?;
+                let code = match node.observe(obs) {
+                    Ok(()) => 0,
+                    Err(ObserveError::TableFull(_)) => 1,
+                    Err(ObserveError::FromTheFuture(_)) => 2,
+                    // A kind this format has no code for: never equal to a recorded code.
+                    Err(_) => u8::MAX,
+                };
+                c.u8(r, "observe result", code)?;
             }
             TAG_ADVANCE => {
                 let now = r.u32("now")?;

@@ -451,3 +451,86 @@ fn a_good_design_passes_a_few_hundred_deployments() {
     );
     assert_eq!(c.scenario.reboots.len(), 1);
 }
+
+#[test]
+fn gains_too_high_for_a_hub_shrink_to_the_smallest_unstable_star() {
+    // Linear P law: x⁺ = (I − kp·L)x decays iff |1 − kp·λ| < 1 for every non-zero
+    // Laplacian eigenvalue λ (standard linear algebra), and a star of n nodes has
+    // eigenvalues 0, 1 (n − 2 times) and n (standard result, e.g. Godsil & Royle,
+    // Algebraic Graph Theory, 2001, ch. 13). At kp = 29491/65536 ≈ 0.45, 2/kp ≈ 4.44:
+    // the star of 4 is stable, the star of 5 is not.
+    let config = Config::builder(5_000, 20_000)
+        .kp(Gain::from_q16(29_491))
+        .law(Law::Linear)
+        .timeout_ticks(100_000)
+        .build()
+        .unwrap();
+    let firmware = Firmware::<255>::new(config, 1_000_000);
+    let base = firmware
+        .fix(&read(
+            "q.toml",
+            &QUICK.replace("coupling = \"sine\"", "coupling = \"linear\""),
+        ))
+        .unwrap();
+    let deployments = Deployments::new(base).family(Family::Star, 2..=60);
+    let effort = Effort {
+        cases: 64,
+        ..Effort::default()
+    };
+    let c = props::search::<255>(&deployments, &[Property::Stable], &effort).unwrap_err();
+    assert_eq!(
+        c.scenario.layout,
+        Layout::Topology(Topology::Star { nodes: 5 })
+    );
+    assert_eq!(c.findings[0].property, Property::Stable);
+}
+
+#[test]
+fn a_tight_slew_limit_breaks_the_worst_case_bound() {
+    // The worst-case bound does not step the slew clamp. With a clamp of 2^21 counts
+    // (1/2048 turn) per update, two nodes close a start difference of d turns at no more
+    // than 2/2048 turn per update: d = 0.1 takes over 100 updates (2 s at 50 Hz), while
+    // the bound at kp 0.4 on two nodes (|1 − 0.4·2| = 0.2 per update) is a few updates.
+    let tight = Config::builder(5_000, 20_000)
+        .kp(Gain::from_q16(26_214))
+        .slew_limit(1 << 21)
+        .timeout_ticks(100_000)
+        .build()
+        .unwrap();
+    let base = Firmware::<2>::new(tight, 1_000_000)
+        .fix(&read("q.toml", QUICK))
+        .unwrap();
+    let effort = Effort {
+        cases: 32,
+        runs: 4,
+        ..Effort::default()
+    };
+    let deployments = Deployments::new(base).family(Family::Chain, 2..=12);
+    let c = props::search::<2>(&deployments, &[Property::BoundHolds], &effort).unwrap_err();
+    assert_eq!(
+        c.scenario.layout,
+        Layout::Topology(Topology::Chain { nodes: 2 })
+    );
+    assert_eq!(c.findings[0].property, Property::BoundHolds);
+    // The same design with the default clamp (1/16 turn) keeps within its bound.
+    let (_, base) = quick_firmware::<2>(26_214, 0, 200_000);
+    let deployments = Deployments::new(base).family(Family::Chain, 2..=12);
+    if let Err(c) = props::search::<2>(&deployments, &[Property::BoundHolds], &effort) {
+        panic!("{c}");
+    }
+}
+
+#[test]
+fn holds_reports_the_scenario_file_in_its_message() {
+    let (_, base) = quick_firmware::<1>(26_214, 0, 200_000);
+    let mut star = base.clone();
+    star.layout = Layout::Topology(Topology::Star { nodes: 3 });
+    let e = props::holds::<1>(&star, &[Property::TableFits], &Effort::default()).unwrap_err();
+    let message = e.to_string();
+    assert!(message.contains("topology = \"star\""), "{message}");
+    assert!(
+        message.contains("node 0 has 2 neighbours, the firmware's table holds 1"),
+        "{message}"
+    );
+    assert!(props::holds::<1>(&base, &[Property::TableFits], &Effort::default()).is_ok());
+}

@@ -170,10 +170,14 @@ pub struct PredictEffort {
     /// [`FORECAST_MAX_WORK`], none below [`FORECAST_MIN_SAMPLES`]).
     pub forecast_samples: usize,
     /// `None`: the assessment's horizon (see [`HORIZON_BOUND_FACTOR`]). `Some(f)`: a
-    /// shorter one, `f × max(budget, worst-case bound)` plus the last reboot's return
-    /// (never longer than the assessment's), for quick property runs that only ask
-    /// whether settling came within the budget or the bound.
+    /// shorter one, `f × budget` (`f × max(budget, worst-case bound)` with
+    /// [`PredictEffort::horizon_covers_bound`]) plus the last reboot's return, never
+    /// longer than the assessment's, for quick property runs that only ask whether
+    /// settling came within the budget or the bound.
     pub horizon_factor: Option<f64>,
+    /// With [`PredictEffort::horizon_factor`]: the short horizon also covers the
+    /// worst-case bound.
+    pub horizon_covers_bound: bool,
 }
 
 impl PredictEffort {
@@ -181,6 +185,7 @@ impl PredictEffort {
     pub const FULL: PredictEffort = PredictEffort {
         forecast_samples: FORECAST_SAMPLES,
         horizon_factor: None,
+        horizon_covers_bound: true,
     };
 }
 
@@ -256,8 +261,12 @@ pub fn predict_with(
     let (mut horizon_updates, horizon_capped) = horizon(scenario, network, &m, bound_s);
     if let (Some(factor), Some(bound_s)) = (effort.horizon_factor, bound_s) {
         let rate = scenario.update_rate_hz;
-        let short =
-            factor * scenario.lock_budget_s.max(bound_s) * rate + last_return_s(scenario) * rate;
+        let span = if effort.horizon_covers_bound {
+            scenario.lock_budget_s.max(bound_s)
+        } else {
+            scenario.lock_budget_s
+        };
+        let short = factor * span * rate + last_return_s(scenario) * rate;
         horizon_updates = horizon_updates.min((short.ceil() as u64).max(1));
     }
     // The forecast steps the same setup the Monte Carlo runs, with an independent model.

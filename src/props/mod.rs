@@ -20,15 +20,19 @@
 //! # Effort per case
 //!
 //! A property run checks hundreds of deployments, so each check is cut to what the
-//! properties ask ([`Effort`]): a few Monte-Carlo runs (default 8) and a short forecast
-//! (default 40 samples), and a simulation horizon chosen from the prediction:
-//! [`Effort::horizon_factor`] (default 1.5) × the larger of the budget and the planner's
-//! worst-case settling bound, plus the last reboot's return, never longer than the
-//! full assessment's horizon. A run counts as settled only if its last exit from the
-//! tolerance band lies before the final fifth of its horizon, so with the factor 1.5 any
-//! settling up to 1.2 × max(budget, bound) is seen as such; what the short horizon gives
-//! up is a late swing out of the band long after the budget, which `entrain check` on the
-//! written scenario (full horizon, more runs) still catches.
+//! properties ask ([`Effort`]): a few Monte-Carlo runs (default 4), a short forecast
+//! (default 20 samples, the fewest it takes; only for [`Property::SettlesWithinBudget`],
+//! the one property that reads it), and a simulation horizon chosen from the budget and
+//! the prediction: [`Effort::horizon_factor`] (default 1.25) × the budget — × the larger of
+//! the budget and the planner's worst-case settling bound when [`Property::BoundHolds`]
+//! is asked — plus the last reboot's return, never longer than the full assessment's
+//! horizon. A run counts as settled only if its last exit from the tolerance band lies
+//! before the final fifth of its horizon, so with the factor 1.25 any settling up to the
+//! budget (or bound) is seen as such and a later one counts as never settled — a failure
+//! either way; what the short horizon gives up is a late
+//! swing out of the band long after the budget, and slow drifts (of the trims, say) that
+//! build up later, which `entrain check` on the written scenario (full horizon, more
+//! runs) still sees.
 //!
 //! # Example
 //!
@@ -128,7 +132,8 @@ pub enum Property {
     /// one update interval of sampling, plus the last reboot's return).
     BoundHolds,
     /// No node's rate trim ever reaches its limit in any simulated run (checked at every
-    /// sample).
+    /// sample; an unstable design is not simulated, it fails [`Property::Stable`] and
+    /// [`Property::SettlesWithinBudget`]).
     TrimBelowLimit,
     /// No node has more neighbours than the firmware's table holds (`N` of
     /// [`Firmware`]), and no simulated run refuses an observation for a full table.
@@ -183,14 +188,14 @@ pub struct Effort {
 }
 
 impl Default for Effort {
-    /// 256 cases, 8 runs, 40 forecast samples, horizon factor 1.5.
+    /// 256 cases, 4 runs, 20 forecast samples, horizon factor 1.25.
     fn default() -> Effort {
         Effort {
             cases: 256,
-            runs: 8,
+            runs: 4,
             seed: 1,
-            forecast_samples: 40,
-            horizon_factor: Some(1.5),
+            forecast_samples: 20,
+            horizon_factor: Some(1.25),
             search_seed: 0x0E17_7A1D,
             max_shrink_iters: 1_000,
         }
@@ -248,8 +253,14 @@ pub fn check<const N: usize>(
         gains.kp,
         gains.ki,
         PredictEffort {
-            forecast_samples: effort.forecast_samples,
+            // Only the budget property reads the forecast.
+            forecast_samples: if properties.contains(&Property::SettlesWithinBudget) {
+                effort.forecast_samples
+            } else {
+                0
+            },
             horizon_factor: effort.horizon_factor,
+            horizon_covers_bound: properties.contains(&Property::BoundHolds),
         },
     )
     .map_err(refused)?;
@@ -462,7 +473,8 @@ pub struct Counterexample {
     pub scenario: Scenario,
     /// What failed on it.
     pub findings: Vec<Finding>,
-    /// Deployments that passed before the first failure.
+    /// Checks that passed during the search, counting those proptest made while
+    /// shrinking.
     pub passed: u32,
     /// The deployment as a scenario file (its `[monte_carlo]` runs and seed are the
     /// search's, so `entrain check` replays the same runs, over a longer horizon).
@@ -483,7 +495,7 @@ impl fmt::Display for Counterexample {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         writeln!(
             f,
-            "entrain property failed after {} passing deployments; minimal failing deployment ({}):",
+            "entrain property failed ({} passing checks, shrinking included); minimal failing deployment ({}):",
             self.passed,
             self.scenario.layout.describe()
         )?;

@@ -55,6 +55,15 @@ mod phase;
 #[cfg(feature = "plan")]
 #[cfg_attr(docsrs, doc(cfg(feature = "plan")))]
 pub mod plan;
+#[cfg(feature = "proptest")]
+#[cfg_attr(docsrs, doc(cfg(feature = "proptest")))]
+#[allow(
+    clippy::unwrap_used,
+    clippy::expect_used,
+    clippy::panic,
+    clippy::indexing_slicing
+)]
+pub mod props;
 #[cfg(feature = "hal")]
 #[cfg_attr(docsrs, doc(cfg(feature = "hal")))]
 pub mod pulse;

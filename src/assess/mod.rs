@@ -62,8 +62,8 @@ pub use error::{AssessError, WorkEstimate, human_duration};
 pub use network::{NetworkModel, SpectrumSource};
 pub use prediction::{
     FORECAST_MAX_WORK, FORECAST_MIN_SAMPLES, FORECAST_SAMPLES, FORECAST_SEED, HORIZON_BOUND_FACTOR,
-    HORIZON_SLOW_PERIODS, MarginCheck, NoiseFloorPrediction, Prediction, SettlePrediction, budget,
-    model, predict,
+    HORIZON_SLOW_PERIODS, MarginCheck, NoiseFloorPrediction, PredictEffort, Prediction,
+    SettlePrediction, budget, model, predict, predict_with,
 };
 pub use simulation::{Simulation, setup, simulate};
 pub use timer::{MAX_TICK_FRACTION_OF_TOLERANCE, TimerCheck};

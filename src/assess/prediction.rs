@@ -163,6 +163,32 @@ impl Prediction {
     }
 }
 
+/// How much work a prediction spends: forecast samples and the simulation horizon.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct PredictEffort {
+    /// Sampled runs of the forecast (at most; fewer when the work would exceed
+    /// [`FORECAST_MAX_WORK`], none below [`FORECAST_MIN_SAMPLES`]).
+    pub forecast_samples: usize,
+    /// `None`: the assessment's horizon (see [`HORIZON_BOUND_FACTOR`]). `Some(f)`: a
+    /// shorter one, `f × budget` (`f × max(budget, worst-case bound)` with
+    /// [`PredictEffort::horizon_covers_bound`]) plus the last reboot's return, never
+    /// longer than the assessment's, for quick property runs that only ask whether
+    /// settling came within the budget or the bound.
+    pub horizon_factor: Option<f64>,
+    /// With [`PredictEffort::horizon_factor`]: the short horizon also covers the
+    /// worst-case bound.
+    pub horizon_covers_bound: bool,
+}
+
+impl PredictEffort {
+    /// What [`predict`] spends: [`FORECAST_SAMPLES`] and the assessment's horizon.
+    pub const FULL: PredictEffort = PredictEffort {
+        forecast_samples: FORECAST_SAMPLES,
+        horizon_factor: None,
+        horizon_covers_bound: true,
+    };
+}
+
 /// Predict the behaviour of `scenario` on `network` at gains `kp`, `ki` (rounded to the
 /// node law's Q16.16 first).
 ///
@@ -173,6 +199,20 @@ pub fn predict(
     network: &NetworkModel,
     kp: f64,
     ki: f64,
+) -> Result<Prediction, AssessError> {
+    predict_with(scenario, network, kp, ki, PredictEffort::FULL)
+}
+
+/// [`predict`] with a chosen effort.
+///
+/// # Errors
+/// As [`predict`].
+pub fn predict_with(
+    scenario: &Scenario,
+    network: &NetworkModel,
+    kp: f64,
+    ki: f64,
+    effort: PredictEffort,
 ) -> Result<Prediction, AssessError> {
     let input = |message: String| AssessError::input(&scenario.path, message);
     let constants = NodeConstants::new(scenario, kp, ki).map_err(|e| input(format!("law: {e}")))?;
@@ -218,16 +258,28 @@ pub fn predict(
     };
     let timer = TimerCheck::of(scenario);
     let bound_s = settling.as_ref().map(plan::predicted_lock_s);
-    let (horizon_updates, horizon_capped) = horizon(scenario, network, &m, bound_s);
+    let (mut horizon_updates, horizon_capped) = horizon(scenario, network, &m, bound_s);
+    if let (Some(factor), Some(bound_s)) = (effort.horizon_factor, bound_s) {
+        let rate = scenario.update_rate_hz;
+        let span = if effort.horizon_covers_bound {
+            scenario.lock_budget_s.max(bound_s)
+        } else {
+            scenario.lock_budget_s
+        };
+        let short = factor * span * rate + last_return_s(scenario) * rate;
+        horizon_updates = horizon_updates.min((short.ceil() as u64).max(1));
+    }
     // The forecast steps the same setup the Monte Carlo runs, with an independent model.
     let per_sample = 2.0
         * network.spectrum.max_degree.max(1.0)
         * network.spectrum.node_count as f64
         * horizon_updates as f64;
-    let samples = ((FORECAST_MAX_WORK / per_sample) as usize).min(FORECAST_SAMPLES);
+    let samples = ((FORECAST_MAX_WORK / per_sample) as usize).min(effort.forecast_samples);
     let forecast = match bound_s {
         Some(_) if samples >= FORECAST_MIN_SAMPLES => {
-            let s = setup(scenario, network, &constants, horizon_updates)?;
+            let mut s = setup(scenario, network, &constants, horizon_updates)?;
+            // The forecast predicts settling from power-up; reboots are the simulation's.
+            s.reboots.clear();
             forecast::forecast(&s, samples, FORECAST_SEED).ok()
         }
         _ => None,
@@ -275,10 +327,19 @@ pub fn predict(
     })
 }
 
+/// When the last rebooted node is back, seconds from power-up (0 without reboots).
+fn last_return_s(scenario: &Scenario) -> f64 {
+    scenario
+        .reboots
+        .iter()
+        .map(crate::scenario::Reboot::back_s)
+        .fold(0.0, f64::max)
+}
+
 /// The simulation horizon, updates: at least [`HORIZON_BOUND_FACTOR`] × the worst-case
 /// bound, [`HORIZON_SLOW_PERIODS`] periods of the slowest oscillating mode, twice the
-/// budget, and the scenario's own `duration_s`; at most the simulator's limit (the second
-/// value says whether that cut it).
+/// budget (each after the last reboot's return), and the scenario's own `duration_s`; at
+/// most the simulator's limit (the second value says whether that cut it).
 fn horizon(
     scenario: &Scenario,
     network: &NetworkModel,
@@ -294,14 +355,15 @@ fn horizon(
         .filter(|&&l| l > 1e-12)
         .filter_map(|&l| forecast::mode_period(m.kp, m.ki, l))
         .fold(0.0_f64, f64::max);
-    let need = [
+    let settling = [
         bound_s.unwrap_or(0.0) * rate * HORIZON_BOUND_FACTOR,
         period * HORIZON_SLOW_PERIODS,
         2.0 * scenario.lock_budget_s * rate,
-        scenario.duration_s.unwrap_or(0.0) * rate,
     ]
     .into_iter()
-    .fold(0.0_f64, f64::max)
-    .ceil();
+    .fold(0.0_f64, f64::max);
+    let need = (settling + last_return_s(scenario) * rate)
+        .max(scenario.duration_s.unwrap_or(0.0) * rate)
+        .ceil();
     (need.min(MAX_SIM_UPDATES) as u64, need > MAX_SIM_UPDATES)
 }

@@ -35,9 +35,28 @@ pub fn setup(
         .map_err(|e| input(format!("law: the node law refuses these values: {e}")))?;
     let timer_hz = f64::from(scenario.timer_hz);
     let mut s = sim::Setup::new(links, config, timer_hz);
-    s.crystals = sim::Crystals::Uniform {
-        tolerance_ppm: scenario.crystal_tolerance_ppm,
+    s.crystals = match &scenario.crystal_ppm {
+        // The pattern as given; a pinned chain's reference (the last simulated node)
+        // runs at the nominal rate.
+        Some(pattern) => {
+            let mut ppm = pattern.clone();
+            ppm.resize(s.links.nodes(), 0.0);
+            sim::Crystals::Fixed(ppm)
+        }
+        None => sim::Crystals::Uniform {
+            tolerance_ppm: scenario.crystal_tolerance_ppm,
+        },
     };
+    let rate = scenario.update_rate_hz;
+    s.reboots = scenario
+        .reboots
+        .iter()
+        .map(|r| sim::Reboot {
+            node: r.node,
+            at_updates: r.at_updates(rate),
+            down_updates: r.down_updates(rate),
+        })
+        .collect();
     s.schedule = sim::Schedule {
         random_start: true,
         jitter_ticks: 0,
@@ -85,16 +104,24 @@ pub fn simulate(
 ) -> Result<Simulation, AssessError> {
     let summary = sim::monte_carlo(&setup, runs as usize, seed, progress)
         .map_err(|e| AssessError::input(&scenario.path, format!("simulation: {e}")))?;
-    let period = setup.update_period_s();
-    let settle_times_s = summary
-        .outcomes
-        .iter()
-        .filter_map(|o| o.settle.map(|l| l.at_updates as f64 * period))
-        .collect();
-    Ok(Simulation {
-        summary,
-        settle_times_s,
-        seed,
-        setup,
-    })
+    Ok(Simulation::of(summary, seed, setup))
+}
+
+impl Simulation {
+    /// What the runs in `summary` show, the runs of `setup` with master `seed`.
+    #[must_use]
+    pub fn of(summary: sim::Summary, seed: u64, setup: sim::Setup) -> Simulation {
+        let period = setup.update_period_s();
+        let settle_times_s = summary
+            .outcomes
+            .iter()
+            .filter_map(|o| o.settle.map(|l| l.at_updates as f64 * period))
+            .collect();
+        Simulation {
+            summary,
+            settle_times_s,
+            seed,
+            setup,
+        }
+    }
 }

@@ -20,6 +20,8 @@ use std::ops::Range;
 use std::path::{Path, PathBuf};
 use toml::Spanned;
 
+mod write;
+
 /// The scenario-file version this build reads.
 pub const SCENARIO_VERSION: i64 = 1;
 
@@ -187,6 +189,15 @@ struct RawScenario {
     lock: S<RawLock>,
     margins: Option<S<RawMargins>>,
     monte_carlo: Option<S<RawMonteCarlo>>,
+    reboot: Option<Vec<S<RawReboot>>>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawReboot {
+    node: S<i64>,
+    at_s: S<Real>,
+    down_s: S<Real>,
 }
 
 #[derive(Deserialize)]
@@ -197,6 +208,7 @@ struct RawNetwork {
     rows: Option<S<i64>>,
     cols: Option<S<i64>>,
     edge_list_file: Option<S<String>>,
+    edges: Option<S<Vec<(i64, i64)>>>,
 }
 
 #[derive(Deserialize)]
@@ -222,6 +234,7 @@ struct RawLaw {
 #[serde(deny_unknown_fields)]
 struct RawClock {
     crystal_tolerance_ppm: Option<S<Real>>,
+    crystal_ppm: Option<S<Vec<Real>>>,
     timestamp_jitter_s: Option<S<Real>>,
 }
 
@@ -335,9 +348,11 @@ struct RawMonteCarlo {
 pub enum Layout {
     /// One of the planner's closed-form topologies (node numbering as documented there).
     Topology(Topology),
-    /// An arbitrary undirected graph read from an edge-list file.
+    /// An arbitrary undirected graph, read from an edge-list file or given inline in the
+    /// scenario (`[network] edges`).
     EdgeList {
-        /// The edge-list file (resolved against the scenario's folder).
+        /// The edge-list file (resolved against the scenario's folder), or the scenario
+        /// file itself when the edges are given inline.
         path: PathBuf,
         /// Number of nodes (`0..nodes`).
         nodes: usize,
@@ -518,6 +533,47 @@ pub struct Scenario {
     /// assessment choose; it extends any value to a horizon long enough to tell settling
     /// from a passing entry).
     pub duration_s: Option<f64>,
+    /// Each node's crystal error, ppm, in node order (`[clock] crystal_ppm`), when the
+    /// file fixes the pattern; `None` draws every node's error per run within
+    /// [`Scenario::crystal_tolerance_ppm`]. One value per node that adjusts its phase (a
+    /// pinned chain's reference always runs at the nominal rate), each within the
+    /// tolerance.
+    pub crystal_ppm: Option<Vec<f64>>,
+    /// Nodes that lose power during every simulated run (`[[reboot]]` tables), in file
+    /// order. Settling counts from power-up, so a reboot's rejoin delays it.
+    pub reboots: Vec<Reboot>,
+}
+
+/// A node that loses power during a run (a `[[reboot]]` table): silent from `at_s` for
+/// `down_s`, then back from a random phase with an empty neighbour table and zero trim.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Reboot {
+    /// The node (`0..nodes`; never a pinned chain's reference).
+    pub node: usize,
+    /// When it goes down, seconds from power-up (`≥ 0`).
+    pub at_s: f64,
+    /// How long it stays down, seconds (`> 0`; at least one update interval is simulated).
+    pub down_s: f64,
+}
+
+impl Reboot {
+    /// When it goes down, whole update intervals from power-up at `update_rate_hz`.
+    #[must_use]
+    pub fn at_updates(&self, update_rate_hz: f64) -> u64 {
+        (self.at_s * update_rate_hz).round() as u64
+    }
+
+    /// How long it stays down, whole update intervals (at least 1) at `update_rate_hz`.
+    #[must_use]
+    pub fn down_updates(&self, update_rate_hz: f64) -> u64 {
+        ((self.down_s * update_rate_hz).round() as u64).max(1)
+    }
+
+    /// When it is back, seconds from power-up.
+    #[must_use]
+    pub fn back_s(&self) -> f64 {
+        self.at_s + self.down_s
+    }
 }
 
 impl Scenario {
@@ -754,9 +810,13 @@ fn check(loc: &Locator<'_>, raw: RawScenario) -> Result<Scenario, ScenarioError>
     }
 
     // Clock.
-    let (crystal_tolerance_ppm, timestamp_jitter_s) = match &raw.clock {
+    let (crystal_tolerance_ppm, crystal_ppm, timestamp_jitter_s) = match &raw.clock {
         Some(c) => {
             let c = c.get_ref();
+            let pattern = match &c.crystal_ppm {
+                Some(v) => Some(check_crystal_pattern(loc, v, layout.node_count())?),
+                None => None,
+            };
             let ppm = match &c.crystal_tolerance_ppm {
                 Some(v) => real_in(
                     loc,
@@ -765,8 +825,22 @@ fn check(loc: &Locator<'_>, raw: RawScenario) -> Result<Scenario, ScenarioError>
                     |v| (0.0..=1_000.0).contains(&v),
                     "from 0 to 1000 ppm",
                 )?,
-                None => 0.0,
+                // A fixed pattern's tolerance is its largest error.
+                None => pattern
+                    .as_deref()
+                    .map_or(0.0, |p| p.iter().fold(0.0_f64, |m, e| m.max(e.abs()))),
             };
+            if let (Some(p), Some(span)) = (&pattern, c.crystal_ppm.as_ref().map(Spanned::span)) {
+                if let Some((node, e)) = p.iter().enumerate().find(|(_, e)| e.abs() > ppm) {
+                    return Err(refuse(
+                        loc,
+                        span,
+                        format!(
+                            "clock.crystal_ppm: node {node} has {e} ppm, outside clock.crystal_tolerance_ppm (±{ppm} ppm): the planner's worst case must cover the pattern"
+                        ),
+                    ));
+                }
+            }
             let jitter = match &c.timestamp_jitter_s {
                 Some(v) => real_in(
                     loc,
@@ -780,9 +854,9 @@ fn check(loc: &Locator<'_>, raw: RawScenario) -> Result<Scenario, ScenarioError>
                 )?,
                 None => 0.0,
             };
-            (ppm, jitter)
+            (ppm, pattern, jitter)
         }
-        None => (0.0, 0.0),
+        None => (0.0, None, 0.0),
     };
     // Link.
     let (latency_s, loss_fraction) = match &raw.link {
@@ -885,6 +959,8 @@ fn check(loc: &Locator<'_>, raw: RawScenario) -> Result<Scenario, ScenarioError>
         }
     }
 
+    let reboots = check_reboots(loc, raw.reboot.as_ref(), &layout, update_rate_hz)?;
+
     // Monte Carlo.
     let (runs, seed, duration_s) = match &raw.monte_carlo {
         Some(m) => {
@@ -942,7 +1018,76 @@ fn check(loc: &Locator<'_>, raw: RawScenario) -> Result<Scenario, ScenarioError>
         runs,
         seed,
         duration_s,
+        crystal_ppm,
+        reboots,
     })
+}
+
+/// `[clock] crystal_ppm`: one finite value within ±1000 ppm per node.
+fn check_crystal_pattern(
+    loc: &Locator<'_>,
+    value: &S<Vec<Real>>,
+    nodes: usize,
+) -> Result<Vec<f64>, ScenarioError> {
+    let pattern: Vec<f64> = value.get_ref().iter().map(|r| r.0).collect();
+    if pattern.len() != nodes {
+        return Err(refuse(
+            loc,
+            value.span(),
+            format!(
+                "clock.crystal_ppm holds {} values: it needs one per node ({nodes}), in node order",
+                pattern.len()
+            ),
+        ));
+    }
+    if let Some((node, e)) = pattern
+        .iter()
+        .enumerate()
+        .find(|(_, e)| !(e.is_finite() && e.abs() <= 1_000.0))
+    {
+        return Err(refuse(
+            loc,
+            value.span(),
+            format!("clock.crystal_ppm: node {node} has {e} ppm: each must be within ±1000 ppm"),
+        ));
+    }
+    Ok(pattern)
+}
+
+/// The `[[reboot]]` tables, checked against the layout and the budget of simulated time.
+fn check_reboots(
+    loc: &Locator<'_>,
+    raw: Option<&Vec<S<RawReboot>>>,
+    layout: &Layout,
+    update_rate_hz: f64,
+) -> Result<Vec<Reboot>, ScenarioError> {
+    let Some(raw) = raw else {
+        return Ok(Vec::new());
+    };
+    let nodes = layout.node_count() as i64;
+    let longest = MAX_SIM_UPDATES / update_rate_hz;
+    raw.iter()
+        .map(|r| {
+            let r = r.get_ref();
+            let node = int_in(loc, &r.node, "reboot.node", 0, nodes - 1, "")? as usize;
+            let within = |v: f64| v * update_rate_hz <= MAX_SIM_UPDATES;
+            let at_s = real_in(
+                loc,
+                &r.at_s,
+                "reboot.at_s",
+                |v| v >= 0.0 && within(v),
+                &format!("from 0 to {longest} s"),
+            )?;
+            let down_s = real_in(
+                loc,
+                &r.down_s,
+                "reboot.down_s",
+                |v| v > 0.0 && within(v),
+                &format!("above 0 and at most {longest} s"),
+            )?;
+            Ok(Reboot { node, at_s, down_s })
+        })
+        .collect()
 }
 
 fn check_gains(loc: &Locator<'_>, law: &RawLaw) -> Result<Gains, ScenarioError> {
@@ -1040,6 +1185,9 @@ fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Layout, Scena
     let max = MAX_SCENARIO_NODES as i64;
     let dense = MAX_DENSE_NODES as i64;
     let side = 1_000;
+    if topology != "edge_list" {
+        refuse_extra(loc, n.edges.as_ref(), "edges", topology)?;
+    }
     let linear = |kind: &str, min: i64, max: i64| -> Result<usize, ScenarioError> {
         refuse_extra(loc, n.rows.as_ref(), "rows", topology)?;
         refuse_extra(loc, n.cols.as_ref(), "cols", topology)?;
@@ -1090,14 +1238,6 @@ fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Layout, Scena
         "edge_list" => {
             refuse_extra(loc, n.rows.as_ref(), "rows", topology)?;
             refuse_extra(loc, n.cols.as_ref(), "cols", topology)?;
-            let Some(file) = &n.edge_list_file else {
-                return Err(missing(
-                    loc,
-                    net.span(),
-                    "network.edge_list_file",
-                    "topology \"edge_list\" needs the path of its edge-list file",
-                ));
-            };
             let nodes = match &n.nodes {
                 Some(v) => Some(count_key(
                     loc,
@@ -1109,6 +1249,31 @@ fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Layout, Scena
                     "edge-list graph",
                 )?),
                 None => None,
+            };
+            if let Some(inline) = &n.edges {
+                refuse_extra(
+                    loc,
+                    n.edge_list_file.as_ref(),
+                    "edge_list_file",
+                    "edge_list with inline edges",
+                )?;
+                let (count, edges) =
+                    check_inline_edges(inline.get_ref(), nodes).map_err(|message| {
+                        refuse(loc, inline.span(), format!("network.edges: {message}"))
+                    })?;
+                return Ok(Layout::EdgeList {
+                    path: loc.file.to_path_buf(),
+                    nodes: count,
+                    edges,
+                });
+            }
+            let Some(file) = &n.edge_list_file else {
+                return Err(missing(
+                    loc,
+                    net.span(),
+                    "network.edge_list_file",
+                    "topology \"edge_list\" needs the path of its edge-list file, or the edges inline as network.edges = [[0, 1], [1, 2]]",
+                ));
             };
             let base = loc.file.parent().unwrap_or_else(|| Path::new(""));
             let path = base.join(file.get_ref());
@@ -1201,6 +1366,58 @@ fn open_regular(path: &Path, cap: u64, what: &str) -> Result<std::fs::File, Scen
     let file = std::fs::File::open(path).map_err(unreadable)?;
     regular(&file.metadata().map_err(unreadable)?)?;
     Ok(file)
+}
+
+/// Check inline edges (`[network] edges`): node numbers from 0, no self-loop, no edge
+/// twice, at most [`crate::MAX_NEIGHBOURS`] neighbours per node, the node count `nodes` when
+/// given, else one more than the largest number.
+fn check_inline_edges(
+    pairs: &[(i64, i64)],
+    nodes: Option<usize>,
+) -> Result<(usize, Vec<(usize, usize)>), String> {
+    if pairs.is_empty() {
+        return Err("no edges".to_owned());
+    }
+    let limit = nodes.unwrap_or(MAX_SCENARIO_NODES);
+    let mut seen = std::collections::BTreeSet::new();
+    let mut edges = Vec::with_capacity(pairs.len());
+    for &(a, b) in pairs {
+        let ok = |v: i64| usize::try_from(v).ok().filter(|&v| v < limit);
+        let (Some(a), Some(b)) = (ok(a), ok(b)) else {
+            return Err(format!(
+                "edge [{a}, {b}] names a node out of range: node numbers must be from 0 to {}",
+                limit - 1
+            ));
+        };
+        if a == b {
+            return Err(format!("edge [{a}, {b}] joins a node to itself"));
+        }
+        if !seen.insert((a.min(b), a.max(b))) {
+            return Err(format!("edge [{a}, {b}] is listed twice"));
+        }
+        edges.push((a, b));
+    }
+    let count = nodes.unwrap_or_else(|| {
+        edges
+            .iter()
+            .map(|&(a, b)| a.max(b))
+            .max()
+            .map_or(0, |m| m + 1)
+    });
+    let mut degree = vec![0usize; count];
+    for &(a, b) in &edges {
+        for end in [a, b] {
+            degree[end] += 1;
+            if degree[end] > crate::MAX_NEIGHBOURS {
+                return Err(format!(
+                    "node {end} has more than {} neighbours: a node's neighbour table holds at most {}",
+                    crate::MAX_NEIGHBOURS,
+                    crate::MAX_NEIGHBOURS
+                ));
+            }
+        }
+    }
+    Ok((count, edges))
 }
 
 /// Read an edge-list file: one undirected edge `a b` per line (0-based node numbers,

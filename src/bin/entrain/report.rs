@@ -23,7 +23,11 @@ fn row(s: &mut String, label: &str, value: &str, note: &str) {
         writeln!(s, "  {label:<LABEL$}{value}")
     } else {
         // A value longer than its column still gets two spaces before the note.
-        let gap = if value.chars().count() >= VALUE { "  " } else { "" };
+        let gap = if value.chars().count() >= VALUE {
+            "  "
+        } else {
+            ""
+        };
         writeln!(s, "  {label:<LABEL$}{value:<VALUE$}{gap}{note}")
     };
 }

@@ -405,3 +405,62 @@ fn spectra_are_computed_once_and_match_the_closed_form() {
         Layout::Topology(Topology::Chain { nodes: 24 })
     ));
 }
+
+/// Two sensors whose crystals are +5 and −5 ppm, PI law, random power-up instants: the
+/// trims take up the 10 ppm between them, but nothing holds their common part, and in
+/// simulation it drifts until a trim reaches its limit (measured: −496 ppm of a ±500 ppm
+/// limit within 8,000 updates). The check must say so (`common_rate_drift`); under the
+/// P law there is no trim to drift and the warning stays silent.
+#[test]
+fn common_rate_drift_is_reported() {
+    let pair = |law: &str| {
+        format!(
+            r#"
+version = 1
+name = "pair"
+[network]
+topology = "chain"
+nodes = 2
+[timing]
+update_rate_hz = 10
+phase_period_s = 0.001
+[law]
+coupling = "sine"
+{law}
+trim_limit_ppm = 200
+[clock]
+crystal_ppm = [5.0, -5.0]
+[lock]
+initial_spread_s = 0.0004
+tolerance_s = 0.00004
+budget_s = 240
+[monte_carlo]
+duration_s = 1500
+"#
+        )
+    };
+    let pi = run(&pair("kp = 0.3\nki = 0.02"), 4);
+    let summary = &pi.simulation.as_ref().unwrap().summary;
+    assert!(
+        summary.trim_at_limit_fraction > 0.0 || summary.common_rate_max_ppm > 6.0,
+        "{} ppm, {}",
+        summary.common_rate_max_ppm,
+        summary.trim_at_limit_fraction
+    );
+    assert!(
+        warning_codes(&pi).contains(&"common_rate_drift"),
+        "{:?}",
+        warning_codes(&pi)
+    );
+
+    let p = run(&pair("kp = 0.3"), 4);
+    let summary = &p.simulation.as_ref().unwrap().summary;
+    // The P law leaves each node at its crystal: the common rate is their mean, 0 ppm.
+    assert!(
+        summary.common_rate_max_ppm < 1e-9,
+        "{}",
+        summary.common_rate_max_ppm
+    );
+    assert_eq!(summary.trim_at_limit_fraction, 0.0);
+    assert!(!warning_codes(&p).contains(&"common_rate_drift"));
+}

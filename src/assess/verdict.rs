@@ -264,6 +264,18 @@ pub enum Warning {
         /// Fraction of runs.
         fraction: f64,
     },
+    /// The network's common rate drifted in simulation: some run ended with a rate trim
+    /// at its limit, or with the common rate (mean of crystal plus trim) further from
+    /// nominal than any crystal (a known weakness of the PI law: nothing pins the common
+    /// rate, so a bias the nodes cannot see integrates into every trim alike).
+    CommonRateDrift {
+        /// Largest |common rate| at the end of a run, ppm.
+        common_rate_max_ppm: f64,
+        /// The largest crystal error the scenario allows, ppm.
+        crystal_bound_ppm: f64,
+        /// Fraction of runs that ended with a trim at its limit.
+        trim_at_limit_fraction: f64,
+    },
 }
 
 impl Warning {
@@ -281,6 +293,7 @@ impl Warning {
         "closest_gains_shown",
         "lock_test_sufficient_only",
         "twisted_runs",
+        "common_rate_drift",
     ];
 
     /// Stable keyword for JSON.
@@ -299,6 +312,7 @@ impl Warning {
             Warning::ClosestGainsShown => "closest_gains_shown",
             Warning::LockTestSufficientOnly => "lock_test_sufficient_only",
             Warning::TwistedRuns { .. } => "twisted_runs",
+            Warning::CommonRateDrift { .. } => "common_rate_drift",
         }
     }
 }
@@ -351,6 +365,15 @@ impl fmt::Display for Warning {
                 f,
                 "{:.0} % of simulated runs ended in a twisted state (the phase winds around the ring)",
                 fraction * 100.0
+            ),
+            Warning::CommonRateDrift {
+                common_rate_max_ppm,
+                crystal_bound_ppm,
+                trim_at_limit_fraction,
+            } => write!(
+                f,
+                "the common rate drifted: runs ended up to {common_rate_max_ppm:.1} ppm from nominal (crystals within ±{crystal_bound_ppm:.1} ppm), {:.0} % with a rate trim at its limit; the PI law does not hold the network's common rate, so every node's clock may run that far off nominal",
+                trim_at_limit_fraction * 100.0
             ),
         }
     }
@@ -542,6 +565,22 @@ pub fn simulation_warnings(v: &Simulation) -> Vec<Warning> {
         if fraction > 0.0 {
             w.push(Warning::TwistedRuns { fraction });
         }
+    }
+    // The PI law has no restoring force on the common rate: a bias the node cannot see
+    // integrates into every trim alike. Shown when a trim ended at its limit, or the
+    // common rate ended further from nominal than any crystal is.
+    let crystal_bound_ppm = match &v.setup.crystals {
+        crate::sim::Crystals::Identical { ppm } => ppm.abs(),
+        crate::sim::Crystals::Uniform { tolerance_ppm } => *tolerance_ppm,
+        crate::sim::Crystals::Fixed(ppm) => ppm.iter().fold(0.0_f64, |m, p| m.max(p.abs())),
+    };
+    let s = &v.summary;
+    if s.trim_at_limit_fraction > 0.0 || s.common_rate_max_ppm > crystal_bound_ppm + 1.0 {
+        w.push(Warning::CommonRateDrift {
+            common_rate_max_ppm: s.common_rate_max_ppm,
+            crystal_bound_ppm,
+            trim_at_limit_fraction: s.trim_at_limit_fraction,
+        });
     }
     // The simulator sizes every neighbour table for the largest degree, so a full table
     // is a broken invariant, not a finding.

@@ -223,6 +223,11 @@ pub struct Summary {
     pub jitter_turns: Option<f64>,
     /// Neighbour terms summed over all runs (the work done).
     pub neighbour_updates: u64,
+    /// Largest |common rate| at the end of a run over all runs, ppm from nominal (see
+    /// [`RunOutcome::common_rate_ppm`]); 0 with no runs.
+    pub common_rate_max_ppm: f64,
+    /// Fraction of runs that ended with some node's rate trim at its limit.
+    pub trim_at_limit_fraction: f64,
     /// Every run's outcome, in run order.
     pub outcomes: Vec<RunOutcome>,
 }
@@ -245,7 +250,18 @@ impl Summary {
         let median = |mut v: Vec<f64>| Percentiles::of(&mut v).map(|p| p.p50);
         let rings = outcomes.iter().filter(|o| o.winding.is_some()).count();
         let twisted = outcomes.iter().filter(|o| o.twisted()).count();
+        let common_rate_max_ppm = outcomes
+            .iter()
+            .map(|o| o.common_rate_ppm.abs())
+            .fold(0.0, f64::max);
+        let at_limit = outcomes.iter().filter(|o| o.trims_at_limit > 0).count();
         Summary {
+            common_rate_max_ppm,
+            trim_at_limit_fraction: if runs == 0 {
+                0.0
+            } else {
+                at_limit as f64 / runs as f64
+            },
             runs,
             settled_runs: settles.len(),
             never_settled_fraction: if runs == 0 {

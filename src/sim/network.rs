@@ -637,6 +637,18 @@ impl<const N: usize> Network<N> {
             None
         };
         let live: Vec<Phase> = self.phases.iter().flatten().copied().collect();
+        let limit = i64::from(self.config.trim_limit_ppb());
+        let adjusting: Vec<&Station<N>> = self.stations.iter().filter(|s| !s.reference).collect();
+        let common_rate_ppm = adjusting
+            .iter()
+            .map(|s| s.ppm + f64::from(s.node.trim_ppb()) / 1000.0)
+            .sum::<f64>()
+            / adjusting.len().max(1) as f64;
+        // Within one ppb of the limit (the ppb figure rounds toward zero).
+        let trims_at_limit = adjusting
+            .iter()
+            .filter(|s| i64::from(s.node.trim_ppb()).abs() >= limit - 1)
+            .count();
         RunOutcome {
             settle,
             first_entry_updates: first_entry,
@@ -651,6 +663,8 @@ impl<const N: usize> Network<N> {
             )) / TURN,
             winding,
             last_rejoin_updates: self.last_rejoin,
+            common_rate_ppm,
+            trims_at_limit,
             stats: self.stats,
         }
     }

@@ -50,6 +50,12 @@ pub struct RunOutcome {
     pub winding: Option<i64>,
     /// When the last rebooted node rejoined, nominal update intervals from the start.
     pub last_rejoin_updates: Option<u64>,
+    /// The network's common rate at the end: the mean over the adjusting nodes (not a
+    /// reference) of crystal error plus rate trim, ppm from nominal. With the PI law the
+    /// trims cancel the crystals' differences; this is what is left in common.
+    pub common_rate_ppm: f64,
+    /// Adjusting nodes whose rate trim ended at its limit.
+    pub trims_at_limit: usize,
     /// Counters.
     pub stats: RunStats,
 }

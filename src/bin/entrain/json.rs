@@ -306,6 +306,8 @@ fn check_map(r: &Assessment, command: &str) -> Map<String, Value> {
             "residual_link_turns": opt(s.residual_link_turns),
             "jitter_turns": opt(s.jitter_turns),
             "neighbour_updates": s.neighbour_updates,
+            "common_rate_max_ppm": num(s.common_rate_max_ppm),
+            "trim_at_limit_fraction": num(s.trim_at_limit_fraction),
         })
     });
     m.insert("simulation".into(), sim);

@@ -419,6 +419,16 @@ fn figures(s: &mut String, r: &Assessment) {
                     "measured over each run's steady window",
                 );
             }
+            row(
+                s,
+                "simulated common rate",
+                &format!(
+                    "up to {:.1} ppm, {:.0} % at a trim limit",
+                    sm.common_rate_max_ppm,
+                    sm.trim_at_limit_fraction * 100.0
+                ),
+                "largest |mean crystal + trim| at a run's end",
+            );
         }
         None => row(s, "simulated runs", "not run", ""),
     }

@@ -626,30 +626,22 @@ pub fn tune_with(
     } = summarise(template, spectrum, flow_factor, budget, search, lock_time);
     // Between scan points: the fastest gains that lock, and the fastest that also fit the
     // budget and the margins.
-    let fastest = fastest.map(|c| {
-        refine(
-            template,
-            spectrum,
-            flow_factor,
-            budget,
-            search,
-            lock_time,
-            c,
-            |t| t.locks,
-        )
-    });
-    let best = best.map(|c| {
-        refine(
-            template,
-            spectrum,
-            flow_factor,
-            budget,
-            search,
-            lock_time,
-            c,
-            |t| t.meets_budget(budget) && t.margins_ok,
-        )
-    });
+    let mut refined = |c: Option<Candidate>, accept: &dyn Fn(&Candidate) -> bool| {
+        c.map(|c| {
+            refine(
+                template,
+                spectrum,
+                flow_factor,
+                budget,
+                search,
+                lock_time,
+                c,
+                accept,
+            )
+        })
+    };
+    let fastest = refined(fastest, &|t| t.locks);
+    let best = refined(best, &|t| t.meets_budget(budget) && t.margins_ok);
     // The refined gains belong to the ranges they meet.
     for c in [fastest, best].into_iter().flatten() {
         if c.meets_budget(budget) {

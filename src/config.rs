@@ -28,7 +28,15 @@ pub enum ConfigError {
     TrimLimitOutOfRange,
     /// `timeout_ticks` is zero or above `i32::MAX`.
     TimeoutOutOfRange,
+    /// The trim `leak` is not below `ki` (it must be a small fraction of the integral
+    /// gain; zero turns it off).
+    LeakNotBelowIntegral,
+    /// `delay_smoothing` above [`MAX_DELAY_SMOOTHING`].
+    DelaySmoothingOutOfRange,
 }
+
+/// Largest accepted [`ConfigBuilder::delay_smoothing`]: a sample weight of 2^-15.
+pub const MAX_DELAY_SMOOTHING: u8 = 15;
 
 impl fmt::Display for ConfigError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
@@ -49,6 +57,10 @@ impl fmt::Display for ConfigError {
             ConfigError::TimeoutOutOfRange => {
                 "timeout_ticks must be from 1 to 2147483647 timer ticks"
             }
+            ConfigError::LeakNotBelowIntegral => {
+                "trim leak must be below the integral gain ki (or zero)"
+            }
+            ConfigError::DelaySmoothingOutOfRange => "delay_smoothing must be from 0 to 15",
         })
     }
 }
@@ -86,6 +98,8 @@ pub struct Config {
     slew_limit: u32,
     trim_limit_ppb: u32,
     timeout_ticks: u32,
+    leak: Gain,
+    delay_smoothing: u8,
     /// Nominal phase advance per tick, Q32.32 counts (2^64 / ticks_per_period).
     rate_nominal: u64,
     /// Trim limit in Q32.32 counts per tick.
@@ -109,7 +123,21 @@ impl Config {
             slew_limit: 1 << 28,
             trim_limit_ppb: 200_000,
             timeout_ticks: None,
+            leak: Gain::ZERO,
+            delay_smoothing: 3,
         }
+    }
+
+    /// Trim leak per update (see [`ConfigBuilder::leak`]).
+    #[must_use]
+    pub const fn leak(&self) -> Gain {
+        self.leak
+    }
+
+    /// Smoothing shift of measured link delays (see [`ConfigBuilder::delay_smoothing`]).
+    #[must_use]
+    pub const fn delay_smoothing(&self) -> u8 {
+        self.delay_smoothing
     }
 
     /// Timer ticks per phase turn.
@@ -179,6 +207,8 @@ pub struct ConfigBuilder {
     slew_limit: u32,
     trim_limit_ppb: u32,
     timeout_ticks: Option<u32>,
+    leak: Gain,
+    delay_smoothing: u8,
 }
 
 impl ConfigBuilder {
@@ -216,6 +246,24 @@ impl ConfigBuilder {
         self
     }
 
+    /// Trim leak per update, `0 ≤ leak < ki` (default 0, off): each update the trim
+    /// loses this fraction of itself, which holds the network's common rate at the mean
+    /// of its crystals instead of letting it wander with timestamp noise (see
+    /// [`Node`](crate::Node)). A leak costs a steady phase offset of about
+    /// `leak/ki` times the trim, in turns per update, across the node's links.
+    pub const fn leak(mut self, leak: Gain) -> Self {
+        self.leak = leak;
+        self
+    }
+
+    /// Smoothing of measured link delays: each two-way sample moves the estimate by
+    /// 2^-`shift` of its difference (default 3, an eight-sample time constant; 0 takes
+    /// every sample whole; at most [`MAX_DELAY_SMOOTHING`]).
+    pub const fn delay_smoothing(mut self, shift: u8) -> Self {
+        self.delay_smoothing = shift;
+        self
+    }
+
     /// Check every value and derive the fixed-point constants.
     ///
     /// # Errors
@@ -239,6 +287,12 @@ impl ConfigBuilder {
         }
         if self.slew_limit == 0 || self.slew_limit > I32_MAX {
             return Err(ConfigError::SlewLimitOutOfRange);
+        }
+        if self.leak.q16() != 0 && self.leak.q16() >= self.ki.q16() {
+            return Err(ConfigError::LeakNotBelowIntegral);
+        }
+        if self.delay_smoothing > MAX_DELAY_SMOOTHING {
+            return Err(ConfigError::DelaySmoothingOutOfRange);
         }
         if self.trim_limit_ppb > MAX_TRIM_LIMIT_PPB {
             return Err(ConfigError::TrimLimitOutOfRange);
@@ -270,6 +324,8 @@ impl ConfigBuilder {
             slew_limit: self.slew_limit,
             trim_limit_ppb: self.trim_limit_ppb,
             timeout_ticks,
+            leak: self.leak,
+            delay_smoothing: self.delay_smoothing,
             rate_nominal,
             trim_limit_raw,
             ki_tick,

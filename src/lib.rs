@@ -86,8 +86,10 @@ pub mod scenario;
 )]
 pub mod sim;
 
-pub use config::{Config, ConfigBuilder, ConfigError, MAX_TRIM_LIMIT_PPB};
+pub use config::{Config, ConfigBuilder, ConfigError, MAX_DELAY_SMOOTHING, MAX_TRIM_LIMIT_PPB};
 pub use gain::{GAIN_FRAC_BITS, Gain};
 pub use law::Law;
-pub use node::{MAX_NEIGHBOURS, Node, NodeId, Observation, ObserveError, UpdateReport};
+pub use node::{
+    Echo, LinkView, MAX_NEIGHBOURS, Node, NodeId, Observation, ObserveError, Timing, UpdateReport,
+};
 pub use phase::Phase;

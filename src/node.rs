@@ -71,6 +71,44 @@ impl fmt::Display for ObserveError {
 
 impl core::error::Error for ObserveError {}
 
+/// Two-way timing that a version-2 beacon carries with its phase: what the receiving
+/// node needs to measure the link's delay instead of being told it.
+///
+/// The sender stamps its own timer when the frame leaves (`tx_ticks`); the receiver
+/// keeps that stamp with its reception time and, in one of its own later beacons,
+/// echoes it back with how long it held it ([`Echo`]). The first node then knows the
+/// round trip `(rx − echoed tx) − held`, and takes half of it as the one-way delay —
+/// two-way time transfer, as the open network-time standards measure path delay (Mills,
+/// RFC 5905 §8, "Computing the offset and delay"). A delay the node measures this way is
+/// exact when the two directions of the link are equally late; if they differ by `a`,
+/// the node sees its neighbour off by `a/2` (the standard's own residual, ibid.).
+#[derive(Clone, Copy, PartialEq, Eq, Hash, Debug)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Timing {
+    /// The sender's timer when the beacon left, the sender's ticks.
+    pub tx_ticks: u32,
+    /// The sender's rate trim when it sent, parts per billion (the frame's trim field):
+    /// it converts the sender's held ticks into this node's.
+    pub trim_ppb: i32,
+    /// The sender's echo of this node's own last beacon it heard, if it carries one for
+    /// this node.
+    pub echo: Option<Echo>,
+}
+
+/// A neighbour's echo of one of this node's beacons (see [`Timing`]).
+#[derive(Clone, Copy, PartialEq, Eq, Hash, Debug)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Echo {
+    /// This node's own `tx_ticks` of the beacon echoed, as it sent them.
+    pub tx_ticks: u32,
+    /// The echoing neighbour's ticks from that beacon's reception to the send of the
+    /// beacon that carries the echo.
+    pub held_ticks: u32,
+}
+
+/// Fractional bits of a measured link delay (`Entry::delay_q16`): 2^-16 tick.
+const DELAY_FRAC: u32 = 16;
+
 /// What one update did.
 #[derive(Clone, Copy, PartialEq, Eq, Hash, Debug, Default)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -97,6 +135,32 @@ struct Entry {
     anchored_diff: u32,
     /// Local ticks when last heard.
     heard: u32,
+    /// The neighbour's own `tx_ticks` of the beacon last heard (to echo back), valid
+    /// when `timed`.
+    their_tx: u32,
+    /// Whether the last beacon heard carried two-way timing.
+    timed: bool,
+    /// Echo samples taken into `delay_q16` (saturating; 0: no measurement yet).
+    samples: u8,
+    /// Measured one-way delay beyond the observation's `delay_ticks`, this node's ticks
+    /// in Q.16, smoothed over the echoes (see [`Config::delay_smoothing`]).
+    delay_q16: i64,
+}
+
+/// A neighbour as the node sees it: what [`Node::links`] yields.
+#[derive(Clone, Copy, PartialEq, Eq, Hash, Debug)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct LinkView {
+    /// The neighbour's id.
+    pub id: NodeId,
+    /// Its phase minus this node's, counts, extrapolated to the node's current instant
+    /// (the Δ the next update pulls with, if nothing newer arrives).
+    pub diff: i32,
+    /// The node's timer when the neighbour was last heard.
+    pub heard_ticks: u32,
+    /// The link delay measured by two-way timing beyond the configured `delay_ticks`,
+    /// ticks (rounded), or `None` before the first echo.
+    pub measured_delay_ticks: Option<i32>,
 }
 
 /// One node's phase state, its neighbour table of capacity `N`, and the PI law.
@@ -109,11 +173,20 @@ struct Entry {
 ///
 /// Each [`update`](Node::update) applies
 /// `phase += clamp(kp · Σ pull(Δ_j), ±slew_limit)` and
-/// `trim += ki · Σ pull(Δ_j) / update_ticks` (not while slew-limited; clamped to the trim
-/// range), where `Δ_j` is neighbour j's phase, extrapolated from its observation to now,
+/// `trim += ki · Σ pull(Δ_j) / update_ticks − leak · trim` (not while slew-limited; clamped
+/// to the trim range), where `Δ_j` is neighbour j's phase, extrapolated from its observation to now,
 /// minus this node's. The new trim takes effect from the next update, so at update
 /// instants the node follows the PI model θ⁺ = θ + v − kp·Lθ, v⁺ = v − ki·Lθ exactly
-/// (v: the trim as phase per update), whose modes obey z² − (2 − kpλ)z + (1 − kpλ + kiλ).
+/// (v: the trim as phase per update; with a leak γ, v⁺ = (1 − γ)v − ki·Lθ), whose modes
+/// obey z² − (2 − γ − kpλ)z + (1 − γ)(1 − kpλ) + kiλ. The leak holds the network's common
+/// rate at the mean of its crystals: without it the sum of all trims has no restoring
+/// force and wanders with every timestamp error (docs/design.md, "Two-way timing and the
+/// leak").
+///
+/// Observations with two-way [`Timing`] ([`observe_timed`](Node::observe_timed)) let
+/// the node measure each link's delay itself, so that neither an unknown latency nor a
+/// biased reception timestamp leaves every node seeing its neighbours late.
+///
 /// One neighbour, however it lies, moves the node at most `slew_limit` counts per
 /// update.
 ///
@@ -298,30 +371,173 @@ impl<const N: usize> Node<N> {
     /// past); [`ObserveError::TableFull`] when it comes from a new neighbour and
     /// all `N` entries are taken.
     pub fn observe(&mut self, obs: Observation) -> Result<(), ObserveError> {
+        self.observe_timed(obs, None)
+    }
+
+    /// [`observe`](Node::observe) with the two-way timing of a version-2 beacon.
+    ///
+    /// The node keeps the sender's `tx_ticks` to echo back ([`echo_for`](Node::echo_for)),
+    /// and when the timing carries an echo of this node's own beacon it takes a delay
+    /// sample: the round trip `(rx_ticks − echo.tx_ticks) − held` (the held ticks
+    /// converted from the sender's timer to this node's through the two trims), halved,
+    /// less the observation's `delay_ticks`. The samples are smoothed per neighbour
+    /// (exponentially, weight 2^−[`delay_smoothing`](Config::delay_smoothing); the
+    /// first is taken whole) and the estimate is added to `delay_ticks` in every later
+    /// observation from that neighbour, timed or not. A sample whose round trip is
+    /// negative beyond one tick, or longer than twice the timeout, is a stale or broken
+    /// echo (for example one of a beacon sent before this node rebooted) and is ignored.
+    ///
+    /// With `timing: None` this is exactly `observe`.
+    ///
+    /// # Errors
+    /// As [`observe`](Node::observe); a refused observation changes nothing, delay
+    /// estimate included.
+    pub fn observe_timed(
+        &mut self,
+        obs: Observation,
+        timing: Option<Timing>,
+    ) -> Result<(), ObserveError> {
         let age = self.now.wrapping_sub(obs.rx_ticks) as i32;
         // The timeout is at most i32::MAX (checked when the configuration was built).
         if age < 0 && age.unsigned_abs() > self.config.timeout_ticks() {
             return Err(ObserveError::FromTheFuture(obs));
         }
-        let span = i64::from(obs.delay_ticks).wrapping_add(i64::from(age));
-        let neighbour = (u64::from(obs.phase.counts()) << 32)
-            .wrapping_add((span as u64).wrapping_mul(self.rate()));
-        // Round to the nearest count.
-        let diff = (neighbour.wrapping_sub(self.acc).wrapping_add(1 << 31) >> 32) as u32;
-        let entry = Entry {
-            id: obs.from,
-            anchored_diff: diff.wrapping_add(self.corrections),
-            heard: obs.rx_ticks,
+        let sample = match timing {
+            Some(Timing {
+                trim_ppb,
+                echo: Some(echo),
+                ..
+            }) => self.delay_sample(&obs, trim_ppb, echo),
+            _ => None,
         };
-        if let Some(held) = self.table.iter_mut().find(|e| e.id == obs.from) {
-            if (entry.heard.wrapping_sub(held.heard) as i32) >= 0 {
-                *held = entry;
+        let index = match self.table.iter().position(|e| e.id == obs.from) {
+            Some(i) => i,
+            None => {
+                let fresh = Entry {
+                    id: obs.from,
+                    anchored_diff: 0,
+                    heard: obs.rx_ticks,
+                    their_tx: 0,
+                    timed: false,
+                    samples: 0,
+                    delay_q16: 0,
+                };
+                if self.table.push(fresh).is_err() {
+                    return Err(ObserveError::TableFull(obs));
+                }
+                self.table.len().wrapping_sub(1)
             }
+        };
+        let rate = self.rate();
+        let acc = self.acc;
+        let corrections = self.corrections;
+        let smoothing = self.config.delay_smoothing();
+        let Some(entry) = self.table.get_mut(index) else {
+            return Ok(());
+        };
+        // A fresh entry was stamped with this reception; a held one is replaced only by
+        // a reception at least as new (the held one is otherwise the fresher estimate).
+        let newer = (obs.rx_ticks.wrapping_sub(entry.heard) as i32) >= 0;
+        if let Some(s) = sample {
+            entry.delay_q16 = if entry.samples == 0 {
+                s
+            } else {
+                let step = s.wrapping_sub(entry.delay_q16);
+                let half = if smoothing == 0 {
+                    0
+                } else {
+                    1i64 << (smoothing - 1)
+                };
+                entry
+                    .delay_q16
+                    .wrapping_add((step.wrapping_add(half)) >> smoothing)
+            };
+            entry.samples = entry.samples.saturating_add(1);
+        }
+        if !newer {
             return Ok(());
         }
-        self.table
-            .push(entry)
-            .map_err(|_| ObserveError::TableFull(obs))
+        let ticks = i64::from(obs.delay_ticks).wrapping_add(i64::from(age));
+        let (whole, frac) = if entry.samples == 0 {
+            (ticks, 0)
+        } else {
+            (
+                ticks.wrapping_add(entry.delay_q16 >> DELAY_FRAC),
+                (entry.delay_q16 & ((1 << DELAY_FRAC) - 1)) as u64,
+            )
+        };
+        // The fractional tick at the rate less its low 16 bits: off by under 2^-32 count.
+        let span_phase = (whole as u64)
+            .wrapping_mul(rate)
+            .wrapping_add((rate >> DELAY_FRAC).wrapping_mul(frac));
+        let neighbour = (u64::from(obs.phase.counts()) << 32).wrapping_add(span_phase);
+        // Round to the nearest count.
+        let diff = (neighbour.wrapping_sub(acc).wrapping_add(1 << 31) >> 32) as u32;
+        entry.anchored_diff = diff.wrapping_add(corrections);
+        entry.heard = obs.rx_ticks;
+        match timing {
+            Some(t) => {
+                entry.their_tx = t.tx_ticks;
+                entry.timed = true;
+            }
+            None => entry.timed = false,
+        }
+        Ok(())
+    }
+
+    /// One delay sample from an echo, this node's ticks in Q.16 beyond `delay_ticks`, or
+    /// `None` for an implausible round trip.
+    fn delay_sample(&self, obs: &Observation, their_trim_ppb: i32, echo: Echo) -> Option<i64> {
+        let round = obs.rx_ticks.wrapping_sub(echo.tx_ticks) as i32;
+        let timeout = i64::from(self.config.timeout_ticks());
+        if round < 0 || echo.held_ticks > i32::MAX as u32 {
+            return None;
+        }
+        // Held ticks of the sender's timer in this node's: at lock both trimmed clocks
+        // run at the network's rate, so ticks scale by (nominal + their trim) / (nominal
+        // + our trim). i128: held < 2^31, shifted 16, times a rate < 2^64.
+        let nominal = i128::from(self.config.rate_nominal());
+        let theirs = nominal + nominal * i128::from(their_trim_ppb) / 1_000_000_000;
+        let ours = nominal + i128::from(self.trim);
+        let held_q16 = match (i128::from(echo.held_ticks) << DELAY_FRAC)
+            .wrapping_mul(theirs)
+            .checked_div(ours)
+        {
+            Some(h) => h as i64,
+            None => return None,
+        };
+        let round_q16 = (i64::from(round) << DELAY_FRAC).wrapping_sub(held_q16);
+        if round_q16 < -(1 << DELAY_FRAC) || round_q16 > (2 * timeout) << DELAY_FRAC {
+            return None;
+        }
+        let one_way = round_q16 / 2;
+        Some(one_way.wrapping_sub(i64::from(obs.delay_ticks) << DELAY_FRAC))
+    }
+
+    /// The echo this node's next beacon, sent at `tx_ticks`, carries for neighbour `id`:
+    /// that neighbour's own send stamp of the last beacon heard from it, and the ticks
+    /// held since. `None` if the neighbour is not in the table, its last beacon carried
+    /// no timing, or `tx_ticks` is before that reception.
+    #[must_use]
+    pub fn echo_for(&self, id: NodeId, tx_ticks: u32) -> Option<Echo> {
+        let e = self.table.iter().find(|e| e.id == id && e.timed)?;
+        let held = tx_ticks.wrapping_sub(e.heard);
+        (held as i32 >= 0).then_some(Echo {
+            tx_ticks: e.their_tx,
+            held_ticks: held,
+        })
+    }
+
+    /// The neighbours in the table as the node sees them now.
+    pub fn links(&self) -> impl Iterator<Item = LinkView> + '_ {
+        let corrections = self.corrections;
+        self.table.iter().map(move |e| LinkView {
+            id: e.id,
+            diff: e.anchored_diff.wrapping_sub(corrections) as i32,
+            heard_ticks: e.heard,
+            measured_delay_ticks: (e.samples > 0)
+                .then_some((e.delay_q16.wrapping_add(1 << (DELAY_FRAC - 1)) >> DELAY_FRAC) as i32),
+        })
     }
 
     /// Drop a neighbour from the table; true if it was there.
@@ -394,8 +610,14 @@ impl<const N: usize> Node<N> {
         self.apply_step(report.correction);
         if !report.slew_limited {
             let delta = mul_q16_sym(sum, self.config.ki_tick());
+            let leak = mul_q16_sym(self.trim, i64::from(self.config.leak().q16()));
             let limit = self.config.trim_limit_raw();
-            self.trim_next = self.trim.saturating_add(delta).max(-limit).min(limit);
+            self.trim_next = self
+                .trim
+                .saturating_sub(leak)
+                .saturating_add(delta)
+                .max(-limit)
+                .min(limit);
         }
         report
     }
@@ -438,7 +660,7 @@ const fn clamp_i128(x: i128, limit: i64) -> i64 {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::Gain;
+    use crate::{ConfigError, Gain};
 
     fn config(law: Law, kp: u32, ki: u32) -> Config {
         Config::builder(1_000_000, 100_000)
@@ -606,6 +828,129 @@ mod tests {
         assert_eq!(n.cycles(), u32::MAX); // stepped back across zero
         n.advance_to(10);
         assert_eq!(n.cycles(), 0);
+    }
+
+    /// Two nodes in perfect step on ideal timers, over a link 700 ticks late one way and
+    /// 300 the other, told nothing: after one exchange of echoes each measures the mean
+    /// delay, 500 ticks, and sees the other off by half the asymmetry, 200 ticks of phase
+    /// (two-way time transfer: Mills, RFC 5905 §8).
+    #[test]
+    fn two_way_timing_measures_the_mean_delay() {
+        let c = config(Law::Linear, 16_384, 0);
+        let rate = c.rate_nominal();
+        let phase_at = |t: u64| Phase::from_counts(((t * rate) >> 32) as u32);
+        let mut a: Node<1> = Node::new(c, Phase::ZERO, 0);
+        let mut b: Node<1> = Node::new(c, Phase::ZERO, 0);
+        let (ab, ba) = (700u32, 300u32);
+        // a sends at 10_000; b hears it at 10_700 and sends at 20_000 with an echo; a hears
+        // that at 20_300 and sends at 30_000 with its echo; b hears it at 30_700.
+        let send = |n: &Node<1>, to: NodeId, t: u32| Timing {
+            tx_ticks: t,
+            trim_ppb: n.trim_ppb(),
+            echo: n.echo_for(to, t),
+        };
+        a.advance_to(10_000);
+        let ta = send(&a, 2, 10_000);
+        assert_eq!(ta.echo, None);
+        b.advance_to(10_000 + ab);
+        let obs = |from, t: u32, late: u32| Observation {
+            from,
+            phase: phase_at(u64::from(t)),
+            rx_ticks: t + late,
+            delay_ticks: 0,
+        };
+        b.observe_timed(obs(1, 10_000, ab), Some(ta)).unwrap();
+        b.advance_to(20_000);
+        let tb = send(&b, 1, 20_000);
+        assert_eq!(
+            tb.echo,
+            Some(Echo {
+                tx_ticks: 10_000,
+                held_ticks: 10_000 - ab
+            })
+        );
+        a.advance_to(20_000 + ba);
+        a.observe_timed(obs(2, 20_000, ba), Some(tb)).unwrap();
+        let seen = a.links().next().unwrap();
+        assert_eq!(seen.measured_delay_ticks, Some(500));
+        // b is seen 500 − 300 = 200 ticks ahead: half the asymmetry.
+        let want = (200 * rate) >> 32;
+        assert!((i64::from(seen.diff) - want as i64).abs() <= 1, "{seen:?}");
+        a.advance_to(30_000);
+        let ta = send(&a, 2, 30_000);
+        b.advance_to(30_000 + ab);
+        b.observe_timed(obs(1, 30_000, ab), Some(ta)).unwrap();
+        let seen = b.links().next().unwrap();
+        assert_eq!(seen.measured_delay_ticks, Some(500));
+        assert!((i64::from(seen.diff) + want as i64).abs() <= 1, "{seen:?}");
+    }
+
+    #[test]
+    fn implausible_echoes_are_ignored() {
+        let c = config(Law::Linear, 16_384, 0);
+        let mut a: Node<1> = Node::new(c, Phase::ZERO, 0);
+        a.advance_to(1_000);
+        // An echo of a send "after" the reception, and one held longer than the trip.
+        for echo in [
+            Echo {
+                tx_ticks: 2_000,
+                held_ticks: 0,
+            },
+            Echo {
+                tx_ticks: 500,
+                held_ticks: 600,
+            },
+            Echo {
+                tx_ticks: 0,
+                held_ticks: u32::MAX,
+            },
+        ] {
+            let t = Timing {
+                tx_ticks: 0,
+                trim_ppb: 0,
+                echo: Some(echo),
+            };
+            a.observe_timed(obs(2, 0, 1_000), Some(t)).unwrap();
+            assert_eq!(a.links().next().unwrap().measured_delay_ticks, None);
+        }
+    }
+
+    #[test]
+    fn leak_pulls_the_trim_toward_zero() {
+        let c = Config::builder(1_000_000, 100_000)
+            .law(Law::Linear)
+            .kp(Gain::from_q16(16_384))
+            .ki(Gain::from_q16(2_048))
+            .leak(Gain::from_q16(64))
+            .build()
+            .unwrap();
+        let mut n: Node<1> = Node::new(c, Phase::ZERO, 0);
+        n.set_trim_ppb(50_000);
+        // A neighbour exactly in step: only the leak moves the trim, by 64/65536 each
+        // update (the new trim takes effect one update later).
+        let mut t = 0u32;
+        for _ in 0..101 {
+            n.advance_to(t);
+            n.observe(obs(1, n.phase().counts(), t)).unwrap();
+            n.update(t);
+            t += 100_000;
+        }
+        // The in-step neighbour is seen up to one count behind (the node's phase has a
+        // fraction below a count), which the integral turns into about 0.07 ppb per
+        // update: 7 ppb at most over the run.
+        let want = 50_000.0 * (1.0 - 64.0 / 65_536.0f64).powi(100);
+        assert!(
+            (f64::from(n.trim_ppb()) - want).abs() < 8.0,
+            "{} vs {want}",
+            n.trim_ppb()
+        );
+        assert_eq!(
+            Config::builder(1_000_000, 100_000)
+                .ki(Gain::from_q16(64))
+                .leak(Gain::from_q16(64))
+                .build(),
+            Err(ConfigError::LeakNotBelowIntegral)
+        );
     }
 
     #[test]

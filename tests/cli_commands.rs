@@ -156,6 +156,7 @@ fn check_footbridge_matches_the_planner_and_the_simulator() {
         latency_ticks: 400,
         timestamp_jitter_ticks: 1,
         success_prob: 0.98,
+        ..sim::Beacons::IDEAL
     };
     s.start = sim::StartPhases::Uniform { spread_turns: 0.4 };
     s.settle = sim::SettleCriterion {

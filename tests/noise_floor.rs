@@ -129,6 +129,7 @@ fn setup(case: &Case) -> Setup {
         latency_ticks: 0,
         timestamp_jitter_ticks: case.jitter_ticks,
         success_prob: 1.0,
+        ..Beacons::IDEAL
     };
     // The band is far above the floor, so every run settles early and the steady window
     // is long.

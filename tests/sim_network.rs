@@ -31,6 +31,7 @@ fn messy_ring() -> Setup {
         latency_ticks: 300,
         timestamp_jitter_ticks: 5,
         success_prob: 0.9,
+        ..Beacons::IDEAL
     };
     s.start = StartPhases::Uniform { spread_turns: 0.3 };
     s.reboots = vec![Reboot {
@@ -87,6 +88,7 @@ fn lock_step_shortcut_is_bit_identical_to_the_event_queue() {
         latency_ticks: 2_500,
         timestamp_jitter_ticks: 0,
         success_prob: 0.7,
+        ..Beacons::IDEAL
     };
     s.start = StartPhases::Uniform { spread_turns: 0.4 };
     s.settle = SettleCriterion {

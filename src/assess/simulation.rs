@@ -65,6 +65,7 @@ pub fn setup(
         latency_ticks: (scenario.latency_s * timer_hz).round() as u32,
         timestamp_jitter_ticks: (scenario.timestamp_jitter_s * timer_hz).round() as u32,
         success_prob: 1.0 - scenario.loss_fraction,
+        ..sim::Beacons::IDEAL
     };
     s.start = sim::StartPhases::Uniform {
         spread_turns: scenario.initial_spread_s / scenario.phase_period_s,

@@ -61,6 +61,6 @@ pub use settle::{
 };
 pub use setup::{
     Beacons, Crystals, Links, MAX_DEGREE, MAX_SIM_NODES, Reboot, Schedule, SettleCriterion, Setup,
-    StartPhases,
+    Stamping, StartPhases,
 };
 pub use trace::Trace;

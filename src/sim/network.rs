@@ -36,9 +36,9 @@ use super::outcome::{RunOutcome, RunStats};
 use super::settle::{
     SettleTracker, TURN, largest_neighbour_diff, largest_pairwise_diff, winding_number,
 };
-use super::setup::{Crystals, Setup, StartPhases};
+use super::setup::{Crystals, Setup, Stamping, StartPhases};
 use super::trace::Trace;
-use crate::{Config, Node, NodeId, Observation, ObserveError, Phase, UpdateReport};
+use crate::{Config, Node, NodeId, Observation, ObserveError, Phase, Timing, UpdateReport};
 
 /// Sub-ticks per nominal tick.
 const SUB: u64 = 1 << 16;
@@ -52,6 +52,10 @@ struct Beacon {
     arrive: u64,
     /// The receiver's reception timestamp (its own timer, with timestamp jitter).
     rx_ticks: u32,
+    /// The link delay the receiver is told, its ticks.
+    delay_ticks: u32,
+    /// Two-way timing (version-2 beacons).
+    timing: Option<Timing>,
 }
 
 /// One node's timer: real time ↔ local ticks.
@@ -91,6 +95,14 @@ impl Timer {
         self.l0 + ((span * u128::from(self.fwd) + (1 << 47)) >> 48) as u64
     }
 
+    /// The reception timestamp of real time `t` under `stamping`.
+    fn stamp_at(&self, t: u64, stamping: Stamping) -> u64 {
+        match stamping {
+            Stamping::Nearest => self.nearest_at(t),
+            Stamping::CompletedTicks => self.local_at(t),
+        }
+    }
+
     /// Real time, sub-ticks, at which the timer reads `local`.
     fn real_at(&self, local: u64) -> u64 {
         let span = u128::from(local.saturating_sub(self.l0));
@@ -109,6 +121,8 @@ struct Station<const N: usize> {
     alive: bool,
     /// A pinned chain's reference: beacons, never takes observations or updates.
     reference: bool,
+    /// Which neighbour (index into its target list) the next beacon echoes.
+    echo_next: usize,
 }
 
 /// A reboot as two timed events.
@@ -138,9 +152,15 @@ pub struct Network<const N: usize> {
     rng: ChaCha8Rng,
     update_ticks: u64,
     jitter_ticks: u32,
-    latency_sub: u64,
+    /// Per sender slot (as `targets`): the link's latency in that direction, sub-ticks.
+    latency_sub: Vec<u64>,
+    /// Per sender slot: the delay the receiver is told, its ticks.
+    told_ticks: Vec<u32>,
+    /// Uniform latency in lock-step (whole ticks).
     latency_ticks: u32,
     ts_jitter: u32,
+    stamping: Stamping,
+    two_way: bool,
     success_prob: f64,
     /// Index of the next sample.
     sample: u64,
@@ -237,6 +257,7 @@ impl<const N: usize> Network<N> {
                 ppm: e,
                 alive: true,
                 reference: reference == Some(i),
+                echo_next: 0,
             });
         }
         let mut queue: Vec<(u64, u16)> = stations
@@ -268,11 +289,17 @@ impl<const N: usize> Network<N> {
         let (row_start, targets) = scenario.links.adjacency();
         let reverse = reverse_slots(&row_start, &targets);
         let b = &scenario.beacons;
+        let (latency_sub, told_ticks) =
+            link_latencies(&row_start, &targets, &reverse, b, &ppm, &mut rng);
         let lock_step = !scenario.schedule.random_start
             && scenario.schedule.jitter_ticks == 0
             && ppm.iter().all(|&e| e == 0.0)
             && b.timestamp_jitter_ticks == 0
             && u64::from(b.latency_ticks) < update_ticks
+            && b.uniform_latency()
+            && b.latency_known
+            && !b.two_way
+            && b.stamping == Stamping::Nearest
             && scenario.reboots.is_empty();
         let slots = targets.len();
         Ok(Network {
@@ -289,9 +316,12 @@ impl<const N: usize> Network<N> {
             rng,
             update_ticks,
             jitter_ticks: scenario.schedule.jitter_ticks,
-            latency_sub: u64::from(scenario.beacons.latency_ticks) * SUB,
+            latency_sub,
+            told_ticks,
             latency_ticks: scenario.beacons.latency_ticks,
             ts_jitter: scenario.beacons.timestamp_jitter_ticks,
+            stamping: b.stamping,
+            two_way: b.two_way,
             success_prob: scenario.beacons.success_prob,
             sample: 0,
             tracker: SettleTracker::new(&scenario.settle, n, scenario.horizon_updates),
@@ -465,7 +495,6 @@ impl<const N: usize> Network<N> {
         let local = st.next_local as u32;
         st.node.advance_to(local);
         let node = &mut st.node;
-        let delay = self.latency_ticks;
         let mut full = 0u64;
         if st.reference {
             inbox.clear();
@@ -476,13 +505,13 @@ impl<const N: usize> Network<N> {
                     from: b.from,
                     phase: b.phase,
                     rx_ticks: b.rx_ticks,
-                    delay_ticks: delay,
+                    delay_ticks: b.delay_ticks,
                 };
                 // A reception more than the timeout after the node's last update
                 // (only with a timeout shorter than the update interval) is refused
                 // as from the future; the node's next update would have emptied its
                 // table anyway. Only a full table is counted.
-                if let Err(ObserveError::TableFull(_)) = node.observe(obs) {
+                if let Err(ObserveError::TableFull(_)) = node.observe_timed(obs, b.timing) {
                     full += 1;
                 }
                 false
@@ -512,34 +541,60 @@ impl<const N: usize> Network<N> {
             .saturating_add_signed(self.update_ticks as i64 + jitter);
         let next = st.timer.real_at(st.next_local);
         insert_sorted(&mut self.queue, next, i as u16);
-        // Beacons.
+        // Beacons: one frame, heard by every neighbour; with two-way timing it echoes
+        // one neighbour, in turn.
         let from = i as NodeId;
-        let arrive = t + self.latency_sub;
         let (lo, hi) = (self.row_start[i], self.row_start[i + 1]);
-        for &j in &self.targets[lo..hi] {
-            let j = usize::from(j);
+        let timing = self.two_way.then(|| {
+            let degree = hi - lo;
+            let echo = (degree > 0)
+                .then(|| {
+                    let k = st.echo_next % degree;
+                    st.echo_next = (k + 1) % degree;
+                    let target = self.targets[lo + k];
+                    st.node.echo_for(target, local).map(|echo| (target, echo))
+                })
+                .flatten();
+            (
+                Timing {
+                    tx_ticks: local,
+                    trim_ppb: st.node.trim_ppb(),
+                    echo: None,
+                },
+                echo,
+            )
+        });
+        for s in lo..hi {
+            let j = usize::from(self.targets[s]);
             let Some(rx) = self.stations.get(j) else {
                 continue;
             };
             if !rx.alive {
                 continue;
             }
+            let arrive = t + self.latency_sub[s];
             self.stats.beacons_sent += 1;
             if self.success_prob < 1.0 && self.rng.random::<f64>() >= self.success_prob {
                 self.stats.beacons_lost += 1;
                 continue;
             }
-            let mut rx_ticks = rx.timer.nearest_at(arrive) as u32;
+            let mut rx_ticks = rx.timer.stamp_at(arrive, self.stamping) as u32;
             if self.ts_jitter > 0 {
                 let j = self.ts_jitter as i32;
                 rx_ticks = rx_ticks.wrapping_add_signed(self.rng.random_range(-j..=j));
             }
+            let timing = timing.map(|(mut t, echo)| {
+                t.echo = echo.and_then(|(target, e)| (usize::from(target) == j).then_some(e));
+                t
+            });
             if let Some(b) = self.inbox.get_mut(j) {
                 b.push(Beacon {
                     from,
                     phase,
                     arrive,
                     rx_ticks,
+                    delay_ticks: self.told_ticks[s],
+                    timing,
                 });
             }
         }
@@ -688,6 +743,62 @@ fn largest_neighbour_diff_live(
         })
         .max()
         .unwrap_or(0)
+}
+
+/// Each link's latency per direction (sub-ticks, per sender slot) and the delay its
+/// receiver is told (its own ticks): drawn once per run (see [`Beacons`](super::Beacons)).
+fn link_latencies(
+    row_start: &[usize],
+    targets: &[u16],
+    reverse: &[usize],
+    b: &super::setup::Beacons,
+    ppm: &[f64],
+    rng: &mut ChaCha8Rng,
+) -> (Vec<u64>, Vec<u32>) {
+    let slots = targets.len();
+    let base = u64::from(b.latency_ticks) * SUB;
+    let mut latency = vec![base; slots];
+    let mut told = vec![if b.latency_known { b.latency_ticks } else { 0 }; slots];
+    if b.uniform_latency() {
+        // Told in nominal ticks: a crystal error leaves a small residue.
+        return (latency, told);
+    }
+    let spread = u64::from(b.latency_spread_ticks) * SUB;
+    let asym = i64::from(b.asymmetry_ticks) * SUB as i64;
+    for (i, w) in row_start.windows(2).enumerate() {
+        for s in w[0]..w[1] {
+            let j = usize::from(targets[s]);
+            if j < i {
+                continue; // drawn with the other direction
+            }
+            let mean = base
+                + if spread > 0 {
+                    rng.random_range(0..=spread)
+                } else {
+                    0
+                };
+            let d = if asym > 0 {
+                rng.random_range(-asym..=asym)
+            } else {
+                0
+            };
+            let there = (mean as i64 + d / 2).max(0) as u64;
+            let back = (mean as i64 - (d - d / 2)).max(0) as u64;
+            let r = reverse[s];
+            latency[s] = there;
+            latency[r] = back;
+            if b.latency_known {
+                // The mean latency in each receiver's own ticks, to the nearest tick.
+                let ticks = |rx: usize| {
+                    let e = ppm.get(rx).copied().unwrap_or(0.0);
+                    (mean as f64 / SUB as f64 * (1.0 + e * 1e-6)).round() as u32
+                };
+                told[s] = ticks(j);
+                told[r] = ticks(i);
+            }
+        }
+    }
+    (latency, told)
 }
 
 /// For each receiver slot (node i's neighbour j, in `targets`), the slot of i in j's

@@ -229,13 +229,42 @@ impl Schedule {
     };
 }
 
+/// How a receiver's timer stamps a beacon's arrival.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
+pub enum Stamping {
+    /// The count of completed ticks at the arrival instant, as a hardware timer's
+    /// capture register reads: on average half a tick early.
+    #[default]
+    CompletedTicks,
+    /// The nearest tick: unbiased (an idealised timer).
+    Nearest,
+}
+
 /// The beacon path between neighbours. Each node beacons its phase right after each of
 /// its updates.
+///
+/// Each link's latency is drawn once per run, uniformly from
+/// `[latency_ticks, latency_ticks + latency_spread_ticks]` (in sub-tick steps); its two
+/// directions then differ by a uniform draw from `[−asymmetry_ticks, +asymmetry_ticks]`
+/// (half each way). With `latency_known` the receiver is told the link's drawn latency
+/// (the mean of its two directions, in whole ticks of its own timer, as firmware
+/// configured per link would be); without, it is told nothing and relies on two-way
+/// timing.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Beacons {
-    /// Nominal latency from send to reception, nominal ticks; the receiver knows it and
-    /// compensates it (in its own ticks, so a crystal error leaves a small residue).
+    /// Shortest link latency from send to reception, nominal ticks.
     pub latency_ticks: u32,
+    /// Width of the per-link latency draw, nominal ticks (0: every link `latency_ticks`).
+    pub latency_spread_ticks: u32,
+    /// Largest difference between a link's two directions, nominal ticks.
+    pub asymmetry_ticks: u32,
+    /// Whether the receiver is told each link's latency.
+    pub latency_known: bool,
+    /// Whether beacons carry two-way timing (version-2 frames) and nodes measure each
+    /// link's delay from it; false models version-1 frames.
+    pub two_way: bool,
+    /// How receptions are stamped.
+    pub stamping: Stamping,
     /// The receiver's reception timestamp is off by a uniform draw from
     /// `[−timestamp_jitter_ticks, +timestamp_jitter_ticks]` ticks, unknown to it.
     pub timestamp_jitter_ticks: u32,
@@ -245,12 +274,23 @@ pub struct Beacons {
 }
 
 impl Beacons {
-    /// Instant, exact, lossless beacons.
+    /// Instant, exact, lossless beacons stamped to the nearest tick, version 1.
     pub const IDEAL: Beacons = Beacons {
         latency_ticks: 0,
+        latency_spread_ticks: 0,
+        asymmetry_ticks: 0,
+        latency_known: true,
+        two_way: false,
+        stamping: Stamping::Nearest,
         timestamp_jitter_ticks: 0,
         success_prob: 1.0,
     };
+
+    /// Whether every link has the same latency both ways.
+    #[must_use]
+    pub const fn uniform_latency(&self) -> bool {
+        self.latency_spread_ticks == 0 && self.asymmetry_ticks == 0
+    }
 }
 
 /// The nodes' phases at the start of a run, in turns.
@@ -411,6 +451,17 @@ impl Setup {
         }
         if self.beacons.latency_ticks > i32::MAX as u32 / 2 {
             return Err(invalid("latency_ticks", "at most 1073741823"));
+        }
+        let b = &self.beacons;
+        if u64::from(b.latency_ticks)
+            + u64::from(b.latency_spread_ticks)
+            + u64::from(b.asymmetry_ticks)
+            > u64::from(i32::MAX as u32 / 2)
+        {
+            return Err(invalid(
+                "latency_spread_ticks",
+                "latency, spread and asymmetry together at most 1073741823 ticks",
+            ));
         }
         match &self.start {
             StartPhases::Uniform { spread_turns }

@@ -93,6 +93,7 @@ impl Spec {
             latency_ticks: (self.latency * f64::from(M)) as u32,
             timestamp_jitter_ticks: self.jitter,
             success_prob: self.p,
+            ..Beacons::IDEAL
         };
         s.settle.tolerance_turns = self.tol;
         Case {

@@ -18,6 +18,8 @@ pub struct NodeConstants {
     pub kp_q16: u32,
     /// Integral gain, Q16.16 raw.
     pub ki_q16: u32,
+    /// Trim leak per update, Q16.16 raw (the scenario's `trim_leak`, default `ki/64`).
+    pub leak_q16: u32,
     /// Largest phase step per update, counts (2^32 = one turn).
     pub slew_limit_counts: u32,
     /// Largest rate trim either way, ppb.
@@ -43,6 +45,7 @@ impl NodeConstants {
             update_ticks: scenario.update_ticks,
             kp_q16: Gain::from_f32(kp as f32)?.q16(),
             ki_q16: Gain::from_f32(ki as f32)?.q16(),
+            leak_q16: Gain::from_f32(scenario.trim_leak(ki) as f32)?.q16(),
             slew_limit_counts,
             trim_limit_ppb,
             timeout_ticks: scenario
@@ -50,6 +53,12 @@ impl NodeConstants {
                 .saturating_mul(scenario.neighbour_timeout_updates),
             law: scenario.law,
         })
+    }
+
+    /// The trim leak as the node runs it (after rounding to Q16.16).
+    #[must_use]
+    pub fn leak(&self) -> f64 {
+        Gain::from_q16(self.leak_q16).to_f64()
     }
 
     /// The gains as the node runs them (after rounding to Q16.16).
@@ -75,6 +84,7 @@ impl NodeConstants {
         Config::builder(self.ticks_per_period, self.update_ticks)
             .kp(Gain::from_q16(self.kp_q16))
             .ki(Gain::from_q16(self.ki_q16))
+            .leak(Gain::from_q16(self.leak_q16))
             .law(self.law)
             .slew_limit(self.slew_limit_counts)
             .trim_limit_ppb(self.trim_limit_ppb)

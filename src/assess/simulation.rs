@@ -61,11 +61,16 @@ pub fn setup(
         random_start: true,
         jitter_ticks: 0,
     };
+    let lo = (scenario.latency_s * timer_hz).round();
     s.beacons = sim::Beacons {
-        latency_ticks: (scenario.latency_s * timer_hz).round() as u32,
+        latency_ticks: lo as u32,
+        latency_spread_ticks: ((scenario.latency_max_s * timer_hz).round() - lo).max(0.0) as u32,
+        asymmetry_ticks: (scenario.asymmetry_s * timer_hz).round() as u32,
+        latency_known: scenario.latency_known,
+        two_way: scenario.beacon_version >= 2,
+        stamping: scenario.stamping,
         timestamp_jitter_ticks: (scenario.timestamp_jitter_s * timer_hz).round() as u32,
         success_prob: 1.0 - scenario.loss_fraction,
-        ..sim::Beacons::IDEAL
     };
     s.start = sim::StartPhases::Uniform {
         spread_turns: scenario.initial_spread_s / scenario.phase_period_s,

@@ -32,7 +32,9 @@ impl<const N: usize> Firmware<N> {
 
     /// Read the `pub const` lines of a constants file written by `entrain tune --out`
     /// (`TICKS_PER_PERIOD`, `UPDATE_TICKS`, `KP_Q16`, `KI_Q16`, `SLEW_LIMIT_COUNTS`,
-    /// `TRIM_LIMIT_PPB`, `TIMEOUT_TICKS`, `LAW`) for a `timer_hz` timer.
+    /// `TRIM_LIMIT_PPB`, `TIMEOUT_TICKS`, `LAW`, and `LEAK_Q16` when present: files
+    /// written before the leak existed have none, and run without one) for a `timer_hz`
+    /// timer.
     ///
     /// # Errors
     /// [`PropsError::Constants`] for a missing or malformed constant, or values the node
@@ -67,6 +69,11 @@ impl<const N: usize> Firmware<N> {
         let config = Config::builder(number("TICKS_PER_PERIOD")?, number("UPDATE_TICKS")?)
             .kp(Gain::from_q16(number("KP_Q16")?))
             .ki(Gain::from_q16(number("KI_Q16")?))
+            .leak(Gain::from_q16(if find("LEAK_Q16", "u32").is_ok() {
+                number("LEAK_Q16")?
+            } else {
+                0
+            }))
             .law(law)
             .slew_limit(number("SLEW_LIMIT_COUNTS")?)
             .trim_limit_ppb(number("TRIM_LIMIT_PPB")?)
@@ -117,6 +124,7 @@ impl<const N: usize> Firmware<N> {
         s.slew_limit_turns = f64::from(c.slew_limit()) / TURN;
         s.trim_limit_ppm = f64::from(c.trim_limit_ppb()) / 1_000.0;
         s.neighbour_timeout_updates = c.timeout_ticks() / c.update_ticks();
+        s.trim_leak = Some(c.leak().to_f64());
         // The file reader is the one judge of a valid scenario, and its rounding must land
         // on these constants again.
         let again = Scenario::from_toml(&s.path, &s.to_toml()).map_err(PropsError::Scenario)?;

@@ -44,6 +44,10 @@ pub const MAX_SIM_UPDATES: f64 = 1.0e6;
 /// Longest link latency, in whole update intervals, the planner handles.
 pub const MAX_LATENCY_UPDATES: f64 = 30.0;
 
+/// The default trim leak is the integral gain divided by this (see
+/// [`Scenario::trim_leak`]).
+pub const DEFAULT_LEAK_DIVISOR: f64 = 64.0;
+
 /// A scenario that could not be read: where and why.
 #[derive(Clone, Debug, PartialEq, Eq)]
 pub struct ScenarioError {
@@ -228,6 +232,7 @@ struct RawLaw {
     slew_limit_turns: Option<S<Real>>,
     trim_limit_ppm: Option<S<Real>>,
     neighbour_timeout_updates: Option<S<i64>>,
+    trim_leak: Option<S<Real>>,
 }
 
 #[derive(Deserialize)]
@@ -236,12 +241,17 @@ struct RawClock {
     crystal_tolerance_ppm: Option<S<Real>>,
     crystal_ppm: Option<S<Vec<Real>>>,
     timestamp_jitter_s: Option<S<Real>>,
+    stamping: Option<S<String>>,
 }
 
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
 struct RawLink {
     latency_s: Option<S<Real>>,
+    latency_range_s: Option<S<(Real, Real)>>,
+    asymmetry_s: Option<S<Real>>,
+    latency_known: Option<S<bool>>,
+    beacon_version: Option<S<i64>>,
     loss_fraction: Option<S<Real>>,
 }
 
@@ -513,8 +523,29 @@ pub struct Scenario {
     pub crystal_tolerance_ppm: f64,
     /// Standard deviation of one timestamp, seconds.
     pub timestamp_jitter_s: f64,
-    /// Link latency from send to receive, seconds.
+    /// Link latency from send to receive, seconds: the shortest link's (`[link]
+    /// latency_s`, or the low end of `latency_range_s`).
     pub latency_s: f64,
+    /// The longest link's latency, seconds (`latency_s` unless `[link] latency_range_s`
+    /// gives a range: each link's latency is then drawn once per run in
+    /// `[latency_s, latency_max_s]`).
+    pub latency_max_s: f64,
+    /// Largest difference between a link's two directions, seconds (`[link]
+    /// asymmetry_s`; drawn per link). Two-way timing cannot see it: a node sees its
+    /// neighbour off by half of it.
+    pub asymmetry_s: f64,
+    /// Whether the firmware is told each link's latency (`[link] latency_known`,
+    /// default true); false: it is told nothing and measures it by two-way timing.
+    pub latency_known: bool,
+    /// Beacon frame version the nodes send (`[link] beacon_version`, default 2): 2
+    /// carries two-way timing, 1 does not.
+    pub beacon_version: u8,
+    /// How the nodes' timers stamp receptions (`[clock] stamping`, default completed
+    /// ticks, as hardware capture registers do).
+    pub stamping: crate::sim::Stamping,
+    /// Trim leak per update as written (`[law] trim_leak`); `None`: the default,
+    /// `ki/64` (see [`Scenario::trim_leak`]).
+    pub trim_leak: Option<f64>,
     /// Fraction of beacons lost, `0 ≤ loss < 1`.
     pub loss_fraction: f64,
     /// Largest pairwise phase difference at power-up, seconds.
@@ -615,12 +646,22 @@ impl Scenario {
         1.0 / self.update_rate_hz
     }
 
-    /// The link latency in whole update intervals (the age of a neighbour's value when it
-    /// is used, beyond the update it was sent in).
+    /// The longest link latency in whole update intervals (the age of a neighbour's
+    /// value when it is used, beyond the update it was sent in).
     #[must_use]
     pub fn delay_updates(&self) -> u32 {
         // Bounded by MAX_LATENCY_UPDATES at validation.
-        (self.latency_s * self.update_rate_hz).floor() as u32
+        (self.latency_max_s * self.update_rate_hz).floor() as u32
+    }
+
+    /// The trim leak per update the nodes run with integral gain `ki`: `[law]
+    /// trim_leak` if written, else `ki/64` (zero for the P law). At `ki/64` the trims
+    /// carry `1/(1 + kp/64)` of each crystal's offset from the network mean (99.5 % at
+    /// kp = 0.3) and the network's common rate returns to the crystals' mean with a
+    /// time constant of `64/ki` updates (docs/design.md, "Two-way timing and the leak").
+    #[must_use]
+    pub fn trim_leak(&self, ki: f64) -> f64 {
+        self.trim_leak.unwrap_or(ki / DEFAULT_LEAK_DIVISOR)
     }
 }
 
@@ -809,7 +850,38 @@ fn check(loc: &Locator<'_>, raw: RawScenario) -> Result<Scenario, ScenarioError>
         ));
     }
 
+    let trim_leak = match &law.trim_leak {
+        Some(v) => Some(real_in(
+            loc,
+            v,
+            "law.trim_leak",
+            |v| (0.0..0.1).contains(&v),
+            "from 0 to below 0.1 per update (and below ki)",
+        )?),
+        None => None,
+    };
+
     // Clock.
+    let stamping = match raw
+        .clock
+        .as_ref()
+        .and_then(|c| c.get_ref().stamping.as_ref())
+    {
+        Some(v) => match v.get_ref().as_str() {
+            "completed_ticks" => crate::sim::Stamping::CompletedTicks,
+            "nearest" => crate::sim::Stamping::Nearest,
+            other => {
+                return Err(refuse(
+                    loc,
+                    v.span(),
+                    format!(
+                        "clock.stamping = \"{other}\" is not known: it must be \"completed_ticks\" (a timer's capture register) or \"nearest\""
+                    ),
+                ));
+            }
+        },
+        None => crate::sim::Stamping::CompletedTicks,
+    };
     let (crystal_tolerance_ppm, crystal_ppm, timestamp_jitter_s) = match &raw.clock {
         Some(c) => {
             let c = c.get_ref();
@@ -859,23 +931,63 @@ fn check(loc: &Locator<'_>, raw: RawScenario) -> Result<Scenario, ScenarioError>
         None => (0.0, None, 0.0),
     };
     // Link.
+    let latency_ok = |v: f64| v >= 0.0 && v * update_rate_hz < MAX_LATENCY_UPDATES + 1.0;
+    let latency_valid = format!(
+        "from 0 to below {} s ({} update intervals)",
+        (MAX_LATENCY_UPDATES + 1.0) / update_rate_hz,
+        MAX_LATENCY_UPDATES + 1.0
+    );
+    let mut latency_max_s = 0.0;
+    let mut asymmetry_s = 0.0;
+    let mut latency_known = true;
+    let mut beacon_version = 2u8;
     let (latency_s, loss_fraction) = match &raw.link {
         Some(l) => {
             let l = l.get_ref();
-            let latency = match &l.latency_s {
-                Some(v) => real_in(
+            let latency = match (&l.latency_s, &l.latency_range_s) {
+                (Some(_), Some(r)) => {
+                    return Err(refuse(
+                        loc,
+                        r.span(),
+                        "link.latency_s and link.latency_range_s are both given: write one (a single latency, or a range drawn per link)".to_owned(),
+                    ));
+                }
+                (Some(v), None) => {
+                    let v = real_in(loc, v, "link.latency_s", latency_ok, &latency_valid)?;
+                    latency_max_s = v;
+                    v
+                }
+                (None, Some(r)) => {
+                    let (lo, hi) = (r.get_ref().0.0, r.get_ref().1.0);
+                    if !(latency_ok(lo) && latency_ok(hi) && lo <= hi) {
+                        return Err(refuse(
+                            loc,
+                            r.span(),
+                            format!(
+                                "link.latency_range_s = [{lo}, {hi}] is out of range: both ends {latency_valid}, low end first"
+                            ),
+                        ));
+                    }
+                    latency_max_s = hi;
+                    lo
+                }
+                (None, None) => 0.0,
+            };
+            if let Some(v) = &l.asymmetry_s {
+                asymmetry_s = real_in(
                     loc,
                     v,
-                    "link.latency_s",
-                    |v| v >= 0.0 && v * update_rate_hz < MAX_LATENCY_UPDATES + 1.0,
-                    &format!(
-                        "from 0 to below {} s ({} update intervals)",
-                        (MAX_LATENCY_UPDATES + 1.0) / update_rate_hz,
-                        MAX_LATENCY_UPDATES + 1.0
-                    ),
-                )?,
-                None => 0.0,
-            };
+                    "link.asymmetry_s",
+                    |v| v >= 0.0 && v <= 2.0 * latency.max(f64::MIN_POSITIVE),
+                    "from 0 to twice the shortest link latency (a direction cannot arrive before it is sent)",
+                )?;
+            }
+            if let Some(v) = &l.latency_known {
+                latency_known = *v.get_ref();
+            }
+            if let Some(v) = &l.beacon_version {
+                beacon_version = int_in(loc, v, "link.beacon_version", 1, 2, "")? as u8;
+            }
             let loss = match &l.loss_fraction {
                 Some(v) => real_in(
                     loc,
@@ -1010,6 +1122,12 @@ fn check(loc: &Locator<'_>, raw: RawScenario) -> Result<Scenario, ScenarioError>
         crystal_tolerance_ppm,
         timestamp_jitter_s,
         latency_s,
+        latency_max_s,
+        asymmetry_s,
+        latency_known,
+        beacon_version,
+        stamping,
+        trim_leak,
         loss_fraction,
         initial_spread_s,
         lock_tolerance_s,

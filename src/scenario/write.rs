@@ -87,6 +87,9 @@ impl Scenario {
             "neighbour_timeout_updates = {}",
             self.neighbour_timeout_updates
         );
+        if let Some(leak) = self.trim_leak {
+            let _ = writeln!(s, "trim_leak = {}", real(leak));
+        }
         let _ = writeln!(s, "\n[clock]");
         let _ = writeln!(
             s,
@@ -98,8 +101,28 @@ impl Scenario {
             let _ = writeln!(s, "crystal_ppm = [{}]", list.join(", "));
         }
         let _ = writeln!(s, "timestamp_jitter_s = {}", real(self.timestamp_jitter_s));
+        let _ = writeln!(
+            s,
+            "stamping = \"{}\"",
+            match self.stamping {
+                crate::sim::Stamping::CompletedTicks => "completed_ticks",
+                crate::sim::Stamping::Nearest => "nearest",
+            }
+        );
         let _ = writeln!(s, "\n[link]");
-        let _ = writeln!(s, "latency_s = {}", real(self.latency_s));
+        if self.latency_max_s > self.latency_s {
+            let _ = writeln!(
+                s,
+                "latency_range_s = [{}, {}]",
+                real(self.latency_s),
+                real(self.latency_max_s)
+            );
+        } else {
+            let _ = writeln!(s, "latency_s = {}", real(self.latency_s));
+        }
+        let _ = writeln!(s, "asymmetry_s = {}", real(self.asymmetry_s));
+        let _ = writeln!(s, "latency_known = {}", self.latency_known);
+        let _ = writeln!(s, "beacon_version = {}", self.beacon_version);
         let _ = writeln!(s, "loss_fraction = {}", real(self.loss_fraction));
         let _ = writeln!(s, "\n[lock]");
         let _ = writeln!(s, "initial_spread_s = {}", real(self.initial_spread_s));

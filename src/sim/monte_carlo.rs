@@ -228,6 +228,10 @@ pub struct Summary {
     pub common_rate_max_ppm: f64,
     /// Fraction of runs that ended with some node's rate trim at its limit.
     pub trim_at_limit_fraction: f64,
+    /// PI law: the median and largest over every adjusting node of every run of
+    /// |trim − ideal trim| at the run's end, ppm (see [`RunOutcome::trim_errors_ppm`]);
+    /// `None` for the P law.
+    pub trim_error_ppm: Option<Percentiles>,
     /// Every run's outcome, in run order.
     pub outcomes: Vec<RunOutcome>,
 }
@@ -255,7 +259,12 @@ impl Summary {
             .map(|o| o.common_rate_ppm.abs())
             .fold(0.0, f64::max);
         let at_limit = outcomes.iter().filter(|o| o.trims_at_limit > 0).count();
+        let mut trim_errors: Vec<f64> = outcomes
+            .iter()
+            .flat_map(|o| o.trim_errors_ppm.iter().copied())
+            .collect();
         Summary {
+            trim_error_ppm: Percentiles::of(&mut trim_errors),
             common_rate_max_ppm,
             trim_at_limit_fraction: if runs == 0 {
                 0.0

@@ -374,6 +374,16 @@ impl<const N: usize> Network<N> {
         self.stations.get(i).map(|s| s.ppm)
     }
 
+    /// The latency of the link from node `from` to node `to` in this run, nominal ticks,
+    /// or `None` if they are not linked.
+    #[must_use]
+    pub fn latency_ticks(&self, from: usize, to: usize) -> Option<f64> {
+        let (lo, hi) = (*self.row_start.get(from)?, *self.row_start.get(from + 1)?);
+        let slot =
+            (lo..hi).find(|&s| self.targets.get(s).is_some_and(|&t| usize::from(t) == to))?;
+        Some(*self.latency_sub.get(slot)? as f64 / SUB as f64)
+    }
+
     /// Counters so far.
     #[must_use]
     pub fn stats(&self) -> RunStats {
@@ -704,7 +714,24 @@ impl<const N: usize> Network<N> {
             .iter()
             .filter(|s| i64::from(s.node.trim_ppb()).abs() >= limit - 1)
             .count();
+        let target = if self.stations.iter().any(|s| s.reference) {
+            0.0
+        } else {
+            adjusting.iter().map(|s| s.ppm).sum::<f64>() / adjusting.len().max(1) as f64
+        };
+        let trim_errors_ppm = if self.config.ki().q16() == 0 {
+            Vec::new()
+        } else {
+            adjusting
+                .iter()
+                .map(|s| {
+                    let ideal = ((1.0 + target * 1e-6) / (1.0 + s.ppm * 1e-6) - 1.0) * 1e6;
+                    (f64::from(s.node.trim_ppb()) / 1000.0 - ideal).abs()
+                })
+                .collect()
+        };
         RunOutcome {
+            trim_errors_ppm,
             settle,
             first_entry_updates: first_entry,
             steady_counts: self.tracker.steady_counts().to_vec(),

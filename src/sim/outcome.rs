@@ -56,6 +56,12 @@ pub struct RunOutcome {
     pub common_rate_ppm: f64,
     /// Adjusting nodes whose rate trim ended at its limit.
     pub trims_at_limit: usize,
+    /// PI law only (empty for the P law): each adjusting node's |trim − ideal trim| at
+    /// the end, ppm, in node order, where the ideal trim brings its crystal to the
+    /// network's rate: the mean of the adjusting nodes' crystals, or a pinned chain's
+    /// reference (nominal). `(1 + ω)/(1 + e_i) − 1`, ω that rate and e_i the crystal
+    /// error.
+    pub trim_errors_ppm: Vec<f64>,
     /// Counters.
     pub stats: RunStats,
 }

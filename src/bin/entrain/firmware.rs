@@ -85,6 +85,16 @@ pub fn to_rust(constants: &NodeConstants, scenario: &Scenario) -> String {
     item(
         &mut s,
         format!(
+            "Trim leak per update, Q16.16 raw ({:.6}; holds the common rate at the crystals' mean).",
+            constants.leak()
+        ),
+        "LEAK_Q16",
+        "u32",
+        constants.leak_q16.to_string(),
+    );
+    item(
+        &mut s,
+        format!(
             "Largest phase step per update, counts ({:.6} turn).",
             constants.slew_limit_turns()
         ),
@@ -127,6 +137,7 @@ pub fn to_rust(constants: &NodeConstants, scenario: &Scenario) -> String {
     for line in [
         "    .kp(entrain::Gain::from_q16(KP_Q16))",
         "    .ki(entrain::Gain::from_q16(KI_Q16))",
+        "    .leak(entrain::Gain::from_q16(LEAK_Q16))",
         "    .law(LAW)",
         "    .slew_limit(SLEW_LIMIT_COUNTS)",
         "    .trim_limit_ppb(TRIM_LIMIT_PPB)",
@@ -192,6 +203,7 @@ budget_s = 20
         )
         .kp(Gain::from_q16(read_const(&text, "KP_Q16")))
         .ki(Gain::from_q16(read_const(&text, "KI_Q16")))
+        .leak(Gain::from_q16(read_const(&text, "LEAK_Q16")))
         .law(Law::Linear)
         .slew_limit(read_const(&text, "SLEW_LIMIT_COUNTS"))
         .trim_limit_ppb(read_const(&text, "TRIM_LIMIT_PPB"))

@@ -145,6 +145,7 @@ fn prediction_json(p: &Prediction) -> Value {
             "ki": num(p.ki()),
             "kp_q16": c.kp_q16,
             "ki_q16": c.ki_q16,
+            "leak_q16": c.leak_q16,
         },
         "node_constants": constants_json(p),
         "stability": {
@@ -197,6 +198,7 @@ fn constants_json(p: &Prediction) -> Value {
         "update_ticks": c.update_ticks,
         "kp_q16": c.kp_q16,
         "ki_q16": c.ki_q16,
+        "leak_q16": c.leak_q16,
         "slew_limit_counts": c.slew_limit_counts,
         "trim_limit_ppb": c.trim_limit_ppb,
         "timeout_ticks": c.timeout_ticks,
@@ -308,6 +310,9 @@ fn check_map(r: &Assessment, command: &str) -> Map<String, Value> {
             "neighbour_updates": s.neighbour_updates,
             "common_rate_max_ppm": num(s.common_rate_max_ppm),
             "trim_at_limit_fraction": num(s.trim_at_limit_fraction),
+            "trim_error_ppm": s.trim_error_ppm.map_or(Value::Null, |p| json!({
+                "p50": num(p.p50), "max": num(p.max),
+            })),
         })
     });
     m.insert("simulation".into(), sim);

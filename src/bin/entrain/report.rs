@@ -429,6 +429,14 @@ fn figures(s: &mut String, r: &Assessment) {
                 ),
                 "largest |mean crystal + trim| at a run's end",
             );
+            if let Some(t) = sm.trim_error_ppm {
+                row(
+                    s,
+                    "simulated trim error",
+                    &format!("p50 {:.2} ppm, max {:.2} ppm", t.p50, t.max),
+                    "|trim − crystal's offset from the network rate| at a run's end",
+                );
+            }
         }
         None => row(s, "simulated runs", "not run", ""),
     }

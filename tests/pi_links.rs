@@ -1,0 +1,157 @@
+//! The PI law on links whose latency the firmware does not know, stamped by timers that
+//! read completed ticks: two-way timing measures each link's delay and the trim leak holds
+//! the common rate, so every run settles, stays settled for 10^5 updates, and every trim
+//! ends within 2 ppm of its crystal's offset from the network mean.
+//!
+//! Independent references: the ideal trim is the crystal's offset from the mean
+//! (`(1 + ē)/(1 + e_i) − 1`, arithmetic from the clock model); the residual of two-way
+//! time transfer over an asymmetric link is half the asymmetry (Mills, RFC 5905 §8,
+//! "Computing the offset and delay"), which on a tree — where the PI law's equilibrium
+//! leaves every link's measured difference at zero — is each link's steady phase offset.
+#![cfg(feature = "assess")]
+
+use std::path::Path;
+
+use entrain::assess::{NetworkModel, NodeConstants, setup};
+use entrain::scenario::Scenario;
+use entrain::sim::{Network, monte_carlo};
+
+/// A scenario of our own: sensor nodes on a mesh whose radio latency varies per link
+/// between 0.3 and 1.7 update intervals, unknown to the firmware.
+fn scenario(network: &str, extra_link: &str) -> Scenario {
+    let text = format!(
+        r#"
+version = 1
+name = "unknown-latency mesh"
+[network]
+{network}
+[timing]
+update_rate_hz = 10
+phase_period_s = 0.001
+timer_hz = 1_000_000
+[law]
+coupling = "sine"
+kp = 0.12
+ki = 0.004
+trim_limit_ppm = 200
+[clock]
+crystal_tolerance_ppm = 50
+[link]
+latency_range_s = [0.03, 0.17]
+latency_known = false
+{extra_link}
+[lock]
+initial_spread_s = 0.0004
+tolerance_s = 0.00002
+budget_s = 600
+"#
+    );
+    Scenario::from_toml(Path::new("mesh.toml"), &text).unwrap()
+}
+
+fn build(s: &Scenario, horizon: u64) -> entrain::sim::Setup {
+    let network = NetworkModel::of(s).unwrap();
+    let (kp, ki) = (0.12, 0.004);
+    let constants = NodeConstants::new(s, kp, ki).unwrap();
+    assert!(
+        constants.leak_q16 > 0,
+        "the default leak is on for the PI law"
+    );
+    setup(s, &network, &constants, horizon).unwrap()
+}
+
+fn check_runs(network: &str) {
+    let s = scenario(network, "");
+    let sim = build(&s, 100_000);
+    assert!(sim.beacons.two_way && !sim.beacons.latency_known);
+    let summary = monte_carlo(&sim, 4, 31, &|_| {}).unwrap();
+    for (run, o) in summary.outcomes.iter().enumerate() {
+        let settle = o
+            .settle
+            .unwrap_or_else(|| panic!("{network}: run {run} never settled"));
+        // Settled means inside the band from then to the end: 10^5 updates here.
+        assert!(
+            settle.at_updates < 5_000,
+            "{network}: run {run} settled late, at update {}",
+            settle.at_updates
+        );
+        assert_eq!(o.trims_at_limit, 0, "{network}: run {run}");
+        let worst = o.trim_errors_ppm.iter().fold(0.0_f64, |m, &e| m.max(e));
+        assert!(
+            worst <= 2.0,
+            "{network}: run {run} has a trim {worst:.2} ppm from its crystal's offset"
+        );
+    }
+    let t = summary.trim_error_ppm.unwrap();
+    assert!(t.max <= 2.0 && t.p50 < 1.0, "{t:?}");
+    assert_eq!(summary.trim_at_limit_fraction, 0.0);
+}
+
+#[test]
+fn chain_of_24_holds_its_trims() {
+    check_runs("topology = \"chain\"\nnodes = 24");
+}
+
+#[test]
+fn grid_6x6_holds_its_trims() {
+    check_runs("topology = \"grid\"\nrows = 6\ncols = 6");
+}
+
+/// The same chain with version-1 beacons (no two-way timing) never locks: every node
+/// sees every neighbour late by the unknown latency, and the trims run to their limit.
+/// This is the failure the remedy removes; if it ever passed, the test above would prove
+/// nothing about two-way timing.
+#[test]
+fn without_two_way_timing_the_chain_fails() {
+    let s = scenario("topology = \"chain\"\nnodes = 24", "beacon_version = 1");
+    let sim = build(&s, 5_000);
+    assert!(!sim.beacons.two_way);
+    let summary = monte_carlo(&sim, 2, 31, &|_| {}).unwrap();
+    assert_eq!(summary.settled_runs, 0);
+    assert!(summary.trim_error_ppm.unwrap().max > 20.0);
+}
+
+/// Each link's two directions differ by up to 0.2 ms (a fifth of a phase turn): on the
+/// chain every link's steady offset is half its asymmetry, within 10 %.
+#[test]
+fn asymmetric_links_settle_at_half_the_asymmetry() {
+    let s = scenario("topology = \"chain\"\nnodes = 12", "asymmetry_s = 0.0002");
+    let sim = build(&s, 20_000);
+    let ticks_per_turn = f64::from(sim.config.ticks_per_period());
+    let mut checked = 0;
+    for run in 0..3 {
+        let mut net: Network<2> = Network::new(&sim, 5, run).unwrap();
+        let n = net.nodes();
+        let mut sum = vec![0.0; n - 1];
+        let window = 4_000;
+        for k in 0..20_000 {
+            net.step();
+            if k >= 20_000 - window {
+                let ph = net.sampled_phases();
+                for (i, acc) in sum.iter_mut().enumerate() {
+                    let (a, b) = (ph[i].unwrap(), ph[i + 1].unwrap());
+                    *acc += f64::from(b.diff(a)) / 4_294_967_296.0;
+                }
+            }
+        }
+        let (mut num, mut den) = (0.0, 0.0);
+        for (i, acc) in sum.iter().enumerate() {
+            let measured = acc / f64::from(window);
+            let there = net.latency_ticks(i, i + 1).unwrap();
+            let back = net.latency_ticks(i + 1, i).unwrap();
+            let predicted = (back - there) / 2.0 / ticks_per_turn;
+            num += measured * predicted;
+            den += predicted * predicted;
+            if predicted.abs() >= 0.02 {
+                checked += 1;
+                assert!(
+                    (measured - predicted).abs() <= 0.1 * predicted.abs(),
+                    "run {run} link {i}: offset {measured:.5} turn, half the asymmetry {predicted:.5}"
+                );
+            }
+        }
+        let slope = num / den;
+        assert!((slope - 1.0).abs() <= 0.1, "run {run}: slope {slope:.3}");
+    }
+    assert!(checked >= 5, "only {checked} links had a clear asymmetry");
+}

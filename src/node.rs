@@ -383,9 +383,11 @@ impl<const N: usize> Node<N> {
     /// less the observation's `delay_ticks`. The samples are smoothed per neighbour
     /// (exponentially, weight 2^−[`delay_smoothing`](Config::delay_smoothing); the
     /// first is taken whole) and the estimate is added to `delay_ticks` in every later
-    /// observation from that neighbour, timed or not. A sample whose round trip is
-    /// negative beyond one tick, or longer than twice the timeout, is a stale or broken
-    /// echo (for example one of a beacon sent before this node rebooted) and is ignored.
+    /// observation from that neighbour, timed or not. An echo of a send after this
+    /// reception, or a round trip below minus an eighth of the timeout or above twice
+    /// the timeout, is stale or broken (for example an echo of a beacon sent before this
+    /// node rebooted) and is ignored; small negative round trips, which stamps of
+    /// completed ticks produce on short links, are kept, so the mean stays unbiased.
     ///
     /// With `timing: None` this is exactly `observe`.
     ///
@@ -507,7 +509,12 @@ impl<const N: usize> Node<N> {
             None => return None,
         };
         let round_q16 = (i64::from(round) << DELAY_FRAC).wrapping_sub(held_q16);
-        if round_q16 < -(1 << DELAY_FRAC) || round_q16 > (2 * timeout) << DELAY_FRAC {
+        // Stamps of completed ticks at both ends shorten a true round trip by up to two
+        // ticks, timestamp jitter by more: a short link's samples straddle zero, and
+        // refusing the negative ones would bias the mean (every node would then see its
+        // neighbours ahead). Only a round trip shorter than minus an eighth of the
+        // timeout, or longer than twice the timeout, is broken.
+        if round_q16 < -((timeout >> 3) << DELAY_FRAC) || round_q16 > (2 * timeout) << DELAY_FRAC {
             return None;
         }
         let one_way = round_q16 / 2;
@@ -898,7 +905,7 @@ mod tests {
             },
             Echo {
                 tx_ticks: 500,
-                held_ticks: 600,
+                held_ticks: 100_000,
             },
             Echo {
                 tx_ticks: 0,

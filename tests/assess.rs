@@ -239,9 +239,24 @@ fn footbridge(replace: &[(&str, &str)]) -> String {
 #[test]
 fn footbridge_as_first_shipped_does_not_pass() {
     // ±1 µs timestamp jitter and whole-tick stamping against a 20 µs tolerance: the steady
-    // largest pairwise error reaches the band, so runs never settle for good.
+    // largest pairwise error reaches the band, so runs never settle for good. As first
+    // shipped: version-1 beacons, receptions stamped to the nearest tick, no trim leak.
     let a = run(
-        &footbridge(&[("tolerance_s = 0.00004", "tolerance_s = 0.00002 #")]),
+        &footbridge(&[
+            ("tolerance_s = 0.00004", "tolerance_s = 0.00002 #"),
+            (
+                "latency_s = 0.0004",
+                "latency_s = 0.0004\nbeacon_version = 1",
+            ),
+            (
+                "timestamp_jitter_s = 0.000001",
+                "timestamp_jitter_s = 0.000001\nstamping = \"nearest\"",
+            ),
+            (
+                "neighbour_timeout_updates = 5",
+                "neighbour_timeout_updates = 5\ntrim_leak = 0",
+            ),
+        ]),
         24,
     );
     assert!(!a.verdict.pass);
@@ -406,14 +421,15 @@ fn spectra_are_computed_once_and_match_the_closed_form() {
     ));
 }
 
-/// Two sensors whose crystals are +5 and −5 ppm, PI law, random power-up instants: the
-/// trims take up the 10 ppm between them, but nothing holds their common part, and in
-/// simulation it drifts until a trim reaches its limit (measured: −496 ppm of a ±500 ppm
-/// limit within 8,000 updates). The check must say so (`common_rate_drift`); under the
-/// P law there is no trim to drift and the warning stays silent.
+/// Two sensors whose crystals are +5 and −5 ppm, PI law, random power-up instants,
+/// receptions stamped with completed ticks. With version-1 beacons nothing removes the
+/// half-tick stamping bias: each sees the other early, and the common trim ramps until
+/// a trim reaches its limit. The check must say so (`common_rate_drift`). With two-way
+/// timing (version 2, the default) and the default leak the common rate stays within the
+/// crystals and the warning is silent; under the P law there is no trim to drift.
 #[test]
 fn common_rate_drift_is_reported() {
-    let pair = |law: &str| {
+    let pair = |law: &str, link: &str| {
         format!(
             r#"
 version = 1
@@ -430,6 +446,8 @@ coupling = "sine"
 trim_limit_ppm = 200
 [clock]
 crystal_ppm = [5.0, -5.0]
+[link]
+{link}
 [lock]
 initial_spread_s = 0.0004
 tolerance_s = 0.00004
@@ -439,7 +457,7 @@ duration_s = 1500
 "#
         )
     };
-    let pi = run(&pair("kp = 0.3\nki = 0.02"), 4);
+    let pi = run(&pair("kp = 0.3\nki = 0.02", "beacon_version = 1"), 4);
     let summary = &pi.simulation.as_ref().unwrap().summary;
     assert!(
         summary.trim_at_limit_fraction > 0.0 || summary.common_rate_max_ppm > 6.0,
@@ -453,7 +471,18 @@ duration_s = 1500
         warning_codes(&pi)
     );
 
-    let p = run(&pair("kp = 0.3"), 4);
+    let v2 = run(&pair("kp = 0.3\nki = 0.02", ""), 4);
+    let summary = &v2.simulation.as_ref().unwrap().summary;
+    assert!(
+        summary.common_rate_max_ppm < 5.0 && summary.trim_at_limit_fraction == 0.0,
+        "{} ppm, {}",
+        summary.common_rate_max_ppm,
+        summary.trim_at_limit_fraction
+    );
+    assert!(!warning_codes(&v2).contains(&"common_rate_drift"));
+    assert!(summary.trim_error_ppm.unwrap().max < 2.0);
+
+    let p = run(&pair("kp = 0.3", ""), 4);
     let summary = &p.simulation.as_ref().unwrap().summary;
     // The P law leaves each node at its crystal: the common rate is their mean, 0 ppm.
     assert!(

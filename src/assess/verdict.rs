@@ -372,7 +372,7 @@ impl fmt::Display for Warning {
                 trim_at_limit_fraction,
             } => write!(
                 f,
-                "the common rate drifted: runs ended up to {common_rate_max_ppm:.1} ppm from nominal (crystals within ±{crystal_bound_ppm:.1} ppm), {:.0} % with a rate trim at its limit; the PI law does not hold the network's common rate, so every node's clock may run that far off nominal",
+                "the common rate drifted: runs ended up to {common_rate_max_ppm:.1} ppm from nominal (crystals within ±{crystal_bound_ppm:.1} ppm), {:.0} % with a rate trim at its limit; under the PI law the common rate wanders with every timestamp error and the trim leak (law.trim_leak, default ki/64) pulls it back only over 1/leak updates, so every node's clock may run that far off nominal: a smaller ki or a larger trim_leak holds it closer",
                 trim_at_limit_fraction * 100.0
             ),
         }

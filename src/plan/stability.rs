@@ -4,7 +4,7 @@ use core::f64::consts::PI;
 
 use super::error::{PlanError, positive};
 use super::model::{MAX_DELAY_UPDATES, Model};
-use super::roots::mode_radius;
+use super::roots::{mode_radius, mode_stable};
 use super::spectrum::Spectrum;
 
 /// Stability verdict, convergence factors and margins of a [`Model`] on a [`Spectrum`].
@@ -86,8 +86,11 @@ fn worst_radius(model: &Model, spectrum: &Spectrum, delay_updates: u32) -> f64 {
     at(spectrum.lambda_slow).max(at(spectrum.lambda_max))
 }
 
+/// Both ends of the spectrum decay (the quasi-convexity noted on [`Stability`]); with
+/// delay by the Schur–Cohn test, not the root finder.
 fn is_stable(model: &Model, spectrum: &Spectrum, delay_updates: u32) -> bool {
-    worst_radius(model, spectrum, delay_updates) < 1.0
+    let at = |lambda| mode_stable(model.kp, model.ki, delay_updates, lambda);
+    at(spectrum.lambda_slow) && at(spectrum.lambda_max)
 }
 
 /// Largest factor `s` such that the gains `s·kp`, `s·ki` are stable (bisection on the

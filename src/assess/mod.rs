@@ -143,6 +143,21 @@ pub fn assess(
     progress: &(dyn Fn(sim::Progress) + Sync),
 ) -> Result<Assessment, AssessError> {
     let network = NetworkModel::of(&scenario)?;
+    assess_with_network(scenario, network, options, progress)
+}
+
+/// As [`assess`], with the network model already built (by
+/// [`NetworkModel::of_observed`], say, to show the eigensolver's progress). `network`
+/// must be the model of `scenario`.
+///
+/// # Errors
+/// As [`assess`].
+pub fn assess_with_network(
+    scenario: Scenario,
+    network: NetworkModel,
+    options: &Options,
+    progress: &(dyn Fn(sim::Progress) + Sync),
+) -> Result<Assessment, AssessError> {
     let gains = choose(&scenario, &network)?;
     let prediction = predict(&scenario, &network, gains.kp, gains.ki)?;
     let mut warnings = prediction_warnings(&scenario, &prediction);
@@ -150,6 +165,17 @@ pub fn assess(
         warnings.push(Warning::ClosestGainsShown);
     }
     let simulation = if options.runs > 0 {
+        let nodes = network.spectrum.node_count;
+        if nodes > crate::scenario::MAX_SIMULATED_NODES {
+            return Err(AssessError::input(
+                &scenario.path,
+                format!(
+                    "network: {nodes} nodes is more than the Monte Carlo simulates (at most {}); the prediction alone plans up to {} nodes: use `check --no-simulate`, `tune` or `spectrum`",
+                    crate::scenario::MAX_SIMULATED_NODES,
+                    crate::scenario::MAX_SCENARIO_NODES
+                ),
+            ));
+        }
         let s = setup(
             &scenario,
             &network,

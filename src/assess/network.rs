@@ -2,7 +2,7 @@
 //! computed once per assessment.
 
 use super::AssessError;
-use crate::graph::Graph;
+use crate::graph::{DENSE_AUTO_MAX_NODES, Graph, SMALLEST_EIGENVALUES, SparseStage};
 use crate::plan::{Spectrum, Topology};
 use crate::scenario::{Layout, Scenario};
 
@@ -44,6 +44,9 @@ pub struct NetworkModel {
     /// Every eigenvalue, ascending (grounded Laplacian for a pinned chain), when known:
     /// closed forms always, edge lists on the dense path.
     pub eigenvalues: Option<Vec<f64>>,
+    /// The smallest eigenvalues, ascending: the first [`SMALLEST_EIGENVALUES`] + 1 of
+    /// `eigenvalues` when every one is known, else 0 and the sparse path's λ2 to λ6.
+    pub smallest_eigenvalues: Vec<f64>,
     /// The slowest mode's value at each node, largest magnitude 1.
     pub slow_mode: Vec<f64>,
 }
@@ -54,6 +57,18 @@ impl NetworkModel {
     /// # Errors
     /// [`AssessError::Input`] for a graph the library refuses (disconnected, too small).
     pub fn of(scenario: &Scenario) -> Result<NetworkModel, AssessError> {
+        Self::of_observed(scenario, &mut |_| {})
+    }
+
+    /// As [`Self::of`], telling `observe` what the sparse eigensolver is doing (edge lists
+    /// above [`DENSE_AUTO_MAX_NODES`] nodes), for a progress display.
+    ///
+    /// # Errors
+    /// As [`Self::of`].
+    pub fn of_observed(
+        scenario: &Scenario,
+        observe: &mut dyn FnMut(SparseStage),
+    ) -> Result<NetworkModel, AssessError> {
         let input = |message: String| AssessError::input(&scenario.path, message);
         match &scenario.layout {
             Layout::Topology(t) => {
@@ -69,11 +84,13 @@ impl NetworkModel {
                 let flow_factor = match t.worst_flow_factor() {
                     Ok(f) => Some(f),
                     // Grid and torus have no closed form: the numeric path gives it where
-                    // the graph is small enough for the dense method.
-                    Err(_) => Graph::from_topology(&t)
+                    // the graph is small enough for the dense method (O(N³)).
+                    Err(_) if n <= DENSE_AUTO_MAX_NODES => Graph::from_topology(&t)
                         .ok()
                         .and_then(|g| g.worst_flow_factor().ok()),
+                    Err(_) => None,
                 };
+                let smallest_eigenvalues = eigenvalues[..n.min(SMALLEST_EIGENVALUES + 1)].to_vec();
                 Ok(NetworkModel {
                     topology: Some(t),
                     graph: None,
@@ -81,6 +98,7 @@ impl NetworkModel {
                     source: SpectrumSource::ClosedForm,
                     flow_factor,
                     eigenvalues: Some(eigenvalues),
+                    smallest_eigenvalues,
                     slow_mode,
                 })
             }
@@ -95,7 +113,7 @@ impl NetworkModel {
                     )));
                 }
                 let summary = graph
-                    .summary()
+                    .summary_observed(observe)
                     .map_err(|e| at_file(format!("edge list: {e}")))?;
                 Ok(NetworkModel {
                     topology: None,
@@ -103,6 +121,7 @@ impl NetworkModel {
                     source: SpectrumSource::Numeric,
                     flow_factor: summary.worst_flow_factor,
                     eigenvalues: summary.eigenvalues,
+                    smallest_eigenvalues: summary.smallest_eigenvalues,
                     slow_mode: summary.slow_mode,
                     graph: Some(graph),
                 })

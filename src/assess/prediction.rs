@@ -276,7 +276,11 @@ pub fn predict_with(
         * horizon_updates as f64;
     let samples = ((FORECAST_MAX_WORK / per_sample) as usize).min(effort.forecast_samples);
     let forecast = match bound_s {
-        Some(_) if samples >= FORECAST_MIN_SAMPLES => {
+        // The forecast steps a simulated setup: only within the simulation's node limit.
+        Some(_)
+            if samples >= FORECAST_MIN_SAMPLES
+                && network.spectrum.node_count <= crate::scenario::MAX_SIMULATED_NODES =>
+        {
             let mut s = setup(scenario, network, &constants, horizon_updates)?;
             // The forecast predicts settling from power-up; reboots are the simulation's.
             s.reboots.clear();

@@ -76,10 +76,20 @@ pub enum GraphError {
     },
     /// The sparse factorisation failed (out of memory, or not positive definite).
     Factorization,
-    /// The iterative eigensolver did not reach its tolerance.
+    /// The dense eigensolver hit its iteration cap.
     NoConvergence {
-        /// Relative residual reached.
+        /// Relative residual reached (NaN when the solver does not report one).
         relative_residual: f64,
+    },
+    /// The sparse eigensolver could not bound an eigenvalue's error within the tolerance
+    /// (it gives no number rather than a wrong one).
+    EigenvalueNotConverged {
+        /// Which eigenvalue (`"λ2"`, `"a small eigenvalue"`, `"λmax"`).
+        which: &'static str,
+        /// The smallest error bound reached, relative to the eigenvalue.
+        relative_bound: f64,
+        /// The relative bound that was asked for.
+        tolerance: f64,
     },
 }
 
@@ -130,6 +140,14 @@ impl fmt::Display for GraphError {
                     "eigensolver stopped at relative residual {relative_residual:e} without converging"
                 )
             }
+            Self::EigenvalueNotConverged {
+                which,
+                relative_bound,
+                tolerance,
+            } => write!(
+                f,
+                "sparse eigensolver could not pin down {which}: its error bound reached {relative_bound:.1e} of its value, the tolerance is {tolerance:.0e}"
+            ),
         }
     }
 }

@@ -2,10 +2,12 @@
 //!
 //! A [`Graph`] is built from an edge list with optional positive weights and validated
 //! (no self-loops, no duplicates, indices in range). Its spectrum comes from a dense
-//! symmetric eigen-decomposition (`nalgebra`) up to [`DENSE_MAX_NODES`] nodes, or from
-//! Lanczos iteration for λ2 and λmax on large sparse graphs (λ2 by inverse iteration on
-//! the pseudo-inverse, applied through a sparse Cholesky factorisation of the grounded
-//! Laplacian with `faer`). The slowest mode's eigenvector comes with either.
+//! symmetric eigen-decomposition (`nalgebra`) up to [`DENSE_MAX_NODES`] nodes, or, on
+//! large sparse graphs, from Lanczos iteration: the few smallest non-zero eigenvalues by
+//! shift-invert on the pseudo-inverse (a sparse Cholesky factorisation of the grounded
+//! Laplacian with `faer`), λmax by shift-invert inside a bracket that Cholesky
+//! factorisations of `σI − L` prove; every sparse eigenvalue comes with an error bound
+//! (see [`SparseSpectrum`]). The slowest mode's eigenvector comes with either.
 //!
 //! # Example
 //!
@@ -32,7 +34,7 @@ mod sparse;
 
 pub use dense::DenseSpectrum;
 pub use error::GraphError;
-pub use sparse::{SparseOptions, SparseSpectrum};
+pub use sparse::{SparseOptions, SparseSpectrum, SparseStage};
 
 use crate::plan::{Spectrum, Topology};
 
@@ -47,6 +49,12 @@ pub const DENSE_MAX_NODES: usize = 4000;
 /// (about a second at 1,000 nodes; the dense cost grows as N³); the sparse path above.
 pub const DENSE_AUTO_MAX_NODES: usize = 1000;
 
+/// How many of the smallest non-zero eigenvalues (λ2 to λ6) [`Graph::summary`] reports
+/// on the sparse path (the dense path knows them all).
+pub const SMALLEST_EIGENVALUES: usize = 5;
+
+const _: () = assert!(DENSE_AUTO_MAX_NODES <= DENSE_MAX_NODES);
+
 /// Everything the checker reports about a graph's spectrum, in one call
 /// ([`Graph::summary`]).
 #[derive(Clone, Debug, PartialEq)]
@@ -55,6 +63,10 @@ pub struct GraphSummary {
     pub spectrum: Spectrum,
     /// Every eigenvalue, ascending, when the dense path ran (`node_count ≤ DENSE_AUTO_MAX_NODES`).
     pub eigenvalues: Option<Vec<f64>>,
+    /// The smallest eigenvalues, ascending: 0, then λ2 up to [`SMALLEST_EIGENVALUES`]
+    /// non-zero ones (fewer on a small graph); on both paths. Empty for a disconnected
+    /// graph on the sparse path.
+    pub smallest_eigenvalues: Vec<f64>,
     /// The slowest mode's shape (largest magnitude 1); empty for a disconnected graph.
     pub slow_mode: Vec<f64>,
     /// Worst edge load per unit detuning ([`Graph::worst_flow_factor`]) when the dense path
@@ -340,6 +352,18 @@ impl Graph {
     /// # Errors
     /// [`GraphError::TooSmall`] for a single node; sparse-path errors on large graphs.
     pub fn summary(&self) -> Result<GraphSummary, GraphError> {
+        self.summary_observed(&mut |_| {})
+    }
+
+    /// As [`Self::summary`], telling `observe` what the sparse solver is doing (for a
+    /// progress display; the dense path says nothing).
+    ///
+    /// # Errors
+    /// As [`Self::summary`].
+    pub fn summary_observed(
+        &self,
+        observe: &mut dyn FnMut(SparseStage),
+    ) -> Result<GraphSummary, GraphError> {
         if self.nodes < 2 {
             return Err(GraphError::TooSmall {
                 nodes: self.nodes,
@@ -350,6 +374,7 @@ impl Graph {
             let d = self.dense_spectrum()?;
             let connected = self.is_connected();
             let lambda_slow = if connected { d.lambda2() } else { 0.0 };
+            let all = d.eigenvalues();
             Ok(GraphSummary {
                 spectrum: self.spectrum_of(lambda_slow, d.lambda_max()),
                 slow_mode: if connected {
@@ -357,7 +382,8 @@ impl Graph {
                 } else {
                     Vec::new()
                 },
-                eigenvalues: Some(d.eigenvalues().to_vec()),
+                smallest_eigenvalues: all[..all.len().min(SMALLEST_EIGENVALUES + 1)].to_vec(),
+                eigenvalues: Some(all.to_vec()),
                 worst_flow_factor: if connected {
                     self.worst_flow_factor().ok()
                 } else {
@@ -365,10 +391,17 @@ impl Graph {
                 },
             })
         } else if self.is_connected() {
-            let s = self.sparse_spectrum()?;
+            let options = SparseOptions {
+                smallest: SMALLEST_EIGENVALUES,
+                ..SparseOptions::default()
+            };
+            let s = self.sparse_spectrum_observed(&options, observe)?;
+            let mut smallest = vec![0.0];
+            smallest.extend(&s.smallest);
             Ok(GraphSummary {
                 spectrum: self.spectrum_of(s.lambda2, s.lambda_max_upper),
                 eigenvalues: None,
+                smallest_eigenvalues: smallest,
                 slow_mode: s.slow_mode,
                 worst_flow_factor: None,
             })
@@ -376,6 +409,7 @@ impl Graph {
             Ok(GraphSummary {
                 spectrum: self.spectrum_of(0.0, 2.0 * self.max_degree()),
                 eigenvalues: None,
+                smallest_eigenvalues: Vec::new(),
                 slow_mode: Vec::new(),
                 worst_flow_factor: None,
             })

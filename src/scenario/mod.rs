@@ -25,15 +25,26 @@ mod write;
 /// The scenario-file version this build reads.
 pub const SCENARIO_VERSION: i64 = 1;
 
-/// Largest node count a scenario file may give any layout (keeps the simulator's work per
-/// run bounded; within the simulator's [`MAX_SIM_NODES`](crate::sim::MAX_SIM_NODES)).
-pub const MAX_SCENARIO_NODES: usize = 10_000;
+/// Largest node count a scenario file may give a chain, ring, pinned chain, grid, torus
+/// or edge list: what the planner handles (`check --no-simulate`, `tune`, `spectrum`;
+/// the sparse eigensolver above [`DENSE_AUTO_MAX_NODES`](crate::graph::DENSE_AUTO_MAX_NODES)
+/// nodes). Within the planner's [`MAX_PLAN_NODES`](crate::plan::MAX_PLAN_NODES) and the
+/// graph's [`MAX_GRAPH_NODES`](crate::graph::MAX_GRAPH_NODES).
+pub const MAX_SCENARIO_NODES: usize = 1_000_000;
+
+/// Largest node count a scenario may simulate (the Monte Carlo, the forecast's sampled
+/// model): keeps one scenario's simulation bounded. Within the simulator's
+/// [`MAX_SIM_NODES`](crate::sim::MAX_SIM_NODES) and [`MAX_SCENARIO_NODES`].
+pub const MAX_SIMULATED_NODES: usize = 10_000;
 
 /// Largest node count of a star or complete graph: one hub (or every node) neighbours all
 /// the others, and a node's table holds at most [`crate::MAX_NEIGHBOURS`].
 pub const MAX_DENSE_NODES: usize = crate::MAX_NEIGHBOURS + 1;
 
-const _: () = assert!(MAX_SCENARIO_NODES <= crate::sim::MAX_SIM_NODES);
+const _: () = assert!(MAX_SCENARIO_NODES <= crate::plan::MAX_PLAN_NODES);
+const _: () = assert!(MAX_SCENARIO_NODES <= crate::graph::MAX_GRAPH_NODES);
+const _: () = assert!(MAX_SIMULATED_NODES <= crate::sim::MAX_SIM_NODES);
+const _: () = assert!(MAX_SIMULATED_NODES <= MAX_SCENARIO_NODES);
 
 /// Largest number of Monte-Carlo runs.
 pub const MAX_RUNS: u32 = 10_000;
@@ -1302,7 +1313,9 @@ fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Layout, Scena
     let topology = n.topology.get_ref().as_str();
     let max = MAX_SCENARIO_NODES as i64;
     let dense = MAX_DENSE_NODES as i64;
-    let side = 1_000;
+    // Each side may be as long as the product allows (a 10 × 100,000 strip is a grid);
+    // rows × cols is held to MAX_SCENARIO_NODES below.
+    let side = max;
     if topology != "edge_list" {
         refuse_extra(loc, n.edges.as_ref(), "edges", topology)?;
     }

@@ -339,8 +339,12 @@ pub fn check(r: &Assessment, command: &str) -> String {
 
 /// JSON of `simulate`: the check object plus the plots written.
 #[must_use]
-pub fn simulate(r: &Assessment, plots: &[PathBuf]) -> String {
+pub fn simulate(r: &Assessment, plots: &[PathBuf], failed: &[String]) -> String {
     let mut m = check_map(r, "simulate");
+    m.insert(
+        "plots_failed".into(),
+        Value::Array(failed.iter().map(|f| json!(f)).collect()),
+    );
     m.insert(
         "plots".into(),
         Value::Array(
@@ -386,6 +390,16 @@ pub fn spectrum(scenario: &Scenario, network: &NetworkModel) -> String {
         network.eigenvalues.as_ref().map_or(Value::Null, |e| {
             Value::Array(e.iter().map(|v| num(*v)).collect())
         }),
+    );
+    m.insert(
+        "smallest_eigenvalues".into(),
+        Value::Array(
+            network
+                .smallest_eigenvalues
+                .iter()
+                .map(|v| num(*v))
+                .collect(),
+        ),
     );
     m.insert(
         "slow_mode".into(),

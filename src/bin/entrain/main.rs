@@ -128,8 +128,17 @@ enum Sub {
     },
 }
 
-/// A progress bar on standard error, drawn when it is a terminal.
-struct Bar(indicatif::ProgressBar);
+/// A progress bar on standard error, drawn when it is a terminal; and a spinner for an
+/// eigensolve, drawn once it has taken a second.
+struct Bar(indicatif::ProgressBar, Mutex<Option<Solve>>);
+
+struct Solve {
+    started: Instant,
+    spinner: Option<indicatif::ProgressBar>,
+}
+
+/// How long an eigensolve runs before its spinner is drawn.
+const SOLVE_QUIET_FOR: Duration = Duration::from_secs(1);
 
 impl ProgressSink for Bar {
     fn start(&self, total: u64) {
@@ -141,6 +150,31 @@ impl ProgressSink for Bar {
     }
     fn finish(&self) {
         self.0.finish_and_clear();
+    }
+    fn solving(&self, stage: &str) {
+        let Ok(mut solve) = self.1.lock() else { return };
+        let solve = solve.get_or_insert_with(|| Solve {
+            started: Instant::now(),
+            spinner: None,
+        });
+        if solve.spinner.is_none() && solve.started.elapsed() >= SOLVE_QUIET_FOR {
+            let spinner = indicatif::ProgressBar::new_spinner();
+            spinner.enable_steady_tick(Duration::from_millis(120));
+            solve.spinner = Some(spinner);
+        }
+        if let Some(spinner) = &solve.spinner {
+            spinner.set_message(format!(
+                "spectrum: {stage} ({:.0} s)",
+                solve.started.elapsed().as_secs_f64()
+            ));
+        }
+    }
+    fn solved(&self) {
+        if let Ok(mut solve) = self.1.lock() {
+            if let Some(spinner) = solve.take().and_then(|s| s.spinner) {
+                spinner.finish_and_clear();
+            }
+        }
     }
 }
 
@@ -258,7 +292,10 @@ fn main() -> ExitCode {
             "simulating {bar:40} {pos}/{len} runs, {eta} left",
         )
         .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar());
-        let bar = Bar(indicatif::ProgressBar::new(0).with_style(style));
+        let bar = Bar(
+            indicatif::ProgressBar::new(0).with_style(style),
+            Mutex::new(None),
+        );
         run::run(&command, format, &bar)
     } else {
         let now = Instant::now();

@@ -669,8 +669,19 @@ pub fn spectrum(sc: &Scenario, r: &NetworkModel) -> String {
             "ring patterns that never unwind",
         );
     }
-    heading(&mut s, "Eigenvalues (ascending)");
-    let ev = r.eigenvalues.as_deref().unwrap_or(&[]);
+    let ev = match r.eigenvalues.as_deref() {
+        Some(all) => {
+            heading(&mut s, "Eigenvalues (ascending)");
+            all
+        }
+        None => {
+            heading(
+                &mut s,
+                "Smallest eigenvalues (ascending; sparse solver: 0, then λ2 to λ6, each within 1e-10 of its value)",
+            );
+            &r.smallest_eigenvalues[..]
+        }
+    };
     let shown: Vec<String> = if ev.len() <= 24 {
         ev.iter().map(|v| format!("{v:.6}")).collect()
     } else {
@@ -708,14 +719,20 @@ fn bar(v: f64) -> String {
     }
 }
 
-/// Append the list of written plots to a report.
-pub fn plots_written(s: &mut String, written: &[PathBuf]) {
-    if written.is_empty() {
-        return;
+/// Append the lists of written plots, and of plots that could not be made, to a report.
+pub fn plots_written(s: &mut String, written: &[PathBuf], failed: &[String]) {
+    if !written.is_empty() {
+        let _ = writeln!(s);
+        let _ = writeln!(s, "Plots written");
+        for p in written {
+            let _ = writeln!(s, "  {}", p.display());
+        }
     }
-    let _ = writeln!(s);
-    let _ = writeln!(s, "Plots written");
-    for p in written {
-        let _ = writeln!(s, "  {}", p.display());
+    if !failed.is_empty() {
+        let _ = writeln!(s);
+        let _ = writeln!(s, "Plots not written");
+        for f in failed {
+            let _ = writeln!(s, "  {f}");
+        }
     }
 }

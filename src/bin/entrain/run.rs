@@ -133,6 +133,33 @@ pub trait ProgressSink: Sync {
     fn set(&self, done: u64);
     /// The Monte Carlo is over.
     fn finish(&self);
+    /// The eigensolver is at `stage` (called at each stage; a display may show it once
+    /// the solve has taken a second).
+    fn solving(&self, _stage: &str) {}
+    /// The eigensolver is done.
+    fn solved(&self) {}
+}
+
+/// The network model, showing the sparse eigensolver's stages on `progress`.
+fn network_with_progress(
+    scenario: &Scenario,
+    progress: &dyn ProgressSink,
+) -> Result<NetworkModel, CliError> {
+    let mut observe = |stage: entrain::graph::SparseStage| {
+        use entrain::graph::SparseStage;
+        let text = match stage {
+            SparseStage::Factorising => "factorising the Laplacian".to_owned(),
+            SparseStage::Smallest { index, of } => {
+                format!("smallest eigenvalues: λ{} of λ2 to λ{}", index + 2, of + 1)
+            }
+            SparseStage::Largest { round } => format!("λmax: shift {}", round + 1),
+            _ => "spectrum".to_owned(),
+        };
+        progress.solving(&text);
+    };
+    let network = NetworkModel::of_observed(scenario, &mut observe);
+    progress.solved();
+    Ok(network?)
 }
 
 /// Output format.
@@ -156,8 +183,9 @@ fn assess_with_progress(
     if options.runs > 0 {
         progress.start(u64::from(options.runs));
     }
+    let network = network_with_progress(&scenario, progress)?;
     let tick = |p: entrain::sim::Progress| progress.set(p.done as u64);
-    let result = assess::assess(scenario, options, &tick);
+    let result = assess::assess_with_network(scenario, network, options, &tick);
     if options.runs > 0 {
         progress.finish();
     }
@@ -222,26 +250,31 @@ pub fn run(
                 options.seed = *s;
             }
             let a = assess_with_progress(scenario, &options, progress)?;
-            let written = match plots {
+            let (written, failed) = match plots {
                 Some(dir) => write_plots(&a, dir, &policy)?,
-                None => Vec::new(),
+                None => (Vec::new(), Vec::new()),
             };
             let stdout = match format {
                 Format::Human => {
                     let mut s = report::check(&a, "simulate");
-                    report::plots_written(&mut s, &written);
+                    report::plots_written(&mut s, &written, &failed);
                     s
                 }
-                Format::Json => json::simulate(&a, &written),
+                Format::Json => json::simulate(&a, &written, &failed),
             };
+            // A plot asked for and not made is an output error, after the report.
             Ok(Output {
                 stdout,
-                status: status(a.verdict.pass),
+                status: if failed.is_empty() {
+                    status(a.verdict.pass)
+                } else {
+                    EXIT_INPUT
+                },
             })
         }
         Command::Spectrum { file } => {
             let scenario = Scenario::load(file)?;
-            let network = NetworkModel::of(&scenario)?;
+            let network = network_with_progress(&scenario, progress)?;
             let stdout = match format {
                 Format::Human => report::spectrum(&scenario, &network),
                 Format::Json => json::spectrum(&scenario, &network),
@@ -280,19 +313,39 @@ pub fn run(
     }
 }
 
-fn write_plots(a: &Assessment, dir: &Path, policy: &WritePolicy) -> Result<Vec<PathBuf>, CliError> {
+/// Write the plots; a plot that cannot be made is named in the second list with why, and
+/// the others are still written (the report is never lost to a plot).
+fn write_plots(
+    a: &Assessment,
+    dir: &Path,
+    policy: &WritePolicy,
+) -> Result<(Vec<PathBuf>, Vec<String>), CliError> {
     policy.check_dir(dir)?;
     let out = |e: plot::PlotError| std::io::Error::other(e.message);
     let s = &a.scenario;
     let mut written = Vec::new();
+    let mut failed = Vec::new();
+    let mut attempt = |path: PathBuf, result: Result<(), CliError>| match result {
+        Ok(()) => written.push(path),
+        Err(e) => failed.push(format!("{}: {e}", path.display())),
+    };
 
     // Sample runs: the same runs as the Monte Carlo's first ones, traced over the whole
     // horizon (the simulator never stops a run at settling).
     if let Some(v) = &a.simulation {
         let mut runs = Vec::new();
+        let mut traced = Ok(());
         for run in 0..PLOTTED_RUNS.min(v.summary.runs as u64) {
-            let (_, trace) = entrain::sim::trace_run(&v.setup, v.seed, run, false)
-                .map_err(|e| AssessError::input(&s.path, format!("simulation: {e}")))?;
+            let trace = match entrain::sim::trace_run(&v.setup, v.seed, run, false) {
+                Ok((_, trace)) => trace,
+                Err(e) => {
+                    traced = Err(CliError::Assess(AssessError::input(
+                        &s.path,
+                        format!("simulation: {e}"),
+                    )));
+                    break;
+                }
+            };
             let step_s = trace.update_period_s;
             runs.push(plot::RunTrace {
                 run,
@@ -336,8 +389,10 @@ fn write_plots(a: &Assessment, dir: &Path, policy: &WritePolicy) -> Result<Vec<P
             tolerance_s: s.lock_tolerance_s,
             budget_s: s.lock_budget_s,
         };
-        policy.write_with(&path, |temp| plot::phase_error(temp, &plot).map_err(out))?;
-        written.push(path);
+        let result = traced.and_then(|()| {
+            policy.write_with(&path, |temp| plot::phase_error(temp, &plot).map_err(out))
+        });
+        attempt(path, result);
 
         let path = dir.join("lock_times.svg");
         let histogram = plot::LockHistogram {
@@ -349,10 +404,10 @@ fn write_plots(a: &Assessment, dir: &Path, policy: &WritePolicy) -> Result<Vec<P
             bound_s: settle.map(|t| t.bound_s),
             budget_s: s.lock_budget_s,
         };
-        policy.write_with(&path, |temp| {
+        let result = policy.write_with(&path, |temp| {
             plot::lock_histogram(temp, &histogram).map_err(out)
-        })?;
-        written.push(path);
+        });
+        attempt(path, result);
     }
 
     let path = dir.join("slowest_mode.svg");
@@ -362,14 +417,12 @@ fn write_plots(a: &Assessment, dir: &Path, policy: &WritePolicy) -> Result<Vec<P
         shape: n.slow_mode.clone(),
         layout: mode_layout(n),
         lambda_slow: n.spectrum.lambda_slow,
-        multiplicity: n
-            .eigenvalues
-            .as_deref()
-            .map(|e| plot::mode::multiplicity(e, n.spectrum.lambda_slow)),
+        multiplicity: (!n.smallest_eigenvalues.is_empty())
+            .then(|| plot::mode::multiplicity(&n.smallest_eigenvalues, n.spectrum.lambda_slow)),
     };
-    policy.write_with(&path, |temp| plot::mode_shape(temp, &mode).map_err(out))?;
-    written.push(path);
-    Ok(written)
+    let result = policy.write_with(&path, |temp| plot::mode_shape(temp, &mode).map_err(out));
+    attempt(path, result);
+    Ok((written, failed))
 }
 
 /// How the slowest-mode plot lays out `n`'s network.

@@ -85,6 +85,9 @@ pub mod scenario;
     clippy::indexing_slicing
 )]
 pub mod sim;
+#[cfg(feature = "telemetry")]
+#[cfg_attr(docsrs, doc(cfg(feature = "telemetry")))]
+pub mod telemetry;
 
 pub use config::{Config, ConfigBuilder, ConfigError, MAX_TRIM_LIMIT_PPB};
 pub use gain::{GAIN_FRAC_BITS, Gain};

@@ -214,6 +214,22 @@ impl<const N: usize> Node<N> {
         self.table.iter().map(|e| e.id)
     }
 
+    /// A read-only view of the neighbour table, for telemetry: per entry the neighbour's
+    /// id, its phase difference (neighbour − self, counts, wrapped) estimated at the
+    /// node's current instant, and the observation's age (the node's clock minus the
+    /// entry's reception stamp, ticks; negative for a stamp later than the clock). Read
+    /// right after [`update`](Node::update), the difference is the one the law used
+    /// minus the step just applied.
+    pub fn neighbour_table(&self) -> impl Iterator<Item = (NodeId, i32, i32)> + Clone + '_ {
+        self.table.iter().map(|e| {
+            (
+                e.id,
+                e.anchored_diff.wrapping_sub(self.corrections) as i32,
+                self.now.wrapping_sub(e.heard) as i32,
+            )
+        })
+    }
+
     /// Rate per tick, Q32.32 counts: nominal plus trim.
     const fn rate(&self) -> u64 {
         self.config.rate_nominal().wrapping_add(self.trim as u64)

@@ -30,6 +30,15 @@ pub mod assess;
 #[cfg_attr(docsrs, doc(cfg(feature = "beacon")))]
 pub mod beacon;
 mod config;
+#[cfg(feature = "field")]
+#[cfg_attr(docsrs, doc(cfg(feature = "field")))]
+#[allow(
+    clippy::unwrap_used,
+    clippy::expect_used,
+    clippy::panic,
+    clippy::indexing_slicing
+)]
+pub mod field;
 #[cfg(feature = "sim")]
 #[cfg_attr(docsrs, doc(cfg(feature = "sim")))]
 #[allow(

@@ -39,7 +39,7 @@
 //!
 //! ```text
 //! ET1 <node> <update> <correction> <trim_ppb> <flags> <n> <id>:<diff>:<age> … <crc>
-//! ET1 3 1042 -120 -15320 0 2 2:-4521:100000 4:883:99998 5d0f61a2
+//! ET1 3 1042 -120 -15320 0 2 2:-4521:100000 4:883:99998 26fb1afa
 //! ```
 //!
 //! A line is at most [`MAX_LINE_LEN`] bytes plus the line end; with two neighbours it is

@@ -97,7 +97,7 @@ fn every_emitted_key_is_documented_and_every_documented_key_is_emitted() {
     collect(
         &answer(&[
             "simulate",
-            "examples/courtyard.toml",
+            "examples/footbridge.toml",
             "--runs",
             "1",
             "--telemetry",
@@ -106,10 +106,14 @@ fn every_emitted_key_is_documented_and_every_documented_key_is_emitted() {
         &mut keys,
         &mut strings,
     );
-    let mut field: Vec<String> = vec!["field".into(), "examples/courtyard.toml".into()];
+    let mut field: Vec<String> = vec!["field".into(), "examples/footbridge.toml".into()];
     for e in std::fs::read_dir(&dir).unwrap() {
         field.push(e.unwrap().path().to_str().unwrap().to_owned());
     }
+    // A damaged line, so that the list of refused lines is emitted too.
+    let damaged = logs.path().join("damaged.log");
+    std::fs::write(&damaged, "ET1 1 2 x\n").unwrap();
+    field.push(damaged.to_str().unwrap().to_owned());
     field.extend([
         "--plot".into(),
         logs.path().join("field.svg").to_str().unwrap().to_owned(),

@@ -30,6 +30,15 @@ pub mod assess;
 #[cfg_attr(docsrs, doc(cfg(feature = "beacon")))]
 pub mod beacon;
 mod config;
+#[cfg(feature = "field")]
+#[cfg_attr(docsrs, doc(cfg(feature = "field")))]
+#[allow(
+    clippy::unwrap_used,
+    clippy::expect_used,
+    clippy::panic,
+    clippy::indexing_slicing
+)]
+pub mod field;
 #[cfg(feature = "sim")]
 #[cfg_attr(docsrs, doc(cfg(feature = "sim")))]
 #[allow(
@@ -85,6 +94,9 @@ pub mod scenario;
     clippy::indexing_slicing
 )]
 pub mod sim;
+#[cfg(feature = "telemetry")]
+#[cfg_attr(docsrs, doc(cfg(feature = "telemetry")))]
+pub mod telemetry;
 
 pub use config::{Config, ConfigBuilder, ConfigError, MAX_DELAY_SMOOTHING, MAX_TRIM_LIMIT_PPB};
 pub use gain::{GAIN_FRAC_BITS, Gain};

@@ -535,8 +535,10 @@ impl<const N: usize> Node<N> {
         })
     }
 
-    /// The neighbours in the table as the node sees them now.
-    pub fn links(&self) -> impl Iterator<Item = LinkView> + '_ {
+    /// The neighbours in the table as the node sees them now (for telemetry and
+    /// diagnostics). Read right after [`update`](Node::update), each difference is the
+    /// one the law used minus the step just applied.
+    pub fn links(&self) -> impl Iterator<Item = LinkView> + Clone + '_ {
         let corrections = self.corrections;
         self.table.iter().map(move |e| LinkView {
             id: e.id,

@@ -90,6 +90,36 @@ fn every_emitted_key_is_documented_and_every_documented_key_is_emitted() {
     ] {
         collect(&answer(args), &mut keys, &mut strings);
     }
+    // The field check on the logs `simulate --telemetry` writes.
+    let logs = tempfile::tempdir().unwrap();
+    let dir = logs.path().join("logs");
+    let dir_s = dir.to_str().unwrap();
+    collect(
+        &answer(&[
+            "simulate",
+            "examples/footbridge.toml",
+            "--runs",
+            "1",
+            "--telemetry",
+            dir_s,
+        ]),
+        &mut keys,
+        &mut strings,
+    );
+    let mut field: Vec<String> = vec!["field".into(), "examples/footbridge.toml".into()];
+    for e in std::fs::read_dir(&dir).unwrap() {
+        field.push(e.unwrap().path().to_str().unwrap().to_owned());
+    }
+    // A damaged line, so that the list of refused lines is emitted too.
+    let damaged = logs.path().join("damaged.log");
+    std::fs::write(&damaged, "ET1 1 2 x\n").unwrap();
+    field.push(damaged.to_str().unwrap().to_owned());
+    field.extend([
+        "--plot".into(),
+        logs.path().join("field.svg").to_str().unwrap().to_owned(),
+    ]);
+    let field: Vec<&str> = field.iter().map(String::as_str).collect();
+    collect(&answer(&field), &mut keys, &mut strings);
     let section = json_section();
     let documented = backticked(&section);
 
@@ -103,6 +133,8 @@ fn every_emitted_key_is_documented_and_every_documented_key_is_emitted() {
     let codes: BTreeSet<String> = entrain::assess::Reason::CODES
         .iter()
         .chain(entrain::assess::Warning::CODES)
+        .chain(&entrain::field::FieldReason::CODES)
+        .chain(&entrain::field::FieldWarning::CODES)
         .map(|c| (*c).to_string())
         .collect();
     let unknown: Vec<&String> = documented
@@ -129,6 +161,7 @@ const DOCUMENTED_VALUES: &[&str] = &[
     "simulate",
     "tune",
     "spectrum",
+    "field",
     "kp",
     "ki",
     "kp_and_ki",

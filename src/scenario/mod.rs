@@ -1467,7 +1467,11 @@ fn too_large(path: &Path, what: &str, cap: u64) -> ScenarioError {
 /// Open `path` for reading only if it is a regular file no larger than `cap` bytes.
 /// The type is checked before opening (opening a pipe would wait for a writer) and again
 /// on the opened file.
-fn open_regular(path: &Path, cap: u64, what: &str) -> Result<std::fs::File, ScenarioError> {
+pub(crate) fn open_regular(
+    path: &Path,
+    cap: u64,
+    what: &str,
+) -> Result<std::fs::File, ScenarioError> {
     let refuse = |message: String| whole_file_error(path, message);
     let kind = |m: &std::fs::Metadata| {
         if m.is_dir() {

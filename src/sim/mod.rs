@@ -47,6 +47,7 @@ mod network;
 mod outcome;
 mod settle;
 mod setup;
+mod telemetry;
 mod trace;
 
 pub use error::SimError;
@@ -63,4 +64,5 @@ pub use setup::{
     Beacons, Crystals, Links, MAX_DEGREE, MAX_SIM_NODES, Reboot, Schedule, SettleCriterion, Setup,
     Stamping, StartPhases,
 };
+pub use telemetry::Recorder;
 pub use trace::Trace;

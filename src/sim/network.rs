@@ -37,6 +37,7 @@ use super::settle::{
     SettleTracker, TURN, largest_neighbour_diff, largest_pairwise_diff, winding_number,
 };
 use super::setup::{Crystals, Setup, Stamping, StartPhases};
+use super::telemetry::Recorder;
 use super::trace::Trace;
 use crate::{Config, Node, NodeId, Observation, ObserveError, Phase, Timing, UpdateReport};
 
@@ -185,6 +186,11 @@ pub struct Network<const N: usize> {
     reverse: Vec<usize>,
     /// Lock-step: rounds done.
     rounds: u64,
+    /// Telemetry of every update, when asked ([`Network::record_telemetry`]).
+    recorder: Option<Recorder>,
+    /// Per sender slot (as `targets`), the beacon's success probability where a link's
+    /// own loss was set ([`Network::with_link_loss`]).
+    slot_success: Option<Vec<f64>>,
 }
 
 /// What one sample saw.
@@ -337,7 +343,61 @@ impl<const N: usize> Network<N> {
             delivered: vec![false; slots],
             reverse,
             rounds: 0,
+            recorder: None,
+            slot_success: None,
         })
+    }
+
+    /// Record every node's every update as telemetry (the node-side encoder's binary
+    /// records); take them with [`Network::take_telemetry`].
+    #[must_use]
+    pub fn record_telemetry(mut self) -> Self {
+        self.recorder = Some(Recorder::new(self.stations.len()));
+        self
+    }
+
+    /// The telemetry recorded so far, per node (records back to back); `None` unless
+    /// [`Network::record_telemetry`] was asked. Recording stops.
+    pub fn take_telemetry(&mut self) -> Option<Vec<Vec<u8>>> {
+        self.recorder.take().map(Recorder::into_logs)
+    }
+
+    /// Give the link between nodes `a` and `b` its own beacon loss `loss` (both
+    /// directions) instead of the setup's. The network then steps through the event
+    /// queue.
+    ///
+    /// # Errors
+    /// [`SimError::InvalidParameter`] when `a`–`b` is not a link or `loss` is not in
+    /// `[0, 1]`.
+    pub fn with_link_loss(mut self, a: usize, b: usize, loss: f64) -> Result<Self, SimError> {
+        let refused = SimError::InvalidParameter {
+            name: "link loss",
+            valid: "a link of the network and a loss in [0, 1]",
+        };
+        if !(0.0..=1.0).contains(&loss) {
+            return Err(refused);
+        }
+        let slot = |from: usize, to: usize| {
+            let lo = *self.row_start.get(from)?;
+            let hi = *self.row_start.get(from + 1)?;
+            let at = self
+                .targets
+                .get(lo..hi)?
+                .iter()
+                .position(|&t| usize::from(t) == to)?;
+            Some(lo + at)
+        };
+        let (Some(ab), Some(ba)) = (slot(a, b), slot(b, a)) else {
+            return Err(refused);
+        };
+        let p = self.success_prob;
+        let slots = self
+            .slot_success
+            .get_or_insert_with(|| vec![p; self.targets.len()]);
+        slots[ab] = 1.0 - loss;
+        slots[ba] = 1.0 - loss;
+        self.lock_step = false;
+        Ok(self)
     }
 
     /// Step every scenario through the general event queue, even one that qualifies for
@@ -491,6 +551,9 @@ impl<const N: usize> Network<N> {
         st.timer = Timer::new(st.ppm, ev.at, l0);
         st.next_local = l0 + offset;
         st.alive = true;
+        if let Some(r) = self.recorder.as_mut() {
+            r.reboot(ev.node);
+        }
         let t = st.timer.real_at(st.next_local);
         insert_sorted(&mut self.queue, t, ev.node as u16);
         self.tracker.restart();
@@ -533,7 +596,11 @@ impl<const N: usize> Network<N> {
             UpdateReport::default()
         } else {
             self.stats.node_updates += 1;
-            node.update(local)
+            let report = node.update(local);
+            if let Some(r) = self.recorder.as_mut() {
+                r.record(i, &report, node);
+            }
+            report
         };
         let phase = node.phase();
         self.stats.table_full += full;
@@ -574,17 +641,22 @@ impl<const N: usize> Network<N> {
                 echo,
             )
         });
-        for s in lo..hi {
-            let j = usize::from(self.targets[s]);
+        for slot in lo..hi {
+            let j = usize::from(self.targets[slot]);
             let Some(rx) = self.stations.get(j) else {
                 continue;
             };
             if !rx.alive {
                 continue;
             }
-            let arrive = t + self.latency_sub[s];
+            let arrive = t + self.latency_sub[slot];
             self.stats.beacons_sent += 1;
-            if self.success_prob < 1.0 && self.rng.random::<f64>() >= self.success_prob {
+            let success = self
+                .slot_success
+                .as_ref()
+                .and_then(|v| v.get(slot).copied())
+                .unwrap_or(self.success_prob);
+            if success < 1.0 && self.rng.random::<f64>() >= success {
                 self.stats.beacons_lost += 1;
                 continue;
             }
@@ -603,7 +675,7 @@ impl<const N: usize> Network<N> {
                     phase,
                     arrive,
                     rx_ticks,
-                    delay_ticks: self.told_ticks[s],
+                    delay_ticks: self.told_ticks[slot],
                     timing,
                 });
             }
@@ -649,6 +721,9 @@ impl<const N: usize> Network<N> {
             }
             if !st.reference {
                 let report = st.node.update(local);
+                if let Some(r) = self.recorder.as_mut() {
+                    r.record(i, &report, &st.node);
+                }
                 self.stats.node_updates += 1;
                 self.stats.neighbour_updates += u64::from(report.used);
                 self.stats.slew_limited += u64::from(report.slew_limited);

@@ -337,23 +337,158 @@ pub fn check(r: &Assessment, command: &str) -> String {
     pretty(&Value::Object(check_map(r, command)))
 }
 
-/// JSON of `simulate`: the check object plus the plots written.
+fn paths(list: &[PathBuf]) -> Value {
+    Value::Array(
+        list.iter()
+            .map(|p| json!(p.display().to_string()))
+            .collect(),
+    )
+}
+
+/// JSON of `simulate`: the check object plus the plots and telemetry logs written.
 #[must_use]
-pub fn simulate(r: &Assessment, plots: &[PathBuf], failed: &[String]) -> String {
+pub fn simulate(
+    r: &Assessment,
+    plots: &[PathBuf],
+    failed: &[String],
+    telemetry: &[PathBuf],
+) -> String {
     let mut m = check_map(r, "simulate");
+    m.insert("plots".into(), paths(plots));
     m.insert(
         "plots_failed".into(),
         Value::Array(failed.iter().map(|f| json!(f)).collect()),
     );
+    m.insert("telemetry".into(), paths(telemetry));
+    pretty(&Value::Object(m))
+}
+
+fn pair_json(v: &[(usize, usize)]) -> Value {
+    Value::Array(v.iter().map(|&(a, b)| json!([a, b])).collect())
+}
+
+/// JSON of `field`.
+#[must_use]
+pub fn field(
+    c: &entrain::field::FieldCheck,
+    logs: &entrain::field::LogSet,
+    plot: Option<&Path>,
+) -> String {
+    let a = &c.assessment;
+    let r = &c.report;
+    let p = &a.prediction;
+    let mut m = envelope("field", &a.scenario);
     m.insert(
-        "plots".into(),
+        "verdict".into(),
+        json!({
+            "pass": r.pass(),
+            "reasons": r.reasons.iter().map(|x| json!({"code": x.code(), "message": x.to_string()})).collect::<Vec<_>>(),
+        }),
+    );
+    let l = &r.log;
+    m.insert(
+        "logs".into(),
+        json!({
+            "files": paths(&logs.files),
+            "lines": l.lines,
+            "records": l.records,
+            "other_lines": l.other_lines,
+            "malformed_lines": l.malformed_count,
+            "malformed": l.malformed.iter().map(|x| json!({"file": x.file.display().to_string(), "line": x.line, "message": x.message})).collect::<Vec<_>>(),
+            "duplicates": l.duplicates,
+            "conflicts": l.conflicts,
+            "missing_updates": l.missing_updates,
+            "reboots": l.reboots,
+            "reboots_aligned": l.reboots_aligned,
+            "counter_wraps": l.wraps,
+        }),
+    );
+    let age = |x: Option<entrain::field::AgeStats>| {
+        x.map_or(
+            Value::Null,
+            |x| json!({"p50": num(x.p50_s), "p90": num(x.p90_s), "max": num(x.max_s)}),
+        )
+    };
+    m.insert(
+        "links".into(),
+        json!({
+            "expected": r.links.iter().filter(|k| k.expected).count(),
+            "present": r.links.iter().filter(|k| k.expected && k.heard()).count(),
+            "missing": pair_json(&r.missing),
+            "unexpected": pair_json(&r.unexpected),
+            "each": r.links.iter().map(|k| json!({
+                "a": k.a,
+                "b": k.b,
+                "expected": k.expected,
+                "a_hears_b": k.a_hears_b,
+                "b_hears_a": k.b_hears_a,
+                "loss": opt(k.loss),
+                "intervals": k.intervals,
+                "age_s": age(k.age),
+            })).collect::<Vec<_>>(),
+        }),
+    );
+    m.insert(
+        "nodes".into(),
         Value::Array(
-            plots
+            r.nodes
                 .iter()
-                .map(|p| json!(p.display().to_string()))
+                .map(|n| {
+                    json!({
+                        "id": n.id,
+                        "in_scenario": n.in_scenario,
+                        "records": n.merge.records,
+                        "missing_updates": n.merge.missing,
+                        "reboots": n.merge.reboots,
+                        "trim_ppm": opt(n.trim_ppm),
+                        "crystal_ppm": opt(n.crystal_ppm),
+                        "trim_at_limit": n.trim_at_limit,
+                    })
+                })
                 .collect(),
         ),
     );
+    m.insert(
+        "observed".into(),
+        json!({
+            "rounds": r.rounds,
+            "incomplete_rounds": r.incomplete_rounds,
+            "settle_s": opt(r.settle_s),
+            "noise_floor_s": r.noise_floor_s.map_or(Value::Null, |(a, b)| json!({"p50": num(a), "p99": num(b)})),
+            "noise_floor_limit_s": opt(r.noise_limit_s),
+            "decay": r.decay.map_or(Value::Null, |d| json!({
+                "fitted_per_update": num(d.fitted_per_update),
+                "predicted_per_update": num(d.predicted_per_update),
+                "fitted_time_constant_s": num(d.fitted_time_constant_s),
+                "predicted_time_constant_s": num(d.predicted_time_constant_s),
+                "from_s": num(d.from_s),
+                "to_s": num(d.to_s),
+                "points": d.points,
+            })),
+        }),
+    );
+    m.insert(
+        "predicted".into(),
+        json!({
+            "settle_s": p.settle.map_or(Value::Null, |t| json!({"p50": opt(t.p50_s), "p90": opt(t.p90_s), "compared": num(t.compared_s)})),
+            "noise_floor_s": p.noise_floor.map_or(Value::Null, |n| json!({"p50": num(n.p50_s), "p99": num(n.p99_s)})),
+        }),
+    );
+    m.insert(
+        "warnings".into(),
+        Value::Array(
+            r.warnings
+                .iter()
+                .map(|w| json!({"code": w.code(), "message": w.to_string()}))
+                .collect(),
+        ),
+    );
+    m.insert(
+        "plot".into(),
+        plot.map_or(Value::Null, |p| json!(p.display().to_string())),
+    );
+    m.insert("phase_error".into(), json!(PHASE_ERROR_NOTE));
+    m.insert("caution".into(), json!(CAUTION));
     pretty(&Value::Object(m))
 }
 

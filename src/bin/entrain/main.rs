@@ -103,7 +103,10 @@ enum Sub {
         /// Folder for the SVG plots (created if missing).
         #[arg(long, value_name = "DIR")]
         plots: Option<PathBuf>,
-        /// Write plots through symbolic links (refused otherwise).
+        /// Folder for one telemetry log per node of the first run (created if missing).
+        #[arg(long, value_name = "DIR")]
+        telemetry: Option<PathBuf>,
+        /// Write plots and logs through symbolic links (refused otherwise).
         #[arg(long)]
         force: bool,
         /// Monte-Carlo runs, 1 to 10000 (overrides monte_carlo.runs).
@@ -117,6 +120,24 @@ enum Sub {
         json: bool,
         #[command(flatten)]
         limits: LimitArgs,
+    },
+    /// Hold the telemetry logs of a running network against the scenario's prediction;
+    /// exit 1 when a fault is found.
+    Field {
+        /// Scenario file (TOML).
+        file: PathBuf,
+        /// Telemetry logs (any number; one per node or mixed).
+        #[arg(required = true, value_name = "LOG")]
+        logs: Vec<PathBuf>,
+        /// Write the phase-error plot (SVG) to this file.
+        #[arg(long, value_name = "FILE")]
+        plot: Option<PathBuf>,
+        /// Write the plot through a symbolic link (refused otherwise).
+        #[arg(long)]
+        force: bool,
+        /// Print JSON instead of the report.
+        #[arg(long)]
+        json: bool,
     },
     /// Print the coupling graph's spectrum and the slowest mode's shape.
     Spectrum {
@@ -269,6 +290,7 @@ fn main() -> ExitCode {
         Sub::Simulate {
             file,
             plots,
+            telemetry,
             force,
             runs,
             seed,
@@ -278,6 +300,7 @@ fn main() -> ExitCode {
             Command::Simulate {
                 file,
                 plots,
+                telemetry,
                 runs,
                 seed,
                 limits: limits.limits(force),
@@ -285,6 +308,21 @@ fn main() -> ExitCode {
             json,
         ),
         Sub::Spectrum { file, json } => (Command::Spectrum { file }, json),
+        Sub::Field {
+            file,
+            logs,
+            plot,
+            force,
+            json,
+        } => (
+            Command::Field {
+                file,
+                logs,
+                plot,
+                force,
+            },
+            json,
+        ),
     };
     let format = if json { Format::Json } else { Format::Human };
     let result = if std::io::stderr().is_terminal() {

@@ -736,3 +736,243 @@ pub fn plots_written(s: &mut String, written: &[PathBuf], failed: &[String]) {
         }
     }
 }
+
+/// The telemetry logs written by `simulate --telemetry`.
+pub fn telemetry_written(s: &mut String, written: &[PathBuf]) {
+    if written.is_empty() {
+        return;
+    }
+    heading(s, "Telemetry written (the first run, one log per node)");
+    for p in written {
+        let _ = writeln!(s, "  {}", p.display());
+    }
+}
+
+fn pair_list(v: &[(usize, usize)]) -> String {
+    if v.is_empty() {
+        return "none".to_owned();
+    }
+    v.iter()
+        .map(|(a, b)| format!("{a}–{b}"))
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
+fn opt_seconds(x: Option<f64>) -> String {
+    x.map_or_else(|| "—".to_owned(), seconds)
+}
+
+/// The report of `field`.
+#[must_use]
+pub fn field(c: &entrain::field::FieldCheck, plot: Option<&Path>) -> String {
+    let a = &c.assessment;
+    let r = &c.report;
+    let sc = &a.scenario;
+    let mut s = String::new();
+    header(&mut s, "field", sc);
+    let _ = writeln!(s);
+    if r.pass() {
+        let _ = writeln!(
+            s,
+            "VERDICT: PASS  every link heard, losses and crystals within the scenario, settled within the {} budget, decay and noise floor as predicted",
+            seconds(sc.lock_budget_s)
+        );
+    } else {
+        let _ = writeln!(s, "VERDICT: FAIL");
+        for reason in &r.reasons {
+            let _ = writeln!(s, "  - {}: {reason}", reason.code());
+        }
+    }
+
+    heading(&mut s, "Logs");
+    let l = &r.log;
+    row(
+        &mut s,
+        "files, lines",
+        &format!("{}, {}", l.files, l.lines),
+        &format!("{} other lines skipped", l.other_lines),
+    );
+    row(
+        &mut s,
+        "records kept",
+        &l.records.to_string(),
+        &format!(
+            "{} repeats and {} conflicts dropped, {} updates missing",
+            l.duplicates, l.conflicts, l.missing_updates
+        ),
+    );
+    row(
+        &mut s,
+        "reboots, counter wraps",
+        &format!("{}, {}", l.reboots, l.wraps),
+        &format!(
+            "{} reboots placed by the neighbours' logs",
+            l.reboots_aligned
+        ),
+    );
+    row(
+        &mut s,
+        "malformed lines",
+        &l.malformed_count.to_string(),
+        "telemetry lines refused",
+    );
+    for m in &l.malformed {
+        let _ = writeln!(s, "    {}:{}: {}", m.file.display(), m.line, m.message);
+    }
+    if l.malformed_count > l.malformed.len() {
+        let _ = writeln!(s, "    … {} more", l.malformed_count - l.malformed.len());
+    }
+
+    heading(&mut s, "Links");
+    let expected = r.links.iter().filter(|k| k.expected).count();
+    let present = r.links.iter().filter(|k| k.expected && k.heard()).count();
+    row(
+        &mut s,
+        "present",
+        &format!("{present} of {expected}"),
+        "links of the scenario heard in at least one direction",
+    );
+    row(&mut s, "missing", &pair_list(&r.missing), "");
+    row(&mut s, "unexpected", &pair_list(&r.unexpected), "");
+    let _ = writeln!(
+        s,
+        "  {:<10}{:<10}{:<12}{:<12}{:<14}age p90",
+        "link", "heard", "loss", "intervals", "age p50"
+    );
+    for k in &r.links {
+        let heard = match (k.a_hears_b, k.b_hears_a) {
+            (true, true) => "both",
+            (true, false) => "a hears b",
+            (false, true) => "b hears a",
+            (false, false) => "never",
+        };
+        let mark = if k.expected { "" } else { " (unexpected)" };
+        let _ = writeln!(
+            s,
+            "  {:<10}{:<10}{:<12}{:<12}{:<14}{}{mark}",
+            format!("{}–{}", k.a, k.b),
+            heard,
+            k.loss
+                .map_or_else(|| "—".to_owned(), |x| format!("{:.1} %", x * 100.0)),
+            k.intervals,
+            opt_seconds(k.age.map(|x| x.p50_s)),
+            opt_seconds(k.age.map(|x| x.p90_s)),
+        );
+    }
+
+    heading(&mut s, "Nodes");
+    let _ = writeln!(
+        s,
+        "  {:<8}{:<10}{:<14}{:<18}notes",
+        "node", "records", "trim", "crystal (est.)"
+    );
+    for n in &r.nodes {
+        let mut notes = Vec::new();
+        if !n.in_scenario {
+            notes.push("not in the scenario".to_owned());
+        }
+        if n.merge.records == 0 && n.in_scenario {
+            notes.push("no records".to_owned());
+        }
+        if n.trim_at_limit {
+            notes.push("trim at its limit".to_owned());
+        }
+        if n.merge.reboots > 0 {
+            notes.push(format!("{} reboots", n.merge.reboots));
+        }
+        if n.merge.missing > 0 {
+            notes.push(format!("{} updates missing", n.merge.missing));
+        }
+        let _ = writeln!(
+            s,
+            "  {:<8}{:<10}{:<14}{:<18}{}",
+            n.id,
+            n.merge.records,
+            n.trim_ppm.map_or_else(|| "—".to_owned(), ppm),
+            n.crystal_ppm.map_or_else(|| "—".to_owned(), ppm),
+            notes.join("; ")
+        );
+    }
+
+    heading(&mut s, "Against the prediction");
+    let p = &a.prediction;
+    row(
+        &mut s,
+        "rounds",
+        &format!("{} ({} left out)", r.rounds, r.incomplete_rounds),
+        "update intervals spanned by the logs",
+    );
+    let predicted = p.settle.map_or_else(
+        || "—".to_owned(),
+        |t| format!("p50 {}, p90 {}", opt_seconds(t.p50_s), opt_seconds(t.p90_s)),
+    );
+    row(
+        &mut s,
+        "settling, observed",
+        &opt_seconds(r.settle_s),
+        &format!(
+            "predicted {predicted}; budget {}",
+            seconds(sc.lock_budget_s)
+        ),
+    );
+    row(
+        &mut s,
+        "noise floor, observed",
+        &r.noise_floor_s.map_or_else(
+            || "—".to_owned(),
+            |(a, b)| format!("p50 {}, p99 {}", seconds(a), seconds(b)),
+        ),
+        &format!(
+            "predicted {}; p99 limit {}",
+            p.noise_floor.map_or_else(
+                || "—".to_owned(),
+                |n| format!("p50 {}, p99 {}", seconds(n.p50_s), seconds(n.p99_s))
+            ),
+            opt_seconds(r.noise_limit_s)
+        ),
+    );
+    match &r.decay {
+        Some(d) => {
+            row(
+                &mut s,
+                "decay per update, fitted",
+                &format!("{:.6}", d.fitted_per_update),
+                &format!(
+                    "time constant {}, from {} rounds between {} and {}",
+                    seconds(d.fitted_time_constant_s),
+                    d.points,
+                    seconds(d.from_s),
+                    seconds(d.to_s)
+                ),
+            );
+            row(
+                &mut s,
+                "decay per update, predicted",
+                &format!("{:.6}", d.predicted_per_update),
+                &format!(
+                    "time constant {} (slowest mode, mean dynamics with loss)",
+                    seconds(d.predicted_time_constant_s)
+                ),
+            );
+        }
+        None => row(
+            &mut s,
+            "decay per update, fitted",
+            "—",
+            "no transient to fit",
+        ),
+    }
+    heading(&mut s, "Warnings");
+    if r.warnings.is_empty() {
+        let _ = writeln!(s, "  none");
+    }
+    for w in &r.warnings {
+        let _ = writeln!(s, "  - {w}");
+    }
+    if let Some(p) = plot {
+        heading(&mut s, "Plot written");
+        let _ = writeln!(s, "  {}", p.display());
+    }
+    closing(&mut s);
+    s
+}

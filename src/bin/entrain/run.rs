@@ -77,12 +77,20 @@ pub enum Command {
     Simulate {
         file: PathBuf,
         plots: Option<PathBuf>,
+        telemetry: Option<PathBuf>,
         runs: Option<u32>,
         seed: Option<u64>,
         limits: Limits,
     },
     /// Print the spectrum and the slowest mode.
     Spectrum { file: PathBuf },
+    /// Hold telemetry logs against the scenario; optionally write the plot.
+    Field {
+        file: PathBuf,
+        logs: Vec<PathBuf>,
+        plot: Option<PathBuf>,
+        force: bool,
+    },
 }
 
 /// Default limit on a Monte Carlo's estimated duration, minutes (`--max-minutes`).
@@ -106,14 +114,63 @@ impl Limits {
     }
 
     fn policy(&self, scenario: &Scenario) -> WritePolicy {
-        let edges = match &scenario.layout {
-            entrain::scenario::Layout::EdgeList { path, .. } => Some(path.as_path()),
-            entrain::scenario::Layout::Topology(_) => None,
-        };
         WritePolicy::new(
-            std::iter::once(scenario.path.as_path()).chain(edges),
+            std::iter::once(scenario.path.as_path()).chain(edge_list(scenario)),
             self.force,
         )
+    }
+}
+
+/// The scenario's edge-list file, if it has one.
+fn edge_list(scenario: &Scenario) -> Option<&Path> {
+    match &scenario.layout {
+        entrain::scenario::Layout::EdgeList { path, .. } => Some(path.as_path()),
+        entrain::scenario::Layout::Topology(_) => None,
+    }
+}
+
+/// One telemetry log per node of the Monte Carlo's first run, `node-<id>.log` in `dir`
+/// (a pinned chain's reference runs no law and logs nothing).
+fn write_telemetry(
+    a: &Assessment,
+    dir: &Path,
+    policy: &WritePolicy,
+) -> Result<Vec<PathBuf>, CliError> {
+    let Some(v) = &a.simulation else {
+        return Ok(Vec::new());
+    };
+    let logs = entrain::field::simulate_logs(&a.scenario, &v.setup, v.seed, 0, &[])?;
+    let mut written = Vec::new();
+    for (id, text) in logs.iter().enumerate() {
+        if text.is_empty() {
+            continue;
+        }
+        let path = dir.join(format!("node-{id}.log"));
+        policy.write(&path, text.as_bytes())?;
+        written.push(path);
+    }
+    Ok(written)
+}
+
+/// The field plot's figures from a field check.
+fn field_plot(c: &entrain::field::FieldCheck) -> plot::FieldPlot {
+    let a = &c.assessment;
+    let r = &c.report;
+    let s = &a.scenario;
+    plot::FieldPlot {
+        title: format!("{}: phase error reconstructed from the logs", s.name),
+        error_s: r.error_s.clone(),
+        settle_s: r.settle_s,
+        tolerance_s: s.lock_tolerance_s,
+        budget_s: s.lock_budget_s,
+        predicted_floor_s: a.prediction.noise_floor.map(|n| (n.p50_s, n.p99_s)),
+        decay: r.decay.map(|d| plot::DecayLines {
+            from_s: d.from_s,
+            to_s: d.to_s,
+            start_error_s: d.start_error_s,
+            fitted_per_s: d.fitted_per_update.ln() * s.update_rate_hz,
+            predicted_per_s: d.predicted_per_update.ln() * s.update_rate_hz,
+        }),
     }
 }
 
@@ -232,14 +289,15 @@ pub fn run(
         Command::Simulate {
             file,
             plots,
+            telemetry,
             runs,
             seed,
             limits,
         } => {
             let scenario = Scenario::load(file)?;
             let policy = limits.policy(&scenario);
-            // Before the Monte Carlo, not after it: the folder must take the plots.
-            if let Some(dir) = plots {
+            // Before the Monte Carlo, not after it: the folders must take the files.
+            for dir in plots.iter().chain(telemetry) {
                 policy.check_dir(dir)?;
             }
             let mut options = limits.options(&scenario);
@@ -254,13 +312,18 @@ pub fn run(
                 Some(dir) => write_plots(&a, dir, &policy)?,
                 None => (Vec::new(), Vec::new()),
             };
+            let logs = match telemetry {
+                Some(dir) => write_telemetry(&a, dir, &policy)?,
+                None => Vec::new(),
+            };
             let stdout = match format {
                 Format::Human => {
                     let mut s = report::check(&a, "simulate");
                     report::plots_written(&mut s, &written, &failed);
+                    report::telemetry_written(&mut s, &logs);
                     s
                 }
-                Format::Json => json::simulate(&a, &written, &failed),
+                Format::Json => json::simulate(&a, &written, &failed, &logs),
             };
             // A plot asked for and not made is an output error, after the report.
             Ok(Output {
@@ -282,6 +345,40 @@ pub fn run(
             Ok(Output {
                 stdout,
                 status: EXIT_PASS,
+            })
+        }
+        Command::Field {
+            file,
+            logs,
+            plot: plot_file,
+            force,
+        } => {
+            let scenario = Scenario::load(file)?;
+            let policy = WritePolicy::new(
+                std::iter::once(scenario.path.as_path())
+                    .chain(edge_list(&scenario))
+                    .chain(logs.iter().map(PathBuf::as_path)),
+                *force,
+            );
+            let mut set = entrain::field::LogSet::new();
+            for log in logs {
+                set.load(log).map_err(|e| CliError::Usage(e.to_string()))?;
+            }
+            let check = entrain::field::field_check(scenario, &set)?;
+            let mut written = None;
+            if let Some(path) = plot_file {
+                let out = |e: plot::PlotError| std::io::Error::other(e.message);
+                let p = field_plot(&check);
+                policy.write_with(path, |temp| plot::field(temp, &p).map_err(out))?;
+                written = Some(path.clone());
+            }
+            let stdout = match format {
+                Format::Human => report::field(&check, written.as_deref()),
+                Format::Json => json::field(&check, &set, written.as_deref()),
+            };
+            Ok(Output {
+                stdout,
+                status: status(check.report.pass()),
             })
         }
         Command::Tune { file, out, limits } => {

@@ -6,11 +6,13 @@
 //! histogram bins ([`histogram::bins`]) and the drawing layout of a graph.
 
 pub mod canvas;
+pub mod field;
 pub mod histogram;
 pub mod mode;
 pub mod palette;
 pub mod phase;
 
+pub use field::{DecayLines, FieldPlot, field};
 pub use histogram::{LockHistogram, lock_histogram};
 pub use mode::{ModeLayout, ModePlot, mode_shape};
 pub use phase::{Envelope, PhaseErrorPlot, RunTrace, phase_error};

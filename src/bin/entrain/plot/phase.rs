@@ -70,7 +70,7 @@ pub struct PhaseErrorPlot {
 /// Keep, per pixel column, the lowest and highest point in the order they occur (min/max
 /// decimation, common practice): the drawn line keeps every swing and the file stays
 /// small however long the run.
-fn decimate(points: impl Iterator<Item = (f64, f64)>) -> Vec<(f64, f64)> {
+pub(super) fn decimate(points: impl Iterator<Item = (f64, f64)>) -> Vec<(f64, f64)> {
     // Per column: (column, (index, point) of the largest y, (index, point) of the
     // smallest y).
     type Column = (i64, (usize, (f64, f64)), (usize, (f64, f64)));

@@ -112,7 +112,10 @@ impl SavedWindow {
 /// its own uncorrected, untrimmed run by at most `k · slew_limit` counts plus the
 /// trim's share, `trim_limit_ppb · 10⁻⁹ · t` ticks' worth of phase. Replaying the
 /// liar's old frames gains it nothing more: the window refuses them. (Tested in
-/// `tests/beacon_port.rs`.)
+/// `tests/beacon_port.rs`.) Version 2 gives a liar no more reach: its send stamp and
+/// echo only make samples of the delay of its own link (the node keeps a delay per
+/// neighbour, and a frame from one neighbour changes only that neighbour's), so a false
+/// echo shifts where the node places the liar, which a false phase does already.
 ///
 /// That bound is per update. Held up for good, the liar's pull settles against the honest
 /// neighbours' at a steady displacement: with `h` honest neighbours that hold still and

@@ -44,7 +44,10 @@ fuzz_target!(|bytes: &[u8]| {
                 &bytes[30..38]
             }
         };
-        assert_eq!(beacon.frame().from, u16::from_le_bytes([bytes[2], bytes[3]]));
+        assert_eq!(
+            beacon.frame().from,
+            u16::from_le_bytes([bytes[2], bytes[3]])
+        );
         if tag.iter().all(|&b| b == 0) {
             let mut out = [0u8; FRAME_V2_LEN];
             let n = beacon.encode(&mut out).unwrap();

@@ -165,7 +165,11 @@ fuzz_target!(|input: Input| {
                 (frame.to_bytes_signed(key).to_vec(), *rx_step, *delay)
             }
             Op::Version { v2 } => {
-                port.set_send_version(if *v2 { FrameVersion::V2 } else { FrameVersion::V1 });
+                port.set_send_version(if *v2 {
+                    FrameVersion::V2
+                } else {
+                    FrameVersion::V1
+                });
                 continue;
             }
             Op::Update { step } => {

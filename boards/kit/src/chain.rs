@@ -249,7 +249,9 @@ pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
         .leak(Gain::from_q16(a.leak_q16))
         .delay_smoothing(a.smoothing)
         .trim_limit_ppb(a.trim_limit_ppm.saturating_mul(1_000))
-        .slew_limit(((u64::from(a.slew_us) << 32) / u64::from(PERIOD_TICKS)).min(i32::MAX as u64) as u32)
+        .slew_limit(
+            ((u64::from(a.slew_us) << 32) / u64::from(PERIOD_TICKS)).min(i32::MAX as u64) as u32,
+        )
         .build()
     else {
         hprintln!("chain: gains refused (0 < ki < kp, leak < ki or 0)");

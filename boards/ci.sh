@@ -12,7 +12,8 @@
 #   5. the size probe and the sync-pulse demo run (pulse logs decoded when defmt-print
 #      is installed);
 #   6. the cost tables (instructions per update, per law and neighbour count);
-#   7. the chain of five emulated nodes locks;
+#   7. the chain of five emulated nodes locks under the P law with version-2 beacons and
+#      no latency told; the PI-law run is reported (gating with CHAIN_PI_GATES=1);
 #   8. the figures in boards/README.md (digests, sizes, cost tables: all deterministic
 #      under -icount) are the ones this run printed (BOARDS_UPDATE_README=1 rewrites them).
 # environment: BOARDS_TARGET_DIR (default boards/target), HOST_TARGET_DIR (default
@@ -144,8 +145,22 @@ step "cost of Node::update (instructions, -icount shift=0)"
 qemu_m4 "$m4/cost" | record
 qemu_m0 "$m0/cost" | record
 
-step "chain of emulated nodes"
-"$here/run-chain.sh" "$m4/chain"
+step "chain of emulated nodes, P law, version-2 beacons, no latency told"
+KI_Q16=0 "$here/run-chain.sh" "$m4/chain"
+
+# The PI law over the same links (issue 12): reported; it gates only with
+# CHAIN_PI_GATES=1, because on a loaded 2-core host the emulated links' jitter moves
+# the trims by far more than 5 ppm (see README.md, "The chain").
+step "chain of emulated nodes, PI law with a trim leak, version-2 beacons, no latency told"
+pi_status=0
+KI_Q16=${CHAIN_KI_Q16:-128} SMOOTHING=${CHAIN_SMOOTHING:-5} RUN_MS=${CHAIN_PI_RUN_MS:-60000} \
+    "$here/run-chain.sh" "$m4/chain" || pi_status=$?
+if (( pi_status != 0 )); then
+    if [[ ${CHAIN_PI_GATES:-0} == 1 ]]; then
+        exit "$pi_status"
+    fi
+    echo "chain: the PI run above did not pass; not gating (set CHAIN_PI_GATES=1 to gate on it)"
+fi
 
 step "figures in boards/README.md are the ones printed above"
 "$here/readme-figures.sh" "$figures" "$here/README.md"

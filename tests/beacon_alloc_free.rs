@@ -2,7 +2,7 @@
 //! refusal), signing and verifying, across thousands of frames, make zero allocations.
 #![cfg(feature = "beacon")]
 
-use entrain::beacon::{BeaconPort, FRAME_LEN, Flags, Frame};
+use entrain::beacon::{Beacon, BeaconPort, Flags, Frame, FrameV2, MAX_FRAME_LEN};
 use entrain::{Config, Node, Phase};
 use std::alloc::{GlobalAlloc, Layout, System};
 use std::cell::Cell;
@@ -68,7 +68,8 @@ fn send_and_receive_allocate_nothing() {
     assert_eq!(COUNT.swap(0, Ordering::Relaxed), 1);
     drop(probe);
 
-    let mut wire = [0u8; FRAME_LEN];
+    let mut wire = [0u8; MAX_FRAME_LEN];
+    let mut len = 0;
     let mut accepted = 0u32;
     let mut refused = 0u32;
     watch(true);
@@ -76,7 +77,7 @@ fn send_and_receive_allocate_nothing() {
         let t = k.wrapping_mul(33_331);
         let sender = (k % 3) as usize;
         if let Some(p) = ports.get_mut(sender) {
-            p.send(t, &mut wire).unwrap();
+            len = p.send(t, &mut wire).unwrap().wire_len();
         }
         for (i, p) in ports.iter_mut().enumerate() {
             if i == sender {
@@ -84,12 +85,12 @@ fn send_and_receive_allocate_nothing() {
             }
             // The frame, a damaged copy, a duplicate, and noise.
             let mut damaged = wire;
-            damaged[(k as usize) % FRAME_LEN] ^= 0x20;
+            damaged[(k as usize) % len] ^= 0x20;
             for bytes in [
-                &wire[..],
-                &damaged[..],
-                &wire[..],
-                &wire[..k as usize % FRAME_LEN],
+                &wire[..len],
+                &damaged[..len],
+                &wire[..len],
+                &wire[..k as usize % len],
             ] {
                 match p.receive(bytes, t.wrapping_add(40), 40) {
                     Ok(_) => accepted += 1,
@@ -111,6 +112,12 @@ fn send_and_receive_allocate_nothing() {
             }
             .to_bytes_signed(&key);
             let _ = Frame::decode_verified(&signed, &key);
+            let signed = FrameV2 {
+                tx_ticks: k,
+                ..FrameV2::default()
+            }
+            .to_bytes_signed(&key);
+            let _ = Beacon::decode_verified(&signed, &key);
         }
         let plain = Frame {
             flags: Flags::PINNED,

@@ -2,7 +2,9 @@
 //! replay windows across sequence wrap, and the fault bound of a lying key holder.
 #![cfg(feature = "beacon")]
 
-use entrain::beacon::{Accepted, BeaconPort, FRAME_LEN, Flags, Frame, RejectKind};
+use entrain::beacon::{
+    Accepted, Beacon, BeaconPort, FRAME_LEN, FRAME_V2_LEN, Flags, Frame, RejectKind,
+};
 use entrain::{Config, Law, Node, NodeId, Observation, Phase};
 use proptest::prelude::*;
 
@@ -55,8 +57,8 @@ fn expect_refused<const N: usize>(p: &mut BeaconPort<N>, bytes: &[u8], rx: u32, 
 fn a_beacon_pulls_the_receiver_toward_the_sender() {
     let mut a: BeaconPort<2> = port(1, 0.0);
     let mut b: BeaconPort<2> = port(2, 0.05);
-    let mut wire = [0u8; FRAME_LEN];
-    let sent = b.send(50_000, &mut wire).unwrap();
+    let mut wire = [0u8; FRAME_V2_LEN];
+    let sent = *b.send(50_000, &mut wire).unwrap().frame();
     assert_eq!(sent.phase_counts, b.node().phase_at(50_000).counts());
     assert_eq!(sent.seq, 0);
     assert_eq!(b.next_seq(), 1);
@@ -86,9 +88,10 @@ fn send_fills_phase_trim_flags_and_sequence() {
     let mut a: BeaconPort<2> = port(9, 0.25);
     a.node_mut().set_trim_ppb(-12_000);
     a.set_flags(Flags::PINNED);
-    let mut wire = [0u8; FRAME_LEN + 4];
-    let f = a.send(123_456, &mut wire).unwrap();
-    assert_eq!(Frame::decode(&wire[..FRAME_LEN]), Ok(f));
+    let mut wire = [0u8; FRAME_V2_LEN + 4];
+    let sent = a.send(123_456, &mut wire).unwrap();
+    assert_eq!(Beacon::decode(&wire[..FRAME_V2_LEN]), Ok(sent));
+    let f = *sent.frame();
     assert_eq!(f.from, 9);
     assert_eq!(f.trim_ppb, a.node().trim_ppb());
     // The node stores trim in Q32.32 counts per tick and reads it back rounded toward
@@ -98,11 +101,11 @@ fn send_fills_phase_trim_flags_and_sequence() {
     // No neighbour yet: ISOLATED is added to the port's own flags.
     assert_eq!(f.flags, Flags::PINNED | Flags::ISOLATED);
     a.receive(&frame_bytes(3, 0, 0), 123_500, 0).unwrap();
-    let f = a.send(130_000, &mut wire).unwrap();
+    let f = *a.send(130_000, &mut wire).unwrap().frame();
     assert_eq!(f.flags, Flags::PINNED);
     assert_eq!(f.seq, 1);
 
-    let mut short = [0u8; FRAME_LEN - 1];
+    let mut short = [0u8; FRAME_V2_LEN - 1];
     assert!(a.send(140_000, &mut short).is_err());
     assert_eq!(a.next_seq(), 2, "a failed send keeps its sequence number");
 }
@@ -119,9 +122,13 @@ fn each_refusal_changes_only_its_counter() {
     let mut long = good.to_vec();
     long.push(0);
     expect_refused(&mut a, &long, 3_000, RejectKind::TooLong);
+    let mut v3 = good;
+    v3[0] = 3;
+    expect_refused(&mut a, &v3, 3_000, RejectKind::UnsupportedVersion);
+    // A version-1 frame's bytes under a version-2 byte are too short for version 2.
     let mut v2 = good;
     v2[0] = 2;
-    expect_refused(&mut a, &v2, 3_000, RejectKind::UnsupportedVersion);
+    expect_refused(&mut a, &v2, 3_000, RejectKind::TooShort);
     let mut flipped = good;
     flipped[10] ^= 0x04;
     expect_refused(&mut a, &flipped, 3_000, RejectKind::BadCheck);
@@ -141,7 +148,7 @@ fn each_refusal_changes_only_its_counter() {
     // The good frame is still taken afterwards: nothing above consumed its number.
     assert!(a.receive(&good, 6_000, 0).is_ok());
     assert_eq!(a.accepted_count(), 4);
-    assert_eq!(a.rejects().total(), 10);
+    assert_eq!(a.rejects().total(), 11);
 }
 
 #[test]
@@ -190,10 +197,10 @@ fn sequence_wrap_is_just_the_next_frame() {
     let mut a: BeaconPort<2> = port(1, 0.0);
     let mut b: BeaconPort<2> =
         BeaconPort::new(Node::new(config(), Phase::ZERO, 0), 2, u32::MAX - 2);
-    let mut wire = [0u8; FRAME_LEN];
+    let mut wire = [0u8; FRAME_V2_LEN];
     let mut seqs = Vec::new();
     for k in 0..6u32 {
-        let f = b.send(k * 1_000, &mut wire).unwrap();
+        let f = *b.send(k * 1_000, &mut wire).unwrap().frame();
         seqs.push(f.seq);
         let r = a.receive(&wire, k * 1_000 + 10, 10).unwrap();
         let want = if k == 0 {
@@ -401,11 +408,11 @@ mod authenticated {
         tx: &mut BeaconPort<3>,
         rx: &mut BeaconPort<3>,
         mut save: impl FnMut(usize, &BeaconPort<3>),
-    ) -> Vec<[u8; FRAME_LEN]> {
+    ) -> Vec<[u8; FRAME_V2_LEN]> {
         (0..10)
             .map(|k| {
                 let t = 100_000 * k as u32;
-                let mut wire = [0u8; FRAME_LEN];
+                let mut wire = [0u8; FRAME_V2_LEN];
                 tx.send(t, &mut wire).unwrap();
                 rx.node_mut().update(t);
                 rx.receive(&wire, t + 100, 100).unwrap();
@@ -468,8 +475,8 @@ mod authenticated {
             (11, 1_100_000, false),
             (12, 1_200_000, true),
         ] {
-            let mut wire = [0u8; FRAME_LEN];
-            let sent = tx.send(t, &mut wire).unwrap();
+            let mut wire = [0u8; FRAME_V2_LEN];
+            let sent = *tx.send(t, &mut wire).unwrap().frame();
             assert_eq!(sent.seq, seq);
             rebooted.node_mut().update(t);
             assert_eq!(
@@ -509,8 +516,10 @@ mod authenticated {
         let mut plain: BeaconPort<3> = port(4, 0.3);
         assert!(a.is_authenticated() && !plain.is_authenticated());
 
-        let mut wire = [0u8; FRAME_LEN];
-        let sent = b.send(1_000, &mut wire).unwrap();
+        let mut wire = [0u8; FRAME_V2_LEN];
+        let Beacon::V2(sent) = b.send(1_000, &mut wire).unwrap() else {
+            panic!("a port sends version 2 by default");
+        };
         assert_eq!(wire, sent.to_bytes_signed(&KEY));
         assert!(a.receive(&wire, 1_100, 100).is_ok());
 

@@ -1,15 +1,22 @@
-//! Sequences of received frames (arbitrary bytes, and well-formed signed frames with
-//! arbitrary fields under the right or a wrong key), updates, sends and forgets, against
-//! one keyed beacon port.
+//! Sequences of received frames (arbitrary bytes, and well-formed signed frames of
+//! version 1 and 2 with arbitrary fields — version 2 with arbitrary send stamps and
+//! echoes, for this port or another — under the right or a wrong key), updates, sends in
+//! either version and forgets, against one keyed beacon port.
 //!
 //! Checks besides "never panics": a refused frame leaves the node and every replay
 //! window as they were; every receive is counted exactly once; an accepted frame is never
 //! a byte-for-byte repeat of one accepted while its sender kept its window and moved its
 //! sequence on by at most 2^31; each update
-//! steps the phase by at most the slew limit and keeps the trim within its limit.
+//! steps the phase by at most the slew limit and keeps the trim within its limit; an
+//! accepted frame hands the node the timing its version carries (version 2: the send
+//! stamp, the sender's trim, and the echo only when it is for this port); a sent frame
+//! is of the port's version and its echo is the node's own for that neighbour.
 #![no_main]
 
-use entrain::beacon::{Accepted, BeaconPort, FRAME_LEN, Flags, Frame, NetworkKey};
+use entrain::beacon::{
+    Accepted, Beacon, BeaconPort, Flags, Frame, FrameEcho, FrameV2, FrameVersion, MAX_FRAME_LEN,
+    NetworkKey,
+};
 use entrain::{Config, Law, Node, Phase};
 use libfuzzer_sys::arbitrary::{self, Arbitrary};
 use libfuzzer_sys::fuzz_target;
@@ -35,6 +42,23 @@ enum Op {
         right_key: bool,
         rx_step: u16,
         delay: u16,
+    },
+    SignedV2 {
+        from: u8,
+        seq: u32,
+        phase: u32,
+        trim_ppb: i32,
+        flags: u8,
+        tx_ticks: u32,
+        echo_to: u8,
+        echo_tx: u32,
+        echo_held: u32,
+        right_key: bool,
+        rx_step: u16,
+        delay: u16,
+    },
+    Version {
+        v2: bool,
     },
     Update {
         step: u32,
@@ -77,9 +101,9 @@ fuzz_target!(|input: Input| {
     let mut calls = 0u32;
     // Frames accepted so far, with how far their sender's newest sequence number had
     // advanced (in total, per sender) when each was accepted.
-    let mut accepted: Vec<([u8; FRAME_LEN], u64)> = Vec::new();
+    let mut accepted: Vec<(Vec<u8>, u64)> = Vec::new();
     let mut advance = [0u64; 8];
-    let mut out = [0u8; FRAME_LEN];
+    let mut out = [0u8; MAX_FRAME_LEN];
     for op in input.ops.iter().take(256) {
         let (bytes, rx_step, delay) = match op {
             Op::Raw {
@@ -107,6 +131,47 @@ fuzz_target!(|input: Input| {
                 let key = if *right_key { &KEY } else { &WRONG_KEY };
                 (frame.to_bytes_signed(key).to_vec(), *rx_step, *delay)
             }
+            Op::SignedV2 {
+                from,
+                seq,
+                phase,
+                trim_ppb,
+                flags,
+                tx_ticks,
+                echo_to,
+                echo_tx,
+                echo_held,
+                right_key,
+                rx_step,
+                delay,
+            } => {
+                let frame = FrameV2 {
+                    base: Frame {
+                        from: u16::from(*from % 8),
+                        seq: *seq,
+                        phase_counts: *phase,
+                        trim_ppb: *trim_ppb,
+                        flags: Flags::from_bits(*flags),
+                    },
+                    tx_ticks: *tx_ticks,
+                    // Targets 0..4: this port (id 0) or another.
+                    echo: FrameEcho {
+                        to: u16::from(*echo_to % 4),
+                        tx_ticks: *echo_tx,
+                        held_ticks: *echo_held,
+                    },
+                };
+                let key = if *right_key { &KEY } else { &WRONG_KEY };
+                (frame.to_bytes_signed(key).to_vec(), *rx_step, *delay)
+            }
+            Op::Version { v2 } => {
+                port.set_send_version(if *v2 {
+                    FrameVersion::V2
+                } else {
+                    FrameVersion::V1
+                });
+                continue;
+            }
             Op::Update { step } => {
                 now = now.wrapping_add(step % 1_000_000);
                 let report = port.node_mut().update(now);
@@ -117,12 +182,25 @@ fuzz_target!(|input: Input| {
             Op::Send { step } => {
                 let tx = now.wrapping_add(u32::from(*step));
                 let before = port.next_seq();
-                let frame = port
+                let beacon = port
                     .send(tx, &mut out)
                     .expect("a full-size buffer always takes a frame");
-                assert_eq!(frame.seq, before);
+                assert_eq!(beacon.frame().seq, before);
+                assert_eq!(beacon.version(), port.send_version());
                 assert_eq!(port.next_seq(), before.wrapping_add(1));
-                assert_eq!(Frame::decode_verified(&out, &KEY), Ok(frame));
+                let len = beacon.wire_len();
+                assert_eq!(Beacon::decode_verified(&out[..len], &KEY), Ok(beacon));
+                if let Beacon::V2(f) = beacon {
+                    assert_eq!(f.tx_ticks, tx);
+                    if f.echo.is_echo() {
+                        assert_eq!(
+                            port.node().echo_for(f.echo.to, tx),
+                            f.echo.for_node(f.echo.to)
+                        );
+                    } else {
+                        assert_eq!(f.echo, FrameEcho::NONE);
+                    }
+                }
                 continue;
             }
             Op::Forget { id } => {
@@ -136,11 +214,12 @@ fuzz_target!(|input: Input| {
         calls += 1;
         match port.receive(&bytes, rx, u32::from(delay)) {
             Ok(r) => {
-                assert_eq!(Frame::decode_verified(&bytes, &KEY), Ok(r.frame));
-                let arr: [u8; FRAME_LEN] = bytes
-                    .as_slice()
-                    .try_into()
-                    .expect("accepted frames are one frame long");
+                let beacon = Beacon::decode_verified(&bytes, &KEY)
+                    .expect("an accepted frame verifies under the key");
+                assert_eq!(*beacon.frame(), r.frame);
+                assert_eq!(r.timing, beacon.timing_for(0));
+                assert_eq!(bytes.len(), beacon.wire_len());
+                let arr = bytes.clone();
                 let from = r.frame.from;
                 let Some(adv) = advance.get_mut(usize::from(from)) else {
                     // Only ids 0..8 are ever signed with the key here.

@@ -1,13 +1,17 @@
-//! The version-1 frame codec: fields to bytes and back, with the CRC-32C check.
+//! The version-1 frame codec: fields to bytes and back, with the CRC-32C check; the
+//! checked split of a frame of either version into header and tag.
 
 use core::fmt;
 
 use super::Flags;
 #[cfg(feature = "mac")]
 use super::NetworkKey;
+use super::frame_v2::{FRAME_V2_LEN, VERSION_2};
 use crate::{NodeId, Phase};
 
-/// The frame format version this code writes and the only one it reads.
+/// The version byte of a version-1 frame, the only version [`Frame::decode`] reads
+/// ([`Beacon::decode`](super::Beacon::decode) reads version 1 and
+/// [`VERSION_2`](super::VERSION_2)).
 pub const VERSION: u8 = 1;
 /// Bytes in a version-1 frame.
 pub const FRAME_LEN: usize = 28;
@@ -15,8 +19,8 @@ pub const FRAME_LEN: usize = 28;
 pub const HEADER_LEN: usize = 16;
 /// Bytes in the authentication tag (bytes 16..24; all zero when unauthenticated).
 pub const TAG_LEN: usize = 8;
-/// Bytes the CRC covers: header and tag.
-const CHECKED_LEN: usize = HEADER_LEN + TAG_LEN;
+/// Bytes of the CRC-32C check field, last in a frame of either version.
+pub(crate) const CHECK_LEN: usize = 4;
 
 /// CRC-32C (`CRC-32/ISCSI` in the published CRC catalogue): poly 0x1EDC6F41, reflected,
 /// init and xorout 0xFFFFFFFF. Byte-wise table of 256 words (1 KiB of flash).
@@ -46,27 +50,33 @@ pub struct Frame {
     pub flags: Flags,
 }
 
-/// Why bytes are not a valid version-1 frame.
+/// Why bytes are not a valid frame (of version 1, or with [`Beacon`](super::Beacon) of
+/// either version).
 #[non_exhaustive]
 #[derive(Clone, Copy, PartialEq, Eq, Hash, Debug)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub enum DecodeError {
-    /// Fewer than [`FRAME_LEN`] bytes (a cut-off frame; `len` is what arrived).
+    /// Fewer bytes than a frame of the version byte's version ([`FRAME_LEN`],
+    /// [`FRAME_V2_LEN`](super::FRAME_V2_LEN)), or none at all (a cut-off frame; `len`
+    /// is what arrived).
     TooShort {
         /// Bytes received.
         len: usize,
     },
-    /// More than [`FRAME_LEN`] bytes with a version-1 version byte.
+    /// More bytes than a frame of the version byte's version.
     TooLong {
         /// Bytes received.
         len: usize,
     },
-    /// Byte 0 names a version this decoder does not read (only [`VERSION`] is read).
+    /// Byte 0 names a version this decoder does not read ([`Frame::decode`] reads only
+    /// [`VERSION`]; [`Beacon::decode`](super::Beacon::decode) reads it and
+    /// [`VERSION_2`](super::VERSION_2)).
     UnsupportedVersion {
         /// The version byte found.
         found: u8,
     },
-    /// The CRC-32C over bytes 0..24 does not match bytes 24..28: the frame was damaged.
+    /// The CRC-32C over all bytes but the last four does not match them: the frame was
+    /// damaged.
     BadCheck,
     /// The check matched but the authentication tag did not: the frame was not made with
     /// this network key (produced only by the `mac` feature's verified decode).
@@ -78,15 +88,15 @@ impl fmt::Display for DecodeError {
         match *self {
             DecodeError::TooShort { len } => write!(
                 f,
-                "beacon frame too short: {len} bytes, a version-{VERSION} frame is exactly {FRAME_LEN}"
+                "beacon frame too short: {len} bytes, a version-{VERSION} frame is exactly {FRAME_LEN} and a version-{VERSION_2} frame {FRAME_V2_LEN}"
             ),
             DecodeError::TooLong { len } => write!(
                 f,
-                "beacon frame too long: {len} bytes, a version-{VERSION} frame is exactly {FRAME_LEN}"
+                "beacon frame too long: {len} bytes, a version-{VERSION} frame is exactly {FRAME_LEN} and a version-{VERSION_2} frame {FRAME_V2_LEN}"
             ),
             DecodeError::UnsupportedVersion { found } => write!(
                 f,
-                "beacon frame version {found} is not supported, this decoder reads version {VERSION} only"
+                "beacon frame version {found} is not supported: frames of version {VERSION} and {VERSION_2} are read (the version-1 decoder `Frame::decode` reads version {VERSION} only)"
             ),
             DecodeError::BadCheck => {
                 f.write_str("beacon frame CRC-32C check failed: the frame was damaged")
@@ -105,7 +115,8 @@ impl core::error::Error for DecodeError {}
 #[derive(Clone, Copy, PartialEq, Eq, Hash, Debug)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub enum EncodeError {
-    /// The output buffer holds fewer than [`FRAME_LEN`] bytes.
+    /// The output buffer holds fewer bytes than the frame ([`FRAME_LEN`] for version 1,
+    /// [`FRAME_V2_LEN`](super::FRAME_V2_LEN) for version 2).
     BufferTooSmall {
         /// Bytes the buffer holds.
         len: usize,
@@ -117,7 +128,7 @@ impl fmt::Display for EncodeError {
         match *self {
             EncodeError::BufferTooSmall { len } => write!(
                 f,
-                "beacon output buffer too small: {len} bytes, a frame needs {FRAME_LEN}"
+                "beacon output buffer too small: {len} bytes, a version-{VERSION} frame needs {FRAME_LEN} and a version-{VERSION_2} frame {FRAME_V2_LEN}"
             ),
         }
     }
@@ -158,7 +169,7 @@ impl Frame {
     }
 
     /// The fields of a header; the version byte is not looked at.
-    const fn from_header(header: &[u8; HEADER_LEN]) -> Frame {
+    pub(crate) const fn from_header(header: &[u8; HEADER_LEN]) -> Frame {
         let [
             _,
             flags,
@@ -188,14 +199,7 @@ impl Frame {
 
     /// The whole frame with the given tag bytes and a fresh check.
     fn assemble(&self, tag: [u8; TAG_LEN]) -> [u8; FRAME_LEN] {
-        let mut out = [0u8; FRAME_LEN];
-        let (checked, check) = out.split_at_mut(CHECKED_LEN);
-        let (header, tag_field) = checked.split_at_mut(HEADER_LEN);
-        header.copy_from_slice(&self.header());
-        tag_field.copy_from_slice(&tag);
-        let crc = crc32c(checked);
-        check.copy_from_slice(&crc.to_le_bytes());
-        out
+        assemble(&self.header(), tag)
     }
 
     /// The unauthenticated frame (tag all zero) as bytes.
@@ -215,7 +219,7 @@ impl Frame {
     /// `decode_verified` with feature `mac`), so this is what a receiver without the key,
     /// or a bus monitor, uses.
     pub fn decode(bytes: &[u8]) -> Result<Frame, DecodeError> {
-        let (header, _tag) = checked_parts(bytes)?;
+        let (header, _tag) = checked_parts::<FRAME_LEN, HEADER_LEN>(bytes, VERSION)?;
         Ok(Frame::from_header(header))
     }
 
@@ -237,7 +241,7 @@ impl Frame {
     /// [`DecodeError::BadTag`].
     #[cfg(feature = "mac")]
     pub fn decode_verified(bytes: &[u8], key: &NetworkKey) -> Result<Frame, DecodeError> {
-        let (header, tag) = checked_parts(bytes)?;
+        let (header, tag) = checked_parts::<FRAME_LEN, HEADER_LEN>(bytes, VERSION)?;
         if key.verify(header, tag) {
             Ok(Frame::from_header(header))
         } else {
@@ -246,44 +250,66 @@ impl Frame {
     }
 }
 
-fn write_into(out: &mut [u8], frame: &[u8; FRAME_LEN]) -> Result<usize, EncodeError> {
-    let len = out.len();
-    let dst = out
-        .get_mut(..FRAME_LEN)
-        .ok_or(EncodeError::BufferTooSmall { len })?;
-    dst.copy_from_slice(frame);
-    Ok(FRAME_LEN)
+/// A frame of `LEN` bytes: `header`, `tag` and the CRC-32C of both.
+pub(crate) fn assemble<const HDR: usize, const LEN: usize>(
+    header: &[u8; HDR],
+    tag: [u8; TAG_LEN],
+) -> [u8; LEN] {
+    let mut out = [0u8; LEN];
+    // The splits below cannot fail for the layouts of this module (LEN = HDR + TAG_LEN
+    // + CHECK_LEN, checked by tests); they leave the frame unwritten rather than panic.
+    if let Some((checked, check)) = out.split_last_chunk_mut::<CHECK_LEN>() {
+        if let Some((head, tag_field)) = checked.split_first_chunk_mut::<HDR>() {
+            head.copy_from_slice(header);
+            if let Some(t) = tag_field.get_mut(..TAG_LEN) {
+                t.copy_from_slice(&tag);
+            }
+        }
+        *check = crc32c(checked).to_le_bytes();
+    }
+    out
 }
 
-/// Header and tag of a frame whose version, length and check are good.
-pub(crate) fn checked_parts(
+pub(crate) fn write_into<const LEN: usize>(
+    out: &mut [u8],
+    frame: &[u8; LEN],
+) -> Result<usize, EncodeError> {
+    let len = out.len();
+    let dst = out
+        .get_mut(..LEN)
+        .ok_or(EncodeError::BufferTooSmall { len })?;
+    dst.copy_from_slice(frame);
+    Ok(LEN)
+}
+
+/// Header and tag of a frame of `LEN` bytes with an `HDR`-byte header whose version byte
+/// is `version` and whose length and check are good; the version is judged first.
+pub(crate) fn checked_parts<const LEN: usize, const HDR: usize>(
     bytes: &[u8],
-) -> Result<(&[u8; HEADER_LEN], &[u8; TAG_LEN]), DecodeError> {
+    version: u8,
+) -> Result<(&[u8; HDR], &[u8; TAG_LEN]), DecodeError> {
     let len = bytes.len();
-    let Some(&version) = bytes.first() else {
+    let Some(&found) = bytes.first() else {
         return Err(DecodeError::TooShort { len });
     };
-    if version != VERSION {
-        return Err(DecodeError::UnsupportedVersion { found: version });
+    if found != version {
+        return Err(DecodeError::UnsupportedVersion { found });
     }
-    let frame: &[u8; FRAME_LEN] = match bytes.try_into() {
+    let frame: &[u8; LEN] = match bytes.try_into() {
         Ok(frame) => frame,
-        Err(_) if len < FRAME_LEN => return Err(DecodeError::TooShort { len }),
+        Err(_) if len < LEN => return Err(DecodeError::TooShort { len }),
         Err(_) => return Err(DecodeError::TooLong { len }),
     };
-    // The chunk splits below cannot fail on a FRAME_LEN array; they return errors rather
-    // than panic so that no path in the decoder can panic.
+    // The chunk splits below cannot fail on a LEN array; they return errors rather than
+    // panic so that no path in the decoder can panic.
     let (checked, check) = frame
-        .split_first_chunk::<CHECKED_LEN>()
+        .split_last_chunk::<CHECK_LEN>()
         .ok_or(DecodeError::TooShort { len })?;
-    let check: &[u8; 4] = check
-        .try_into()
-        .map_err(|_| DecodeError::TooShort { len })?;
     if crc32c(checked) != u32::from_le_bytes(*check) {
         return Err(DecodeError::BadCheck);
     }
     let (header, tag) = checked
-        .split_first_chunk::<HEADER_LEN>()
+        .split_first_chunk::<HDR>()
         .ok_or(DecodeError::TooShort { len })?;
     let tag: &[u8; TAG_LEN] = tag.try_into().map_err(|_| DecodeError::TooShort { len })?;
     Ok((header, tag))
@@ -303,7 +329,7 @@ mod tests {
 
     #[test]
     fn layout_constants_agree_with_the_table() {
-        assert_eq!(HEADER_LEN + TAG_LEN + 4, FRAME_LEN);
+        assert_eq!(HEADER_LEN + TAG_LEN + CHECK_LEN, FRAME_LEN);
         assert_eq!(FRAME_LEN, 28);
     }
 
@@ -357,9 +383,11 @@ mod tests {
         assert!(msg.contains("9 bytes") && msg.contains("28"), "{msg}");
         let msg = DecodeError::UnsupportedVersion { found: 4 }.to_string();
         assert!(
-            msg.contains("version 4") && msg.contains("version 1"),
+            msg.contains("version 4") && msg.contains("version 1 and 2"),
             "{msg}"
         );
+        let msg = DecodeError::TooLong { len: 50 }.to_string();
+        assert!(msg.contains("50 bytes") && msg.contains("42"), "{msg}");
         let msg = EncodeError::BufferTooSmall { len: 3 }.to_string();
         assert!(msg.contains("3 bytes") && msg.contains("28"), "{msg}");
     }

@@ -4,7 +4,9 @@ use core::fmt;
 
 use siphasher::sip::SipHasher24;
 
-use super::frame::{HEADER_LEN, TAG_LEN};
+#[cfg(test)]
+use super::frame::HEADER_LEN;
+use super::frame::TAG_LEN;
 
 /// A pre-shared 128-bit network key for SipHash-2-4 frame tags.
 ///
@@ -60,14 +62,15 @@ impl NetworkKey {
         SipHasher24::new_with_keys(self.k0, self.k1).hash(message)
     }
 
-    /// The tag of a frame header: the full 64-bit SipHash-2-4 output, little-endian.
-    pub(crate) fn tag(&self, header: &[u8; HEADER_LEN]) -> [u8; TAG_LEN] {
+    /// The tag of a frame header (16 bytes in version 1, 30 in version 2): the full
+    /// 64-bit SipHash-2-4 output, little-endian.
+    pub(crate) fn tag(&self, header: &[u8]) -> [u8; TAG_LEN] {
         self.siphash24(header).to_le_bytes()
     }
 
     /// Whether `tag` is the tag of `header`, compared without an early exit so the time
     /// taken does not tell a forger how many leading bytes were right.
-    pub(crate) fn verify(&self, header: &[u8; HEADER_LEN], tag: &[u8; TAG_LEN]) -> bool {
+    pub(crate) fn verify(&self, header: &[u8], tag: &[u8; TAG_LEN]) -> bool {
         tags_equal(&self.tag(header), tag)
     }
 }

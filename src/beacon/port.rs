@@ -4,17 +4,24 @@
 #[cfg(feature = "mac")]
 use super::NetworkKey;
 use super::peers::PeerWindows;
-use super::{Accepted, EncodeError, Flags, Frame, RejectCounts, RejectKind, SeqWindow};
-use crate::{Node, NodeId, Observation, ObserveError};
+use super::{
+    Accepted, Beacon, EncodeError, Flags, Frame, FrameEcho, FrameV2, FrameVersion, RejectCounts,
+    RejectKind, SeqWindow,
+};
+use crate::{Node, NodeId, Observation, ObserveError, Timing};
 
 /// A frame the receive path accepted and handed to the node.
 #[derive(Clone, Copy, PartialEq, Eq, Hash, Debug)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Received {
-    /// The frame as decoded (and, with a key, verified).
+    /// The fields of the frame as decoded (and, with a key, verified) that both versions
+    /// carry.
     pub frame: Frame,
-    /// The observation given to [`Node::observe`].
+    /// The observation given to [`Node::observe_timed`].
     pub observation: Observation,
+    /// The two-way timing given with it: `Some` for a version-2 frame (its echo only if
+    /// the echo was for this port's id), `None` for version 1.
+    pub timing: Option<Timing>,
     /// How its sequence number stood to the sender's window: the first from that sender,
     /// or newer with the count of numbers skipped (frames lost, for link telemetry).
     pub accepted: Accepted,
@@ -60,9 +67,11 @@ impl SavedWindow {
 ///
 /// # Receive path
 ///
-/// [`BeaconPort::receive`] checks, in order: the frame (version, length, CRC), the tag
-/// when the port has a key, that the sender is not this node, and the sender's replay
-/// window; then it hands the observation to [`Node::observe`]. Only when all of that
+/// [`BeaconPort::receive`] checks, in order: the frame (version 1 or 2, length, CRC), the
+/// tag when the port has a key, that the sender is not this node, and the sender's replay
+/// window; then it hands the observation to [`Node::observe_timed`], with the frame's
+/// two-way [`Timing`] for version 2 (the echo only when it is for this port's id) and
+/// none for version 1. Only when all of that
 /// succeeds is anything recorded (the window, the accepted count, the node's neighbour
 /// entry). **A refused frame changes nothing but its reject counter**: not the node, not
 /// any window.
@@ -73,6 +82,23 @@ impl SavedWindow {
 /// instant, its [`Node::trim_ppb`], the port's flags (with [`Flags::ISOLATED`] added
 /// while the node has no neighbour) and the next sequence number, signed when the port
 /// has a key. The sequence number is used up only when the frame was written.
+///
+/// A port sends version 2 unless told otherwise ([`BeaconPort::set_send_version`]): the
+/// send instant in the sender's ticks and one echo, for the neighbours in turn. The port
+/// keeps the turn: each frame echoes the next neighbour in the node's table (after the
+/// one echoed last) whose last beacon carried timing ([`Node::echo_for`]); neighbours
+/// heard only in version 1 are passed over, so no frame is spent on them. With `k`
+/// timed neighbours each hears its echo every `k` frames.
+///
+/// # Mixed networks
+///
+/// A version-1 node refuses version-2 frames ([`RejectKind::UnsupportedVersion`]), so
+/// while any neighbour still runs version 1 its neighbours send version 1
+/// (`set_send_version(FrameVersion::V1)`): they still read version 2 from others. A
+/// link on which either end sends version 1 carries no timing, and the node falls back
+/// to the delay it is told: `delay_ticks` of [`BeaconPort::receive`] (plus whatever it
+/// measured on that link before, which it keeps). Once every node reads version 2, send
+/// version 2 everywhere.
 ///
 /// # Fault bound
 ///
@@ -86,7 +112,10 @@ impl SavedWindow {
 /// its own uncorrected, untrimmed run by at most `k · slew_limit` counts plus the
 /// trim's share, `trim_limit_ppb · 10⁻⁹ · t` ticks' worth of phase. Replaying the
 /// liar's old frames gains it nothing more: the window refuses them. (Tested in
-/// `tests/beacon_port.rs`.)
+/// `tests/beacon_port.rs`.) Version 2 gives a liar no more reach: its send stamp and
+/// echo only make samples of the delay of its own link (the node keeps a delay per
+/// neighbour, and a frame from one neighbour changes only that neighbour's), so a false
+/// echo shifts where the node places the liar, which a false phase does already.
 ///
 /// That bound is per update. Held up for good, the liar's pull settles against the honest
 /// neighbours' at a steady displacement: with `h` honest neighbours that hold still and
@@ -113,7 +142,7 @@ impl SavedWindow {
 /// once; size `N` for the senders a node can hear, not only its intended neighbours.
 ///
 /// ```
-/// use entrain::beacon::{BeaconPort, FRAME_LEN, RejectKind};
+/// use entrain::beacon::{BeaconPort, MAX_FRAME_LEN, RejectKind};
 /// use entrain::{Config, Node, Phase};
 ///
 /// let config = Config::builder(1_000_000, 100_000).build().unwrap();
@@ -121,11 +150,12 @@ impl SavedWindow {
 /// let mut b: BeaconPort<4> =
 ///     BeaconPort::new(Node::new(config, Phase::from_turns(0.02), 0), 2, 0);
 ///
-/// let mut wire = [0u8; FRAME_LEN];
-/// b.send(1_000, &mut wire).unwrap();
-/// let got = a.receive(&wire, 1_200, 200).unwrap(); // a 200-tick link
+/// let mut wire = [0u8; MAX_FRAME_LEN];
+/// let len = b.send(1_000, &mut wire).unwrap().wire_len();
+/// let got = a.receive(&wire[..len], 1_200, 200).unwrap(); // a 200-tick link
 /// assert_eq!(got.frame.from, 2);
-/// assert_eq!(a.receive(&wire, 1_300, 200), Err(RejectKind::Duplicate));
+/// assert_eq!(got.timing.unwrap().tx_ticks, 1_000); // version 2: the send stamp
+/// assert_eq!(a.receive(&wire[..len], 1_300, 200), Err(RejectKind::Duplicate));
 /// assert_eq!(a.rejects().count(RejectKind::Duplicate), 1);
 ///
 /// let report = a.node_mut().update(100_000);
@@ -140,6 +170,9 @@ pub struct BeaconPort<const N: usize> {
     peers: PeerWindows<N>,
     rejects: RejectCounts,
     accepted: u32,
+    send_version: FrameVersion,
+    /// Table index of the neighbour the next version-2 frame tries to echo first.
+    echo_next: usize,
     #[cfg(feature = "mac")]
     key: Option<NetworkKey>,
 }
@@ -158,6 +191,8 @@ impl<const N: usize> BeaconPort<N> {
             peers: PeerWindows::new(),
             rejects: RejectCounts::new(),
             accepted: 0,
+            send_version: FrameVersion::V2,
+            echo_next: 0,
             #[cfg(feature = "mac")]
             key: None,
         }
@@ -221,6 +256,18 @@ impl<const N: usize> BeaconPort<N> {
         self.flags = flags;
     }
 
+    /// The frame version [`BeaconPort::send`] writes.
+    pub const fn send_version(&self) -> FrameVersion {
+        self.send_version
+    }
+
+    /// Sets the frame version [`BeaconPort::send`] writes: version 2 (the default) or,
+    /// while neighbours still run version 1, version 1 (see "Mixed networks" above).
+    /// Receiving reads both either way.
+    pub const fn set_send_version(&mut self, version: FrameVersion) {
+        self.send_version = version;
+    }
+
     /// Refused frames so far, by kind.
     pub const fn rejects(&self) -> &RejectCounts {
         &self.rejects
@@ -282,13 +329,13 @@ impl<const N: usize> BeaconPort<N> {
     /// sender has been silent for the timeout: nothing changed.
     ///
     /// ```
-    /// use entrain::beacon::{BeaconPort, FRAME_LEN, RejectKind, SavedWindow};
+    /// use entrain::beacon::{BeaconPort, FRAME_V2_LEN, RejectKind, SavedWindow};
     /// use entrain::{Config, Node, Phase};
     ///
     /// let config = Config::builder(1_000_000, 100_000).build().unwrap();
     /// let mut rx: BeaconPort<4> = BeaconPort::new(Node::new(config, Phase::ZERO, 0), 1, 0);
     /// let mut tx: BeaconPort<4> = BeaconPort::new(Node::new(config, Phase::ZERO, 0), 2, 0);
-    /// let mut recorded = [[0u8; FRAME_LEN]; 6];
+    /// let mut recorded = [[0u8; FRAME_V2_LEN]; 6];
     /// let mut flash = [0u8; SavedWindow::LEN];
     /// for (k, wire) in recorded.iter_mut().enumerate() {
     ///     let t = 100_000 * k as u32;
@@ -308,7 +355,7 @@ impl<const N: usize> BeaconPort<N> {
     ///     assert_eq!(rx.receive(wire, 700_000, 100), Err(RejectKind::Duplicate));
     /// }
     /// rx.node_mut().update(700_000);
-    /// let mut wire = [0u8; FRAME_LEN];
+    /// let mut wire = [0u8; FRAME_V2_LEN];
     /// tx.send(700_000, &mut wire).unwrap(); // sequence 6: after 2 + 3
     /// assert!(rx.receive(&wire, 700_100, 100).is_ok());
     /// ```
@@ -332,9 +379,11 @@ impl<const N: usize> BeaconPort<N> {
         window || neighbour
     }
 
-    /// Takes the bytes of one received frame, heard when this node's timer read
-    /// `rx_ticks`, over a link whose known delay from the sender's send instant is
-    /// `delay_ticks` (in this node's ticks).
+    /// Takes the bytes of one received frame (version 1 or 2, exactly one frame), heard
+    /// when this node's timer read `rx_ticks`, over a link whose known delay from the
+    /// sender's send instant is `delay_ticks` (in this node's ticks; 0 when unknown). A
+    /// version-2 frame's two-way timing lets the node measure the rest of the delay
+    /// itself ([`Node::observe_timed`]).
     ///
     /// # Errors
     /// The [`RejectKind`] of the first check that failed (see the type docs for the
@@ -359,7 +408,8 @@ impl<const N: usize> BeaconPort<N> {
         rx_ticks: u32,
         delay_ticks: u32,
     ) -> Result<Received, RejectKind> {
-        let frame = self.decode(bytes)?;
+        let beacon = self.decode(bytes)?;
+        let frame = *beacon.frame();
         if frame.from == self.id {
             return Err(RejectKind::OwnId);
         }
@@ -373,29 +423,33 @@ impl<const N: usize> BeaconPort<N> {
             rx_ticks,
             delay_ticks,
         };
-        self.node.observe(observation).map_err(|e| match e {
-            ObserveError::FromTheFuture(_) => RejectKind::FromTheFuture,
-            ObserveError::TableFull(_) => RejectKind::NodeFull,
-        })?;
+        let timing = beacon.timing_for(self.id);
+        self.node
+            .observe_timed(observation, timing)
+            .map_err(|e| match e {
+                ObserveError::FromTheFuture(_) => RejectKind::FromTheFuture,
+                ObserveError::TableFull(_) => RejectKind::NodeFull,
+            })?;
         let accepted = admission.accepted();
         self.peers.commit(admission);
         Ok(Received {
             frame,
             observation,
+            timing,
             accepted,
         })
     }
 
-    fn decode(&self, bytes: &[u8]) -> Result<Frame, RejectKind> {
+    fn decode(&self, bytes: &[u8]) -> Result<Beacon, RejectKind> {
         #[cfg(feature = "mac")]
         if let Some(key) = &self.key {
-            return Frame::decode_verified(bytes, key).map_err(RejectKind::from);
+            return Beacon::decode_verified(bytes, key).map_err(RejectKind::from);
         }
-        Frame::decode(bytes).map_err(RejectKind::from)
+        Beacon::decode(bytes).map_err(RejectKind::from)
     }
 
-    /// The frame [`BeaconPort::send`] would write for the send instant `tx_ticks`,
-    /// without using up its sequence number.
+    /// The fields both frame versions carry, as [`BeaconPort::send`] would write them for
+    /// the send instant `tx_ticks`, without using up its sequence number.
     pub fn frame_at(&self, tx_ticks: u32) -> Frame {
         let mut flags = self.flags;
         if self.node.neighbour_count() == 0 {
@@ -410,26 +464,69 @@ impl<const N: usize> BeaconPort<N> {
         }
     }
 
-    /// Writes the frame for the send instant `tx_ticks` (this node's timer when the
-    /// frame's first bit leaves; add the transmitter's known latency to the time of the
-    /// call) into the first [`FRAME_LEN`](super::FRAME_LEN) bytes of `out`, signed when
-    /// the port has a key, and uses up its sequence number. Returns the frame written.
-    ///
-    /// # Errors
-    /// [`EncodeError::BufferTooSmall`] when `out` is shorter than a frame; nothing is
-    /// written and the sequence number is kept.
-    pub fn send(&mut self, tx_ticks: u32, out: &mut [u8]) -> Result<Frame, EncodeError> {
-        let frame = self.frame_at(tx_ticks);
-        self.encode(&frame, out)?;
-        self.next_seq = self.next_seq.wrapping_add(1);
-        Ok(frame)
+    /// The beacon [`BeaconPort::send`] would write for the send instant `tx_ticks`, in
+    /// the port's send version, without using up its sequence number or its echo turn.
+    pub fn beacon_at(&self, tx_ticks: u32) -> Beacon {
+        self.beacon_and_turn(tx_ticks).0
     }
 
-    fn encode(&self, frame: &Frame, out: &mut [u8]) -> Result<usize, EncodeError> {
+    /// The beacon for `tx_ticks` and the echo turn after it.
+    fn beacon_and_turn(&self, tx_ticks: u32) -> (Beacon, usize) {
+        let base = self.frame_at(tx_ticks);
+        match self.send_version {
+            FrameVersion::V1 => (Beacon::V1(base), self.echo_next),
+            FrameVersion::V2 => {
+                let (echo, next) = self
+                    .next_echo(tx_ticks)
+                    .unwrap_or((FrameEcho::NONE, self.echo_next));
+                let frame = FrameV2 {
+                    base,
+                    tx_ticks,
+                    echo,
+                };
+                (Beacon::V2(frame), next)
+            }
+        }
+    }
+
+    /// The echo of the first neighbour from the turn on (wrapping round the table) whose
+    /// last beacon carried timing, and the turn after it.
+    fn next_echo(&self, tx_ticks: u32) -> Option<(FrameEcho, usize)> {
+        let start = self.echo_next;
+        self.node
+            .links()
+            .enumerate()
+            .skip(start)
+            .chain(self.node.links().enumerate().take(start))
+            .find_map(|(i, link)| {
+                let echo = self.node.echo_for(link.id, tx_ticks)?;
+                Some((FrameEcho::new(link.id, echo), i.wrapping_add(1)))
+            })
+    }
+
+    /// Writes the frame for the send instant `tx_ticks` (this node's timer when the
+    /// frame's first bit leaves; add the transmitter's known latency to the time of the
+    /// call) into the start of `out`, in the port's send version (a buffer of
+    /// [`MAX_FRAME_LEN`](super::MAX_FRAME_LEN) bytes holds either), signed when the port
+    /// has a key, and uses up its sequence number and, for version 2, the echo turn.
+    /// Returns the beacon written; send [`Beacon::wire_len`] bytes.
+    ///
+    /// # Errors
+    /// [`EncodeError::BufferTooSmall`] when `out` is shorter than the frame; nothing is
+    /// written and the sequence number and echo turn are kept.
+    pub fn send(&mut self, tx_ticks: u32, out: &mut [u8]) -> Result<Beacon, EncodeError> {
+        let (beacon, next) = self.beacon_and_turn(tx_ticks);
+        self.encode(&beacon, out)?;
+        self.next_seq = self.next_seq.wrapping_add(1);
+        self.echo_next = next;
+        Ok(beacon)
+    }
+
+    fn encode(&self, beacon: &Beacon, out: &mut [u8]) -> Result<usize, EncodeError> {
         #[cfg(feature = "mac")]
         if let Some(key) = &self.key {
-            return frame.encode_signed(key, out);
+            return beacon.encode_signed(key, out);
         }
-        frame.encode(out)
+        beacon.encode(out)
     }
 }

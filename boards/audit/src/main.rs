@@ -17,7 +17,8 @@
 use core::hint::black_box;
 
 use entrain::beacon::{
-    BeaconPort, FRAME_LEN, Flags, Frame, NetworkKey, RejectCounts, RejectKind, SeqWindow,
+    Beacon, BeaconPort, FRAME_LEN, Flags, Frame, FrameEcho, FrameV2, FrameVersion, MAX_FRAME_LEN,
+    NetworkKey, RejectCounts, RejectKind, SeqWindow,
 };
 use entrain::law::{Coupling, Linear, Sine, SineLibm, SineMicromath, sine_pull};
 use entrain::{Config, Gain, Law, Node, Observation, Phase};
@@ -120,6 +121,34 @@ fn exercise() -> u32 {
     mix(u32::from(frame.flags.contains(Flags::ISOLATED)));
     mix(u32::from(frame.header()[black_box(5) % 16]));
 
+    // Version 2 and the decoder of both versions.
+    let v2 = FrameV2 {
+        base: frame,
+        tx_ticks: black_box(77),
+        echo: FrameEcho {
+            to: black_box(2),
+            tx_ticks: black_box(12),
+            held_ticks: black_box(30),
+        },
+    };
+    let mut wire2 = [0u8; MAX_FRAME_LEN + 3];
+    let len2 = black_box(MAX_FRAME_LEN + 1);
+    let out2 = wire2.get_mut(..len2).unwrap_or(&mut []);
+    mix(v2.encode(out2).unwrap_or(0) as u32 ^ v2.encode_signed(&key, out2).unwrap_or(0) as u32);
+    let signed2 = v2.to_bytes_signed(&key);
+    let bytes2: &[u8] = black_box(&signed2);
+    for b in [bytes, bytes2] {
+        mix(Beacon::decode(b).map(|f| f.frame().seq).unwrap_or(3));
+        match Beacon::decode_verified(b, &key) {
+            Ok(f) => mix(f.wire_len() as u32
+                ^ u32::from(f.version().byte())
+                ^ f.timing_for(black_box(2)).map_or(4, |t| t.tx_ticks)),
+            Err(_) => mix(5),
+        }
+    }
+    mix(FrameV2::decode(bytes2).map(|f| f.tx_ticks).unwrap_or(6));
+    mix(FrameVersion::len_of(black_box(2)).unwrap_or(0) as u32);
+
     let mut window = SeqWindow::new();
     mix(window.accept(black_box(3)).is_ok() as u32 ^ window.check(black_box(1)).is_ok() as u32);
     mix(window.newest().unwrap_or(0) ^ u32::from(window.is_empty()));
@@ -129,15 +158,24 @@ fn exercise() -> u32 {
     let mut a: BeaconPort<4> = BeaconPort::with_key(node.clone(), black_box(1), black_box(0), key);
     let mut b: BeaconPort<4> = BeaconPort::new(node, black_box(2), black_box(u32::MAX));
     b.set_flags(Flags::PINNED);
-    let mut buf = [0u8; FRAME_LEN];
-    let sent = a
-        .send(black_box(1_000), black_box(&mut buf))
-        .map(|f| f.seq)
-        .unwrap_or(0);
-    mix(sent ^ a.frame_at(black_box(2_000)).phase_counts ^ a.next_seq());
-    match a.receive(black_box(&buf), black_box(1_200), black_box(200)) {
-        Ok(r) => mix(r.frame.seq ^ r.observation.rx_ticks),
-        Err(kind) => mix(kind.name().len() as u32),
+    let mut buf = [0u8; MAX_FRAME_LEN];
+    if black_box(false) {
+        b.set_send_version(FrameVersion::V1);
+    }
+    for (tx, rx, port) in [(1_000u32, 1_200u32, &mut a), (1_500, 1_700, &mut b)] {
+        let sent = port
+            .send(black_box(tx), black_box(&mut buf))
+            .map(|f| f.frame().seq ^ f.wire_len() as u32)
+            .unwrap_or(0);
+        mix(sent ^ port.frame_at(black_box(2_000)).phase_counts ^ port.next_seq());
+        mix(port.beacon_at(black_box(2_100)).wire_len() as u32);
+        mix(u32::from(port.send_version().byte()));
+        let len = black_box(rx as usize % MAX_FRAME_LEN);
+        let frame = buf.get(..len).unwrap_or(&[]);
+        match port.receive(black_box(frame), black_box(rx), black_box(200)) {
+            Ok(r) => mix(r.frame.seq ^ r.observation.rx_ticks ^ r.timing.map_or(0, |t| t.tx_ticks)),
+            Err(kind) => mix(kind.name().len() as u32),
+        }
     }
     match b.receive(black_box(&buf), black_box(1_300), black_box(200)) {
         Ok(r) => mix(r.frame.seq),

@@ -3,22 +3,34 @@
 //!
 //! Started by `boards/run-chain.sh`, one QEMU instance per node; the instance's
 //! command line (`-append`) says who it is: `node=I nodes=N ppm=E` and optionally
-//! `delay=D` (the link delay the receive path assumes, µs), `run_ms=`, `tol_us=`,
-//! `kp_q16=` and `ki_q16=` (gains in 1/65536; default 0.25 and 0, the P law).
+//! `delay=D` (the link delay the receive path is told, µs; default 0, none), `run_ms=`,
+//! `tol_us=`, `kp_q16=`, `ki_q16=` and `leak_q16=` (gains in 1/65536; default 0.25, 0
+//! and 0: the P law), `version=` (the beacon frame version sent, 1 or 2; default 2),
+//! `smoothing=` (the node's delay smoothing shift, default 3), `trim_limit_ppm=`
+//! (default 200) and `slew_us=` (the slew limit, µs of phase per update; default 62,500,
+//! the law's default of 1/16 turn).
 //! UART0 is the link to node I−1, UART1 the link to node I+1 (the script gives the end
 //! nodes a null line on the missing side).
 //!
 //! Time: SysTick interrupts every 10 ms extend its counter into true time (read to
 //! 1 µs); the node's timer is that true time through a [`Crystal`] `E` ppm off, at a
 //! nominal 1 MHz. The node law runs a 1 s period with an update (and a beacon to each
-//! side) every 100 ms.
+//! side) every 100 ms. Beacons go through [`BeaconPort`]: with version 2 (the default)
+//! each carries its send stamp and one echo, for the left and the right neighbour in
+//! turn, so every node measures each link's delay by two-way exchange instead of being
+//! told it.
 //!
 //! Verdict: over the judging window (from 60 % to 90 % of the run) the node records, for
 //! each neighbour, the phase difference of every received beacon (the neighbour's phase
-//! at its send instant, carried forward by the assumed delay, against this node's phase
-//! then). It passes when it heard every neighbour it should have and the 90th percentile
-//! of each neighbour's |difference| is within the tolerance; the median, the largest
-//! and the mean are printed as well.
+//! at its send instant, carried forward by the told delay plus the delay the node has
+//! measured on that link, against this node's phase then). It passes when it heard every
+//! neighbour it should have and the 90th percentile of each neighbour's |difference| is
+//! within the tolerance; the median, the largest and the mean are printed as well. It
+//! also prints its mean rate trim over the window beside its programmed crystal error
+//! (`chain: law PI node K programmed P ppm trim T ppm`), which `run-chain.sh` holds
+//! against the whole chain's crystals: a node whose timer runs `P` ppm fast must trim
+//! by about `−(P − mean P)` when the network's common rate is the crystals' mean, which
+//! the trim leak holds it to.
 
 use crate::cmsdk_uart::Uart;
 use crate::crystal::Crystal;
@@ -28,7 +40,7 @@ use core::sync::atomic::{AtomicU32, Ordering};
 use cortex_m::peripheral::syst::SystClkSource;
 use cortex_m::peripheral::{NVIC, SCB, SYST};
 use cortex_m_semihosting::hprintln;
-use entrain::beacon::{BeaconPort, FRAME_LEN};
+use entrain::beacon::{BeaconPort, FrameVersion, MAX_FRAME_LEN};
 use entrain::{Config, Gain, Law, Node, NodeId, Phase};
 
 /// Core clock of the mps2-an386, Hz.
@@ -106,6 +118,11 @@ struct Args {
     tol_us: u32,
     kp_q16: u32,
     ki_q16: u32,
+    leak_q16: u32,
+    version: u8,
+    smoothing: u8,
+    trim_limit_ppm: u32,
+    slew_us: u32,
 }
 
 fn args() -> Option<Args> {
@@ -123,6 +140,11 @@ fn args() -> Option<Args> {
         tol_us: u32::try_from(num("tol_us", Some(10_000))?).ok()?,
         kp_q16: u32::try_from(num("kp_q16", Some(16_384))?).ok()?,
         ki_q16: u32::try_from(num("ki_q16", Some(0))?).ok()?,
+        leak_q16: u32::try_from(num("leak_q16", Some(0))?).ok()?,
+        version: u8::try_from(num("version", Some(2))?).ok()?,
+        smoothing: u8::try_from(num("smoothing", Some(3))?).ok()?,
+        trim_limit_ppm: u32::try_from(num("trim_limit_ppm", Some(200))?).ok()?,
+        slew_us: u32::try_from(num("slew_us", Some(62_500))?).ok()?,
     })
 }
 
@@ -174,6 +196,17 @@ fn counts_to_us(counts: u32) -> u32 {
     ((u64::from(counts) * u64::from(PERIOD_TICKS) + (1 << 31)) >> 32) as u32
 }
 
+/// Parts per billion as `±W.T` ppm (rounded to a tenth), for printing without floats.
+struct Ppm(i64);
+
+impl core::fmt::Display for Ppm {
+    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
+        let tenths = (self.0.unsigned_abs() + 50) / 100;
+        let sign = if self.0 < 0 && tenths > 0 { '-' } else { '+' };
+        write!(f, "{sign}{}.{}", tenths / 10, tenths % 10)
+    }
+}
+
 fn signed_counts_to_us(counts: i64) -> i64 {
     let mag = counts_to_us(counts.unsigned_abs().min(u64::from(u32::MAX)) as u32);
     if counts < 0 {
@@ -187,7 +220,9 @@ fn signed_counts_to_us(counts: i64) -> i64 {
 /// (`_nvic` is taken to show that this code owns the interrupt controller.)
 pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
     let Some(a) = args() else {
-        hprintln!("chain: command line must say node=I nodes=N [ppm=E delay=D run_ms=T tol_us=U]");
+        hprintln!(
+            "chain: command line must say node=I nodes=N [ppm=E delay=D run_ms=T tol_us=U kp_q16= ki_q16= leak_q16= version=1|2]"
+        );
         return false;
     };
     let crystal = Crystal::new(a.ppm);
@@ -211,34 +246,62 @@ pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
         .law(Law::Sine)
         .kp(Gain::from_q16(a.kp_q16))
         .ki(Gain::from_q16(a.ki_q16))
+        .leak(Gain::from_q16(a.leak_q16))
+        .delay_smoothing(a.smoothing)
+        .trim_limit_ppb(a.trim_limit_ppm.saturating_mul(1_000))
+        .slew_limit(
+            ((u64::from(a.slew_us) << 32) / u64::from(PERIOD_TICKS)).min(i32::MAX as u64) as u32,
+        )
         .build()
     else {
+        hprintln!("chain: gains refused (0 < ki < kp, leak < ki or 0)");
         return false;
     };
+    let version = match a.version {
+        1 => FrameVersion::V1,
+        2 => FrameVersion::V2,
+        other => {
+            hprintln!("chain: version must be 1 or 2, not {}", other);
+            return false;
+        }
+    };
+    let law = if a.ki_q16 == 0 { "P" } else { "PI" };
     let now = crystal.ticks_at(true_us());
     // Start phases spread by 0.129 turn a node, so neighbours begin far apart.
     let start = Phase::from_counts(u32::from(a.id).wrapping_mul(0x2100_0000));
     let mut port: BeaconPort<2> = BeaconPort::new(Node::new(config, start, now), a.id, 0);
+    port.set_send_version(version);
     let mut rx = [FrameReceiver::new(), FrameReceiver::new()];
     let mut seen = [Seen::new(), Seen::new()];
+    // The link delay measured on each side (beyond the told one), ticks, latest.
+    let mut delay_seen = [0i32; 2];
     let expect_left = a.id > 0;
     let expect_right = a.id.wrapping_add(1) < a.nodes;
     let run_us = u64::from(a.run_ms) * 1_000;
     let judge_from = run_us * 6 / 10;
     let judge_to = run_us * 9 / 10;
     hprintln!(
-        "node {}: crystal {:+} ppm, kp {}/65536, ki {}/65536, assumed link delay {} us, running {} ms",
+        "node {}: crystal {:+} ppm, law {}, kp {}/65536, ki {}/65536, leak {}/65536, delay smoothing 2^-{}, trim limit {} ppm, slew limit {} us, beacon version {}, told link delay {} us, running {} ms",
         a.id,
         a.ppm,
+        law,
         a.kp_q16,
         a.ki_q16,
+        a.leak_q16,
+        a.smoothing,
+        a.trim_limit_ppm,
+        a.slew_us,
+        a.version,
         a.delay_us,
         a.run_ms
     );
     let boot_us = true_us();
     let mut next_update = now.wrapping_add(UPDATE_TICKS);
-    let mut wire = [0u8; FRAME_LEN];
+    let mut wire = [0u8; MAX_FRAME_LEN];
     let mut updates = 0u32;
+    // Rate trim over the judging window: sum (ppb) and count of updates.
+    let mut trim_sum = 0i64;
+    let mut trim_n = 0i64;
     let mut worst_update_diff = 0u32;
     let mut short_updates = 0u32;
     loop {
@@ -252,15 +315,29 @@ pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
         for (side, (uart, receiver)) in uarts.iter_mut().zip(rx.iter_mut()).enumerate() {
             while let Some(byte) = uart.try_read() {
                 let t = crystal.ticks_at(true_us());
-                let Some((frame, rx_ticks)) = receiver.push(byte, t) else {
+                let Some(found) = receiver.push(byte, t) else {
                     continue;
                 };
+                let rx_ticks = found.rx_ticks;
                 port.node_mut().advance_to(rx_ticks);
-                let own = port.node().phase_at(rx_ticks.wrapping_sub(a.delay_us));
                 // A refused frame is counted by the port (and reported at the end).
-                let Ok(got) = port.receive(&frame, rx_ticks, a.delay_us) else {
+                let Ok(got) = port.receive(found.frame(), rx_ticks, a.delay_us) else {
                     continue;
                 };
+                // The delay this node now holds for the link: told plus measured.
+                let measured = port
+                    .node()
+                    .links()
+                    .find(|l| l.id == got.frame.from)
+                    .and_then(|l| l.measured_delay_ticks)
+                    .unwrap_or(0);
+                if let Some(d) = delay_seen.get_mut(side) {
+                    *d = measured;
+                }
+                let sent_at = rx_ticks
+                    .wrapping_sub(a.delay_us)
+                    .wrapping_add_signed(measured.wrapping_neg());
+                let own = port.node().phase_at(sent_at);
                 let diff = Phase::from_counts(got.frame.phase_counts).diff(own);
                 if let Some(s) = seen.get_mut(side) {
                     s.id = Some(got.frame.from);
@@ -275,6 +352,8 @@ pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
             let report = port.node_mut().update(now);
             updates = updates.wrapping_add(1);
             if elapsed_us >= judge_from && elapsed_us < judge_to {
+                trim_sum = trim_sum.wrapping_add(i64::from(port.node().trim_ppb()));
+                trim_n = trim_n.wrapping_add(1);
                 worst_update_diff = worst_update_diff.max(report.largest_diff);
                 let want = u8::from(expect_left) + u8::from(expect_right);
                 if report.used < want {
@@ -282,10 +361,10 @@ pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
                 }
             }
             let tx = crystal.ticks_at(true_us());
-            if port.send(tx, &mut wire).is_ok() {
+            if let Ok(sent) = port.send(tx, &mut wire) {
                 // Byte by byte to both sides, so neither frame's first byte (the instant
                 // its phase is stamped for) waits for the whole other frame.
-                for &b in &wire {
+                for &b in wire.get(..sent.wire_len()).unwrap_or(&[]) {
                     for u in &mut uarts {
                         u.write_byte(b);
                     }
@@ -345,6 +424,21 @@ pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
         rejects,
         rx.iter().map(FrameReceiver::skipped).sum::<u32>(),
         RX_IRQS.load(Ordering::Relaxed)
+    );
+    let [left_delay, right_delay] = delay_seen;
+    hprintln!(
+        "node {}: link delay measured by two-way timing: left {} us, right {} us",
+        a.id,
+        left_delay,
+        right_delay
+    );
+    let trim_mean = if trim_n > 0 { trim_sum / trim_n } else { 0 };
+    hprintln!(
+        "chain: law {} node {} programmed {:+} ppm trim {} ppm",
+        law,
+        a.id,
+        a.ppm,
+        Ppm(trim_mean)
     );
     hprintln!(
         "node {}: {} (tolerance {} us)",

@@ -138,6 +138,8 @@ fn check_footbridge_matches_the_planner_and_the_simulator() {
     let config = Config::builder(1_000, 100_000)
         .kp(Gain::from_q16(15_073))
         .ki(Gain::from_q16(754))
+        // The scenario's default trim leak, ki/64: 754/64 = 11.8 → 12 in Q16.
+        .leak(Gain::from_q16(12))
         .law(Law::Sine)
         .slew_limit(1 << 28)
         .trim_limit_ppb(200_000)
@@ -156,6 +158,10 @@ fn check_footbridge_matches_the_planner_and_the_simulator() {
         latency_ticks: 400,
         timestamp_jitter_ticks: 1,
         success_prob: 0.98,
+        // The scenario's defaults: version-2 beacons, latency told, completed-tick stamps.
+        two_way: true,
+        latency_known: true,
+        stamping: sim::Stamping::CompletedTicks,
         ..sim::Beacons::IDEAL
     };
     s.start = sim::StartPhases::Uniform { spread_turns: 0.4 };

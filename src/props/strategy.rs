@@ -476,6 +476,7 @@ impl Deployments {
                 s.layout = layout;
                 s.loss_fraction = loss;
                 s.latency_s = latency;
+                s.latency_max_s = latency;
                 s.initial_spread_s = spread;
                 s.reboots.extend(outages);
                 s

@@ -26,10 +26,15 @@
 //! a uniform offset within one interval when the schedule starts at random.
 //!
 //! At its update node i takes every beacon that arrived *strictly before* (each
-//! beacon leaves right after the sender's update and arrives `latency` ticks later; it
-//! is lost with probability `1 − p`). A beacon carries the sender's phase `x_j` then;
-//! the node extrapolates it over `latency + (now − stamp)` of its own ticks at its own
-//! rate, so relative to an ideal clock its estimate of the neighbour is
+//! beacon leaves right after the sender's update and arrives after its link's latency
+//! in that direction; it is lost with probability `1 − p`). Each link's latency is one
+//! value when the scenario gives one; otherwise it is drawn per run as the simulator
+//! draws it: a mean uniform in `[latency, latency + spread]`, the two directions
+//! `mean ± d/2` with `d` uniform within `±asymmetry`. A beacon carries the sender's
+//! phase `x_j` then; the node extrapolates it over `told + measured + (now − stamp)` of
+//! its own ticks at its own rate (`told`: the mean latency in its own ticks, rounded,
+//! when it is told, else 0; `measured`: its smoothed two-way estimate below), so
+//! relative to an ideal clock its estimate of the neighbour is
 //! `x̂_j = x_j(t_s) + (R + τ_i)·span − R·(t − t_s)`, compared with its *current* own
 //! phase: a delayed neighbour against a current self. With staggered schedules the age
 //! `t − t_s` is the latency plus the part of an interval to the receiver's next update;
@@ -42,10 +47,21 @@
 //! does not have, because the held entry keeps pulling. Here loss is sampled per
 //! beacon, which costs one draw and is exact for the law as specified.)
 //!
+//! Version-2 beacons also carry the sender's send stamp, its trim, and an echo for one
+//! neighbour in turn: that neighbour's last send stamp heard and the ticks held since.
+//! The echoed node takes the round trip `(stamp − echoed send) − held·(1 + τ_j)/(1 +
+//! τ_i)` (trims as fractions of the nominal rate), refuses a negative raw round trip or
+//! a corrected one below minus an eighth of the timeout or above twice it, halves it,
+//! subtracts the told latency, and smooths the samples per link (the first taken whole,
+//! then weight `2^−s`, `s` the delay smoothing). With asymmetric directions the
+//! estimate is the mean of the two, so each side's view is off by half the difference
+//! (the two-way time-transfer residual; RFC 5905 §8), which the model keeps as it is.
+//!
 //! The law per update, with `Σ = Σ_j f(wrap(Δ_j))`, `f(Δ) = Δ` (linear) or
 //! `sin(2πΔ)/2π` (sine, applied per neighbour difference):
 //! `step = clamp(kp·Σ, ±slew)`, `x += step`, and, unless the step was clamped,
-//! `τ_next = clamp(τ + ki·Σ/M, ±trim limit)`, which takes effect at the next update.
+//! `τ_next = clamp((1 − γ)·τ + ki·Σ/M, ±trim limit)` (`γ` the trim leak), which takes
+//! effect at the next update.
 //! Small-signal, with lock-step updates and no delay, each Laplacian mode λ then obeys
 //! `z² − (2 − kp·λ)z + (1 − kp·λ + ki·λ)` (P: `z = 1 − kp·λ`); its roots inside the
 //! unit circle (Jury criterion: `0 < ki·λ`, `ki < kp`, `2kp − ki < 4/λ`) give the
@@ -54,10 +70,11 @@
 //! `2π/|arg z|` of the slowest-turning complex root over the modes of the (grounded,
 //! when pinned) Laplacian, from `nalgebra::SymmetricEigen`.
 //!
-//! Noise is modelled where the simulator makes it: the receiver stamps a beacon to its
-//! *nearest* timer tick (the rounding error follows from the two crystals' tick grids,
-//! computed exactly rather than drawn; it is zero for ideal crystals and whole-tick
-//! latency) plus a uniform integer draw within ±j ticks (variance `j(j+1)/3` ticks²),
+//! Noise is modelled where the simulator makes it: the receiver stamps a beacon with
+//! its *completed* timer ticks (on average half a tick early, as a capture register
+//! reads) or, as the scenario says, its *nearest* tick (the rounding error follows from
+//! the two crystals' tick grids, computed exactly rather than drawn; the nearest tick's
+//! is zero for ideal crystals and whole-tick latency) plus a uniform integer draw within ±j ticks (variance `j(j+1)/3` ticks²),
 //! and the network is read at each node's *completed* timer tick (a quantisation of
 //! up to one tick, uniform over nodes when the crystals differ; Widrow, Kollár & Liu,
 //! IEEE Trans. Instrum. Meas. 45 (1996) for the uniform-quantiser model). Scheduling at
@@ -69,13 +86,16 @@
 //!
 //! # What is modelled and what is left to the simulation
 //! Modelled: random start phases and crystals, staggered or lock-step schedules with
-//! jitter, fractional latency as the node sees it, per-beacon loss with the held
-//! entry, the neighbour timeout, timestamp jitter and tick rounding, the sine law per
-//! neighbour difference, the slew limit with the frozen integrator, the trim limit,
-//! phase wrapping, and a pinned reference. Left to the simulation: reboots (refused),
-//! integer rounding of the gains' products (below a count), the crystal's residue in
-//! latency compensation (`e·latency` ticks), the sine law's polynomial error
-//! (below 8.4·10⁻⁶ turn) and the neighbour-table capacity.
+//! jitter, fractional latency as the node sees it, per-link and per-direction
+//! latencies, told or measured two-way with the echo schedule, plausibility checks and
+//! smoothing of the node, per-beacon loss with the held entry, the neighbour timeout,
+//! timestamp jitter and tick rounding (completed or nearest), the sine law per
+//! neighbour difference, the slew limit with the frozen integrator, the trim leak, the
+//! trim limit, phase wrapping, and a pinned reference. Left to the simulation: reboots
+//! (refused), integer rounding of the gains' products and of the delay estimate (below
+//! a count, and 2⁻¹⁶ tick), the sender's trim quantised to ppb in the held-tick
+//! conversion, the sine law's polynomial error (below 8.4·10⁻⁶ turn) and the
+//! neighbour-table capacity.
 //!
 //! ```
 //! use entrain::forecast::forecast;
@@ -379,8 +399,8 @@ pub fn mode_period(kp: f64, ki: f64, lambda: f64) -> Option<f64> {
     (angle > 0.0).then(|| core::f64::consts::TAU / angle)
 }
 
-/// The planner's model of `s`'s node law (gains, law, periods, latency in whole
-/// updates, loss, clamps), for setting [`crate::plan::settle`]'s worst-case bound beside
+/// The planner's model of `s`'s node law (gains, law, periods, the longest latency in
+/// whole updates, loss, clamps), for setting [`crate::plan::settle`]'s worst-case bound beside
 /// the forecast. A zero trim range is the smallest positive one to the planner.
 #[must_use]
 pub fn planner_model(s: &Setup) -> crate::plan::Model {
@@ -392,7 +412,11 @@ pub fn planner_model(s: &Setup) -> crate::plan::Model {
         ki: c.ki().to_f64(),
         update_period_s: s.update_period_s(),
         phase_period_s: s.phase_period_s(),
-        delay_updates: s.beacons.latency_ticks / c.update_ticks(),
+        // The longest latency of any link direction, whole updates.
+        delay_updates: (s.beacons.latency_ticks
+            + s.beacons.latency_spread_ticks
+            + s.beacons.asymmetry_ticks.div_ceil(2))
+            / c.update_ticks(),
         success_prob: s.beacons.success_prob,
         slew_limit_turns: f64::from(c.slew_limit()) / 4_294_967_296.0,
         trim_limit_ppm: if trim_ppm > 0.0 {

@@ -15,7 +15,7 @@ use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 
 use crate::Law;
-use crate::sim::{self, Crystals, StartPhases};
+use crate::sim::{self, Crystals, Stamping, StartPhases};
 
 /// What the stepping needs from a scenario, in model units: time in nominal timer
 /// ticks, phase in turns, phase relative to an ideal clock started at 0.
@@ -33,6 +33,8 @@ pub(crate) struct Replica {
     r: f64,
     kp: f64,
     ki: f64,
+    /// Trim leak per update, fraction of the trim.
+    leak: f64,
     sine: bool,
     /// Slew limit, turns.
     slew: f64,
@@ -40,7 +42,20 @@ pub(crate) struct Replica {
     trim_limit: f64,
     /// Neighbour timeout, local ticks.
     timeout: f64,
+    /// Shortest link latency, nominal ticks.
     latency: f64,
+    /// Width of the per-link latency draw, nominal ticks.
+    latency_spread: f64,
+    /// Largest difference between a link's two directions, nominal ticks.
+    asymmetry: f64,
+    /// Whether receivers are told each link's mean latency.
+    latency_known: bool,
+    /// Version-2 beacons: send stamps, one echo per frame, measured delays.
+    two_way: bool,
+    /// Weight of a new delay sample, `2^−smoothing`.
+    smoothing_weight: f64,
+    /// Receptions stamped with completed ticks (else the nearest).
+    completed: bool,
     ts_jitter: i64,
     sched_jitter: i64,
     random_start: bool,
@@ -90,11 +105,18 @@ impl Replica {
             r,
             kp: c.kp().to_f64(),
             ki: c.ki().to_f64(),
+            leak: c.leak().to_f64(),
             sine: !matches!(c.law(), Law::Linear),
             slew: f64::from(c.slew_limit()) / 4_294_967_296.0,
             trim_limit: r * f64::from(c.trim_limit_ppb()) * 1e-9,
             timeout: f64::from(c.timeout_ticks()),
             latency: f64::from(s.beacons.latency_ticks),
+            latency_spread: f64::from(s.beacons.latency_spread_ticks),
+            asymmetry: f64::from(s.beacons.asymmetry_ticks),
+            latency_known: s.beacons.latency_known,
+            two_way: s.beacons.two_way,
+            smoothing_weight: 0.5_f64.powi(i32::from(c.delay_smoothing())),
+            completed: s.beacons.stamping == Stamping::CompletedTicks,
             ts_jitter: i64::from(s.beacons.timestamp_jitter_ticks),
             sched_jitter: i64::from(s.schedule.jitter_ticks),
             random_start: s.schedule.random_start,
@@ -116,18 +138,33 @@ impl Replica {
 struct Flight {
     /// Real arrival time, ticks.
     arrive: f64,
+    /// Real sending time, ticks.
+    sent_at: f64,
     /// Sender's relative phase at sending, turns.
     x: f64,
     /// Receiver's timestamp minus its true timer reading at arrival, ticks.
     stamp_err: f64,
+    /// Version-2 timing: the sender's own send stamp (its local ticks) and its trim in
+    /// effect as a fraction of the nominal rate.
+    tx_local: f64,
+    trim_frac: f64,
+    /// The echo of the receiver's own beacon, when this frame carries it for this
+    /// receiver: that beacon's send stamp (receiver's ticks) and the sender's held ticks.
+    echo: Option<(f64, f64)>,
 }
 
-/// A neighbour-table entry: Δ at observation plus the node's corrections then.
+/// A neighbour-table entry: Δ at observation plus the node's corrections then, and the
+/// link's two-way timing state.
 #[derive(Clone, Copy, Debug)]
 struct Entry {
     anchored_diff: f64,
     /// Receiver's timestamp of the reception, local ticks.
     heard: f64,
+    /// The neighbour's send stamp of the last beacon heard, when it carried timing.
+    their_tx: Option<f64>,
+    /// Smoothed one-way delay beyond the told latency, local ticks; `None` before the
+    /// first echo.
+    delay: Option<f64>,
 }
 
 #[derive(Clone, Copy, Debug)]
@@ -144,6 +181,8 @@ struct State {
     corr: f64,
     /// Local ticks of the next update, counted from the timer origin of the run.
     next_local: f64,
+    /// The neighbour (index into its list) the next beacon echoes.
+    echo_next: usize,
 }
 
 impl State {
@@ -203,6 +242,58 @@ pub(crate) fn largest_pairwise(x: &[f64], scratch: &mut Vec<f64>) -> f64 {
     best
 }
 
+/// Each link's latency in each direction and the latency its receiver is told, per
+/// receiver slot (node i's neighbour j: the link j → i), nominal ticks and the
+/// receiver's ticks: every link `latency` when the scenario has one latency; otherwise,
+/// per link, a mean drawn uniformly from `[latency, latency + spread]` and a direction
+/// difference `d` uniform within `±asymmetry`, the two directions `mean ± d/2` (not
+/// below 0), the receiver told the mean in its own ticks, rounded, when it is told.
+fn link_latencies(setup: &Replica, e: &[f64], rng: &mut ChaCha8Rng) -> (Vec<f64>, Vec<f64>) {
+    let slots = setup.nbr.len();
+    let told = |rx: usize, mean: f64| {
+        if setup.latency_known {
+            (mean * (1.0 + e.get(rx).copied().unwrap_or(0.0))).round()
+        } else {
+            0.0
+        }
+    };
+    if setup.latency_spread == 0.0 && setup.asymmetry == 0.0 {
+        // One latency, told in nominal ticks (the crystal's residue left in).
+        let told = if setup.latency_known {
+            setup.latency
+        } else {
+            0.0
+        };
+        return (vec![setup.latency; slots], vec![told; slots]);
+    }
+    let (mut lat, mut told_in) = (vec![0.0; slots], vec![0.0; slots]);
+    for i in 0..setup.nodes() {
+        for s in setup.off[i]..setup.off[i + 1] {
+            let j = setup.nbr[s];
+            if j < i {
+                continue;
+            }
+            let mean = setup.latency + rng.random::<f64>() * setup.latency_spread;
+            let d = (rng.random::<f64>() * 2.0 - 1.0) * setup.asymmetry;
+            // Slot s is i's entry for j (the link j → i); back[s] is j's entry for i.
+            lat[setup.back[s]] = (mean + d / 2.0).max(0.0);
+            lat[s] = (mean - d / 2.0).max(0.0);
+            told_in[setup.back[s]] = told(j, mean);
+            told_in[s] = told(i, mean);
+        }
+    }
+    (lat, told_in)
+}
+
+/// The per-run state of the links: latency and told latency per receiver slot, beacons
+/// in flight and the neighbour tables.
+struct Wires {
+    lat: Vec<f64>,
+    told: Vec<f64>,
+    flights: Vec<VecDeque<Flight>>,
+    table: Vec<Option<Entry>>,
+}
+
 /// One run of the model from the generator's stream `run`: the largest pairwise phase
 /// error at each sample `k` (at `(k + ½)` update intervals), turns.
 pub(crate) fn run(setup: &Replica, seed: u64, run: u64) -> Vec<f64> {
@@ -242,12 +333,19 @@ pub(crate) fn run(setup: &Replica, seed: u64, run: u64) -> Vec<f64> {
                 trim_next: 0.0,
                 corr: 0.0,
                 next_local: first,
+                echo_next: 0,
             }
         })
         .collect();
+    let e: Vec<f64> = st.iter().map(|s| s.e).collect();
+    let (lat, told) = link_latencies(setup, &e, &mut rng);
     let slots = setup.nbr.len();
-    let mut flights: Vec<VecDeque<Flight>> = vec![VecDeque::new(); slots];
-    let mut table: Vec<Option<Entry>> = vec![None; slots];
+    let mut wires = Wires {
+        lat,
+        told,
+        flights: vec![VecDeque::new(); slots],
+        table: vec![None; slots],
+    };
     let mut queue: BinaryHeap<Due> = st
         .iter()
         .enumerate()
@@ -263,7 +361,7 @@ pub(crate) fn run(setup: &Replica, seed: u64, run: u64) -> Vec<f64> {
                 break;
             }
             queue.pop();
-            update(setup, &mut st, &mut flights, &mut table, &mut rng, t, i);
+            update(setup, &mut st, &mut wires, &mut rng, t, i);
             if let Some(s) = st.get(i) {
                 queue.push(Due(s.next_local / (1.0 + s.e), i));
             }
@@ -279,13 +377,32 @@ pub(crate) fn run(setup: &Replica, seed: u64, run: u64) -> Vec<f64> {
     errors
 }
 
+/// One delay sample from an echo at a reception stamped `heard` (receiver's ticks):
+/// the round trip less the sender's held ticks (converted to the receiver's through the
+/// two trims), halved, less the told latency; `None` when the node would refuse it (a
+/// negative raw round trip, or a corrected one below minus an eighth of the timeout or
+/// above twice the timeout).
+fn delay_sample(setup: &Replica, f: &Flight, heard: f64, own_trim: f64, told: f64) -> Option<f64> {
+    let (echo_tx, held) = f.echo?;
+    let round = heard - echo_tx;
+    if round < 0.0 {
+        return None;
+    }
+    let held_here = held * (1.0 + f.trim_frac) / (1.0 + own_trim / setup.r);
+    let corrected = round - held_here;
+    let floor = (setup.timeout / 8.0).floor();
+    if corrected < -floor || corrected > 2.0 * setup.timeout {
+        return None;
+    }
+    Some(corrected / 2.0 - told)
+}
+
 /// Node `i`'s update at real time `t` (ticks): take the beacons that arrived strictly
 /// before, apply the law, schedule the next update, send beacons.
 fn update(
     setup: &Replica,
     st: &mut [State],
-    flights: &mut [VecDeque<Flight>],
-    table: &mut [Option<Entry>],
+    wires: &mut Wires,
     rng: &mut ChaCha8Rng,
     t: f64,
     i: usize,
@@ -296,38 +413,51 @@ fn update(
     // Advance at the rate in effect over the last interval.
     me.x += me.drift(r) * (t - me.t_last);
     me.t_last = t;
-    let now_local = t * (1.0 + me.e);
+    // Updates fall on whole ticks of the node's own timer.
+    let now_local = me.next_local;
     let is_ref = setup.reference == Some(i);
     for s in lo..hi {
-        let q = &mut flights[s];
-        while q.front().is_some_and(|f| f.arrive < t) {
-            let Some(f) = q.pop_front() else { break };
+        while wires.flights[s].front().is_some_and(|f| f.arrive < t) {
+            let Some(f) = wires.flights[s].pop_front() else {
+                break;
+            };
             if is_ref {
                 continue;
             }
-            let heard = f.arrive * (1.0 + me.e) + f.stamp_err;
-            // The node extrapolates the sent phase over `latency + (now − stamp)` of
-            // its own ticks at its own rate; relative to an ideal clock that leaves
-            // the crystal's share of the stamp-to-now span and the stamp error.
-            let span = setup.latency + (now_local - heard);
-            let sent_at = f.arrive - setup.latency;
-            let est = f.x + (r + me.trim) * span - r * (t - sent_at);
-            let diff = est - me.x;
-            let entry = Entry {
-                anchored_diff: diff + me.corr,
+            let heard = (f.arrive * (1.0 + me.e) + f.stamp_err).round();
+            let told = wires.told[s];
+            let sample = delay_sample(setup, &f, heard, me.trim, told);
+            let entry = wires.table[s].get_or_insert(Entry {
+                anchored_diff: 0.0,
                 heard,
-            };
-            match &mut table[s] {
-                Some(held) if held.heard > heard => {}
-                slot => *slot = Some(entry),
+                their_tx: None,
+                delay: None,
+            });
+            if let Some(x) = sample {
+                entry.delay = Some(match entry.delay {
+                    None => x,
+                    Some(d) => d + (x - d) * setup.smoothing_weight,
+                });
             }
+            if entry.heard > heard {
+                continue; // a held reception is newer
+            }
+            // The node extrapolates the sent phase over `told + measured + (now −
+            // stamp)` of its own ticks at its own rate; relative to an ideal clock that
+            // leaves the crystal's share of the span, the stamp error and the delay
+            // estimate's error.
+            let span = told + entry.delay.unwrap_or(0.0) + (now_local - heard);
+            let est = f.x + (r + me.trim) * span - r * (t - f.sent_at);
+            entry.anchored_diff = est - me.x + me.corr;
+            entry.heard = heard;
+            entry.their_tx = setup.two_way.then_some(f.tx_local);
         }
     }
     if !is_ref {
         me.trim = me.trim_next;
         let mut sum = 0.0;
         let mut used = 0;
-        for slot in &mut table[lo..hi] {
+        for slot in &mut wires.table[lo..hi] {
             let Some(e) = *slot else { continue };
             if now_local - e.heard > setup.timeout {
                 *slot = None;
@@ -343,8 +473,8 @@ fn update(
             me.x += step;
             me.corr += step;
             if step == raw {
-                me.trim_next =
-                    (me.trim + setup.ki * sum / setup.m).clamp(-setup.trim_limit, setup.trim_limit);
+                me.trim_next = (me.trim * (1.0 - setup.leak) + setup.ki * sum / setup.m)
+                    .clamp(-setup.trim_limit, setup.trim_limit);
             }
         }
     }
@@ -355,23 +485,46 @@ fn update(
     };
     me.next_local += setup.m + jitter;
     let x = me.x;
+    let trim_frac = me.trim / r;
+    // Version 2: one echo per frame, to the neighbours in turn: the last send stamp
+    // heard from it and the ticks held since.
+    let echo = if setup.two_way && hi > lo {
+        let k = me.echo_next % (hi - lo);
+        me.echo_next = (k + 1) % (hi - lo);
+        wires.table[lo + k].and_then(|e| {
+            let tx = e.their_tx?;
+            let held = now_local - e.heard;
+            (held >= 0.0).then_some((lo + k, (tx, held)))
+        })
+    } else {
+        None
+    };
     // Beacons to every neighbour, each lost with probability 1 − p.
     for s in lo..hi {
         let j = setup.nbr[s];
         if setup.p < 1.0 && rng.random::<f64>() >= setup.p {
             continue;
         }
-        let arrive = t + setup.latency;
+        let into = setup.back[s];
+        let arrive = t + wires.lat[into];
         let ej = st.get(j).map_or(0.0, |s| s.e);
         let local = arrive * (1.0 + ej);
-        let mut stamp_err = local.round() - local;
+        let mut stamp_err = if setup.completed {
+            local.floor() - local
+        } else {
+            local.round() - local
+        };
         if setup.ts_jitter > 0 {
             stamp_err += rng.random_range(-setup.ts_jitter..=setup.ts_jitter) as f64;
         }
-        flights[setup.back[s]].push_back(Flight {
+        wires.flights[into].push_back(Flight {
             arrive,
+            sent_at: t,
             x,
             stamp_err,
+            tx_local: now_local,
+            trim_frac,
+            echo: echo.and_then(|(slot, e)| (slot == s).then_some(e)),
         });
     }
 }

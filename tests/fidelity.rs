@@ -89,3 +89,36 @@ fn settling_is_the_last_exit() {
     let late = [0.1, 0.1, 0.1, 0.1, 0.1, 0.1, 0.1, 0.1, 0.5, 0.1];
     assert_eq!(entrain::forecast::last_exit(&late, 0.3), None);
 }
+
+/// The property kit's cheaper forecast (runs stop once they have stayed within half the
+/// tolerance for the final fifth of the horizon) against the full forecast on every
+/// fidelity scenario, same seed, so the runs are the same until one stops: the settling
+/// quantiles and the never-settled share must agree (a late exit after such a stay is
+/// what the early stop would miss; noisy scenarios never stop early).
+#[test]
+fn early_stop_forecast_agrees_with_the_full_one() {
+    let mut failures = Vec::new();
+    for mut case in cases() {
+        fidelity_cases::horizon(&mut case.scenario);
+        let s = &case.scenario;
+        let full = entrain::forecast::forecast(s, 100, 7).unwrap();
+        let early = entrain::forecast::forecast_early_stop(s, 100, 7).unwrap();
+        let same = |a: f64, b: f64| (a.is_nan() && b.is_nan()) || (a - b).abs() <= 0.01 * b;
+        if !same(early.settle_updates.p50, full.settle_updates.p50)
+            || !same(early.settle_updates.p90, full.settle_updates.p90)
+            || early.never_settled_fraction != full.never_settled_fraction
+        {
+            failures.push(format!(
+                "{}: early p50 {} p90 {} never {} vs full p50 {} p90 {} never {}",
+                case.name,
+                early.settle_updates.p50,
+                early.settle_updates.p90,
+                early.never_settled_fraction,
+                full.settle_updates.p50,
+                full.settle_updates.p90,
+                full.never_settled_fraction
+            ));
+        }
+    }
+    assert!(failures.is_empty(), "{}", failures.join("\n"));
+}

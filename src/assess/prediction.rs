@@ -178,6 +178,10 @@ pub struct PredictEffort {
     /// With [`PredictEffort::horizon_factor`]: the short horizon also covers the
     /// worst-case bound.
     pub horizon_covers_bound: bool,
+    /// Stop each forecast run once it has stayed deep inside the band long enough
+    /// ([`forecast::forecast_early_stop`]; its noise floor is then a low estimate). For
+    /// quick property runs that read only the settling.
+    pub forecast_early_stop: bool,
 }
 
 impl PredictEffort {
@@ -186,6 +190,7 @@ impl PredictEffort {
         forecast_samples: FORECAST_SAMPLES,
         horizon_factor: None,
         horizon_covers_bound: true,
+        forecast_early_stop: false,
     };
 }
 
@@ -284,7 +289,11 @@ pub fn predict_with(
             let mut s = setup(scenario, network, &constants, horizon_updates)?;
             // The forecast predicts settling from power-up; reboots are the simulation's.
             s.reboots.clear();
-            forecast::forecast(&s, samples, FORECAST_SEED).ok()
+            if effort.forecast_early_stop {
+                forecast::forecast_early_stop(&s, samples, FORECAST_SEED).ok()
+            } else {
+                forecast::forecast(&s, samples, FORECAST_SEED).ok()
+            }
         }
         _ => None,
     };

@@ -184,10 +184,10 @@ pub struct ErrorEnvelope {
 }
 
 impl ErrorEnvelope {
-    /// Pointwise quantiles of `runs` (each the error at every `stride`-th sample, the
-    /// same length); empty without runs.
+    /// Pointwise quantiles of `runs` (each the error at every `stride`-th sample; at a
+    /// point past a run's end, over the runs that reach it); empty without runs.
     fn of(runs: &[Vec<f64>], stride: u64) -> ErrorEnvelope {
-        let points = runs.first().map_or(0, Vec::len);
+        let points = runs.iter().map(Vec::len).max().unwrap_or(0);
         let mut column = Vec::with_capacity(runs.len());
         let (mut p50, mut p90) = (Vec::with_capacity(points), Vec::with_capacity(points));
         for k in 0..points {
@@ -295,6 +295,43 @@ pub fn nearest_rank(sorted: &[f64], q: f64) -> f64 {
 /// [`ForecastError::Setup`] if the scenario does not validate;
 /// [`ForecastError::TooFewSamples`]; [`ForecastError::RebootsNotModelled`].
 pub fn forecast(s: &Setup, samples: usize, seed: u64) -> Result<Forecast, ForecastError> {
+    forecast_runs(s, samples, seed, false)
+}
+
+/// [`forecast`], cheaper: a sampled run stops as soon as its error has stayed within
+/// *half* the tolerance for as many samples as the final fifth of the horizon holds (the
+/// span a run must stay inside to count as settled at all) and at least half the slowest
+/// oscillation period of the small-signal modes (a decaying oscillation's largest
+/// pairwise error peaks once per half period, so the stay has seen a peak and the later
+/// ones are lower); its settling is then the
+/// last exit from the tolerance so far. Runs that settle early cost a fraction of the
+/// horizon; runs whose noise or slow tail keeps them above half the tolerance run the
+/// whole horizon, as in [`forecast`].
+///
+/// What this gives up: a run stopped early that would have left the band later
+/// counts as settled. After a stay that long that deep inside the band, only a noise
+/// excursion of more than twice anything seen in the stay could do that. The noise
+/// floor of a run stopped early is taken over its stay, which was below half the
+/// tolerance by construction: a low estimate, not to be compared with the tolerance
+/// (the property kit, the user of this, reads only the settling). The envelope is over
+/// the runs still running at each point.
+///
+/// # Errors
+/// As [`forecast`].
+pub fn forecast_early_stop(
+    s: &Setup,
+    samples: usize,
+    seed: u64,
+) -> Result<Forecast, ForecastError> {
+    forecast_runs(s, samples, seed, true)
+}
+
+fn forecast_runs(
+    s: &Setup,
+    samples: usize,
+    seed: u64,
+    early_stop: bool,
+) -> Result<Forecast, ForecastError> {
     s.validate().map_err(ForecastError::Setup)?;
     if samples == 0 || s.horizon_updates < 2 {
         return Err(ForecastError::TooFewSamples);
@@ -305,14 +342,40 @@ pub fn forecast(s: &Setup, samples: usize, seed: u64) -> Result<Forecast, Foreca
     let setup = replica::Replica::new(s);
     let tol = tolerance_turns(s);
     let stride = s.horizon_updates.div_ceil(ENVELOPE_POINTS).max(1);
+    let period = slowest_period(s);
+    // The span a run stopped early must have stayed deep inside: the final fifth of the
+    // horizon (what a settled run stays inside at least), and half the slowest
+    // oscillation period (the largest pairwise error of a decaying oscillating mode
+    // peaks once per half period, so the stay has seen a peak and later ones are lower).
+    let fifth = s.horizon_updates - final_fifth_start(s.horizon_updates);
+    let half_period = period.map_or(0.0, |p| (p / 2.0).ceil());
+    let stay = usize::try_from(fifth)
+        .unwrap_or(usize::MAX)
+        .max(half_period.min(usize::MAX as f64) as usize)
+        .max(1);
+    let stop = early_stop.then_some((tol / 2.0, stay));
     // Per run: settling, steady-window samples, strided errors for the envelope.
     type PerRun = (Option<usize>, Vec<f64>, Vec<f64>);
     let per_run: Vec<PerRun> = (0..samples as u64)
         .into_par_iter()
         .map(|r| {
-            let errors = replica::run(&setup, seed, r);
-            let settle = last_exit(&errors, tol);
-            let tail = steady_window(&errors, settle).collect();
+            let errors = replica::run(&setup, seed, r, stop);
+            let (settle, tail) = if errors.len() < setup.horizon {
+                // Stopped early: settled after the last sample above the tolerance; the
+                // noise is sampled over the stay (inside half the tolerance).
+                let settle = errors.iter().rposition(|&e| e > tol).map_or(0, |k| k + 1);
+                let from = errors.len().saturating_sub(stay);
+                let stride = steady_stride(s.horizon_updates) as usize;
+                let tail = errors
+                    .get(from..)
+                    .unwrap_or_default()
+                    .iter()
+                    .step_by(stride.max(1));
+                (Some(settle), tail.copied().collect())
+            } else {
+                let settle = last_exit(&errors, tol);
+                (settle, steady_window(&errors, settle).collect())
+            };
             let points = errors.iter().step_by(stride as usize).copied().collect();
             (settle, tail, points)
         })
@@ -339,7 +402,7 @@ pub fn forecast(s: &Setup, samples: usize, seed: u64) -> Result<Forecast, Foreca
             p50: nearest_rank(&tail, 0.5),
             p99: nearest_rank(&tail, 0.99),
         },
-        slowest_oscillation_period_updates: slowest_period(s),
+        slowest_oscillation_period_updates: period,
         samples,
         settled_updates: settle,
         envelope: ErrorEnvelope::of(&points, stride),

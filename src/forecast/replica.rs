@@ -295,8 +295,10 @@ struct Wires {
 }
 
 /// One run of the model from the generator's stream `run`: the largest pairwise phase
-/// error at each sample `k` (at `(k + ½)` update intervals), turns.
-pub(crate) fn run(setup: &Replica, seed: u64, run: u64) -> Vec<f64> {
+/// error at each sample `k` (at `(k + ½)` update intervals), turns. With `stop =
+/// Some((inner, w))` the run ends early once its last `w` samples are all within
+/// `inner` (the series is then shorter than the horizon).
+pub(crate) fn run(setup: &Replica, seed: u64, run: u64, stop: Option<(f64, usize)>) -> Vec<f64> {
     let mut rng = ChaCha8Rng::seed_from_u64(seed);
     rng.set_stream(run);
     let n = setup.nodes();
@@ -354,6 +356,7 @@ pub(crate) fn run(setup: &Replica, seed: u64, run: u64) -> Vec<f64> {
     let mut errors = Vec::with_capacity(setup.horizon);
     let mut phases = vec![0.0; n];
     let mut scratch = Vec::new();
+    let mut inside = 0_usize;
     for k in 0..setup.horizon {
         let t_sample = (k as f64 + 0.5) * m;
         while let Some(&Due(t, i)) = queue.peek() {
@@ -372,7 +375,14 @@ pub(crate) fn run(setup: &Replica, seed: u64, run: u64) -> Vec<f64> {
             let q = local - local.floor();
             *p = s.x + s.drift(r) * (t_sample - s.t_last) - q * (r + s.trim);
         }
-        errors.push(largest_pairwise(&phases, &mut scratch));
+        let error = largest_pairwise(&phases, &mut scratch);
+        errors.push(error);
+        if let Some((inner, w)) = stop {
+            inside = if error > inner { 0 } else { inside + 1 };
+            if inside >= w {
+                break;
+            }
+        }
     }
     errors
 }

@@ -304,6 +304,9 @@ pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
     let mut trim_n = 0i64;
     let mut worst_update_diff = 0u32;
     let mut short_updates = 0u32;
+    // Per side over the judging window, at each update: the sum of the law's Δ (counts)
+    // and of the measured link delay (ticks), and how many updates.
+    let mut at_updates = [(0i64, 0i64, 0i64); 2];
     loop {
         // Sleep until a byte or the next millisecond, unless a byte is already here.
         cortex_m::interrupt::free(|_| {
@@ -349,6 +352,19 @@ pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
         }
         let now = crystal.ticks_at(true_us());
         if now.wrapping_sub(next_update) as i32 >= 0 {
+            if elapsed_us >= judge_from && elapsed_us < judge_to {
+                // What the law is about to pull with, per side (left: the lower id).
+                port.node_mut().advance_to(now);
+                for l in port.node().links() {
+                    let side = usize::from(l.id > a.id);
+                    if let Some(s) = at_updates.get_mut(side) {
+                        s.0 = s.0.wrapping_add(i64::from(l.diff));
+                        s.1 =
+                            s.1.wrapping_add(i64::from(l.measured_delay_ticks.unwrap_or(0)));
+                        s.2 = s.2.wrapping_add(1);
+                    }
+                }
+            }
             let report = port.node_mut().update(now);
             updates = updates.wrapping_add(1);
             if elapsed_us >= judge_from && elapsed_us < judge_to {
@@ -432,6 +448,21 @@ pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
         left_delay,
         right_delay
     );
+    // Both ends of a link see each other's difference with opposite signs unless the
+    // link is biased: the sum of the two ends' means is that bias, which the PI law's
+    // integral turns into a drift of the common rate (boards/README.md, "The chain").
+    for (side, (diff, delay, n)) in at_updates.iter().enumerate() {
+        if *n > 0 {
+            hprintln!(
+                "node {}: {} link at updates: mean diff {} us, mean measured delay {} us, {} updates",
+                a.id,
+                if side == 0 { "left" } else { "right" },
+                signed_counts_to_us(diff / n),
+                delay / n,
+                n
+            );
+        }
+    }
     let trim_mean = if trim_n > 0 { trim_sum / trim_n } else { 0 };
     hprintln!(
         "chain: law {} node {} programmed {:+} ppm trim {} ppm",

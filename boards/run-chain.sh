@@ -124,6 +124,25 @@ for (( i = 0; i < nodes; i++ )); do
     fi
 done
 pids=()
+# Each node printed, per side, the mean difference the law pulled with at its updates and
+# the mean delay it measured. The true differences of a link's two ends cancel, so the sum
+# of the two means is the link's bias; summed over the links it is what the PI law's
+# integral turns into a drift of the common rate (see README.md, "The chain").
+cat "$logs"/node*.log | awk '
+    $1 == "node" && $4 == "link" && $5 == "at" {
+        k = $2 + 0; d = $9 + 0; m = $14 + 0
+        if ($3 == "right") { rd[k] = d; rm[k] = m; right[k] = 1 } else { ld[k] = d; lm[k] = m; left[k] = 1 }
+    }
+    END {
+        total = 0; links = 0
+        for (k = 0; k < 16; k++) {
+            if (!right[k] || !left[k + 1]) continue
+            printf "chain: link %d-%d: mean diffs %+d us (node %d) and %+d us (node %d), bias %+d us; delays measured %d and %d us\n",
+                   k, k + 1, rd[k], k, ld[k + 1], k + 1, rd[k] + ld[k + 1], rm[k], lm[k + 1]
+            total += rd[k] + ld[k + 1]; links++
+        }
+        if (links) printf "chain: links bias summed over the chain %+d us\n", total
+    }'
 if (( failed )); then
     echo "chain: law $law FAIL (phases)"
     exit 1

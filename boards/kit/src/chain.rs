@@ -12,9 +12,10 @@
 //! UART0 is the link to node I−1, UART1 the link to node I+1 (the script gives the end
 //! nodes a null line on the missing side).
 //!
-//! Time: SysTick interrupts every 10 ms extend its counter into true time (read to
-//! 1 µs); the node's timer is that true time through a [`Crystal`] `E` ppm off, at a
-//! nominal 1 MHz. The node law runs a 1 s period with an update (and a beacon to each
+//! Time: CMSDK timer 0, free-running at the 25 MHz system clock and extended past its
+//! wrap, is true time (read to 1 µs); the node's timer is that true time through a
+//! [`Crystal`] `E` ppm off, at a nominal 1 MHz. SysTick, every 10 ms, only wakes the
+//! loop: counting its interrupts lost time whenever the host descheduled QEMU. The node law runs a 1 s period with an update (and a beacon to each
 //! side) every 100 ms. Beacons go through [`BeaconPort`]: with version 2 (the default)
 //! each carries its send stamp and one echo, for the left and the right neighbour in
 //! turn, so every node measures each link's delay by two-way exchange instead of being
@@ -93,8 +94,48 @@ unsafe impl cortex_m::interrupt::InterruptNumber for Irq {
     }
 }
 
-/// True microseconds since SysTick started.
+/// CMSDK APB timer 0 of the mps2-an386: a 32-bit down counter at the 25 MHz system
+/// clock, free-running from 0xFFFF_FFFF (it wraps every 171.8 s).
+const TIMER0: usize = 0x4000_0000;
+
+fn timer0_start() {
+    // SAFETY: timer 0's RELOAD, VALUE and CTRL registers; nothing else uses the timer.
+    unsafe {
+        core::ptr::write_volatile((TIMER0 + 0x08) as *mut u32, u32::MAX);
+        core::ptr::write_volatile((TIMER0 + 0x04) as *mut u32, u32::MAX);
+        core::ptr::write_volatile(TIMER0 as *mut u32, 1);
+    }
+}
+
+/// Core clocks counted by timer 0 since it started (wrapping).
+fn timer0_elapsed() -> u32 {
+    // SAFETY: timer 0's VALUE register, read only.
+    u32::MAX - unsafe { core::ptr::read_volatile((TIMER0 + 0x04) as *const u32) }
+}
+
+/// Timer 0's count at the last read and the wraps seen, for [`true_us`].
+static TIMER0_LAST: AtomicU32 = AtomicU32::new(0);
+static TIMER0_WRAPS: AtomicU32 = AtomicU32::new(0);
+
+/// True microseconds since timer 0 started: its count of core clocks, extended past its
+/// wrap (every 171.8 s; the loop reads it at least every SysTick, 10 ms). Not the SysTick
+/// interrupts counted: when the host deschedules QEMU for longer than a SysTick period,
+/// expiries that fall due together raise one exception, and each one lost would set the
+/// node's timer back 10 ms (measured: 60 to 138 ms in 30 s, several thousand ppm, on a
+/// loaded 2-core host; the `time check` line prints it).
 fn true_us() -> u64 {
+    let now = timer0_elapsed();
+    let last = TIMER0_LAST.swap(now, Ordering::Relaxed);
+    let wraps = if now < last {
+        TIMER0_WRAPS.fetch_add(1, Ordering::Relaxed).wrapping_add(1)
+    } else {
+        TIMER0_WRAPS.load(Ordering::Relaxed)
+    };
+    ((u64::from(wraps) << 32) | u64::from(now)) / u64::from(CORE_HZ / 1_000_000)
+}
+
+/// Microseconds since SysTick started, counted from its interrupts (for the time check).
+fn systick_us() -> u64 {
     loop {
         let n = SYSTICKS.load(Ordering::Acquire);
         let current = SYST::get_current();
@@ -226,6 +267,7 @@ pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
         return false;
     };
     let crystal = Crystal::new(a.ppm);
+    timer0_start();
     syst.set_clock_source(SystClkSource::Core);
     syst.set_reload(TICKS_PER_SYSTICK - 1);
     syst.clear_current();
@@ -296,6 +338,7 @@ pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
         a.run_ms
     );
     let boot_us = true_us();
+    let boot_systick_us = systick_us();
     let mut next_update = now.wrapping_add(UPDATE_TICKS);
     let mut wire = [0u8; MAX_FRAME_LEN];
     let mut updates = 0u32;
@@ -304,6 +347,9 @@ pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
     let mut trim_n = 0i64;
     let mut worst_update_diff = 0u32;
     let mut short_updates = 0u32;
+    // Per side over the judging window, at each update: the sum of the law's Δ (counts)
+    // and of the measured link delay (ticks), and how many updates.
+    let mut at_updates = [(0i64, 0i64, 0i64); 2];
     loop {
         // Sleep until a byte or the next millisecond, unless a byte is already here.
         cortex_m::interrupt::free(|_| {
@@ -349,6 +395,19 @@ pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
         }
         let now = crystal.ticks_at(true_us());
         if now.wrapping_sub(next_update) as i32 >= 0 {
+            if elapsed_us >= judge_from && elapsed_us < judge_to {
+                // What the law is about to pull with, per side (left: the lower id).
+                port.node_mut().advance_to(now);
+                for l in port.node().links() {
+                    let side = usize::from(l.id > a.id);
+                    if let Some(s) = at_updates.get_mut(side) {
+                        s.0 = s.0.wrapping_add(i64::from(l.diff));
+                        s.1 =
+                            s.1.wrapping_add(i64::from(l.measured_delay_ticks.unwrap_or(0)));
+                        s.2 = s.2.wrapping_add(1);
+                    }
+                }
+            }
             let report = port.node_mut().update(now);
             updates = updates.wrapping_add(1);
             if elapsed_us >= judge_from && elapsed_us < judge_to {
@@ -431,6 +490,30 @@ pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
         a.id,
         left_delay,
         right_delay
+    );
+    // Both ends of a link see each other's difference with opposite signs unless the
+    // link is biased: the sum of the two ends' means is that bias, which the PI law's
+    // integral turns into a drift of the common rate (boards/README.md, "The chain").
+    for (side, (diff, delay, n)) in at_updates.iter().enumerate() {
+        if *n > 0 {
+            hprintln!(
+                "node {}: {} link at updates: mean diff {} us, mean measured delay {} us, {} updates",
+                a.id,
+                if side == 0 { "left" } else { "right" },
+                signed_counts_to_us(diff / n),
+                delay / n,
+                n
+            );
+        }
+    }
+    let counted_us = systick_us().wrapping_sub(boot_systick_us);
+    let reference_us = true_us().wrapping_sub(boot_us);
+    hprintln!(
+        "node {}: time check: timer 0 {} us since boot, SysTick interrupts counted {} us ({} us lost)",
+        a.id,
+        reference_us,
+        counted_us,
+        reference_us as i64 - counted_us as i64
     );
     let trim_mean = if trim_n > 0 { trim_sum / trim_n } else { 0 };
     hprintln!(

@@ -353,7 +353,10 @@ fn forecast_runs(
         .unwrap_or(usize::MAX)
         .max(half_period.min(usize::MAX as f64) as usize)
         .max(1);
-    let stop = early_stop.then_some((tol / 2.0, stay));
+    let stop = early_stop.then_some(replica::EarlyStop {
+        inner: tol / 2.0,
+        stay,
+    });
     // Per run: settling, steady-window samples, strided errors for the envelope.
     type PerRun = (Option<usize>, Vec<f64>, Vec<f64>);
     let per_run: Vec<PerRun> = (0..samples as u64)

@@ -8,7 +8,7 @@
 // Host-side code: every index comes from the adjacency built in `Replica::new`.
 #![allow(clippy::indexing_slicing)]
 
-use std::collections::{BinaryHeap, VecDeque};
+use std::collections::VecDeque;
 use std::f64::consts::TAU;
 
 use rand::{Rng, SeedableRng};
@@ -192,25 +192,108 @@ impl State {
     }
 }
 
-/// Time-ordered update queue entry (earliest first, ties by node index, as the
+/// The nodes' next update instants, earliest first, ties by node index (as the
 /// simulator orders equal instants).
-#[derive(Clone, Copy, Debug, PartialEq)]
-struct Due(f64, usize);
-
-impl Eq for Due {}
-impl PartialOrd for Due {
-    fn partial_cmp(&self, other: &Self) -> Option<core::cmp::Ordering> {
-        Some(self.cmp(other))
-    }
+///
+/// Every node is in the queue once, and a node that updates is due again about an
+/// update interval later, behind nearly every other: the order changes by a few places
+/// at a time, so a sorted ring with insertion from the back costs a few comparisons per
+/// update where a binary heap costs a sift through all its levels. The order is the
+/// heap's exactly (the key is total: instant by `total_cmp`, then index).
+struct DueQueue {
+    at: Vec<f64>,
+    order: VecDeque<usize>,
 }
-impl Ord for Due {
-    fn cmp(&self, other: &Self) -> core::cmp::Ordering {
-        other.0.total_cmp(&self.0).then(other.1.cmp(&self.1))
+
+impl DueQueue {
+    fn new(at: impl IntoIterator<Item = f64>) -> DueQueue {
+        let at: Vec<f64> = at.into_iter().collect();
+        let mut order: Vec<usize> = (0..at.len()).collect();
+        order.sort_by(|&a, &b| Self::key_cmp(&at, a, b));
+        DueQueue {
+            at,
+            order: order.into(),
+        }
+    }
+
+    fn key_cmp(at: &[f64], a: usize, b: usize) -> core::cmp::Ordering {
+        let t = |i: usize| at.get(i).copied().unwrap_or(f64::INFINITY);
+        t(a).total_cmp(&t(b)).then(a.cmp(&b))
+    }
+
+    /// The earliest node and its instant, if due strictly before `t`.
+    fn first_before(&self, t: f64) -> Option<(f64, usize)> {
+        let &i = self.order.front()?;
+        let at = self.at.get(i).copied()?;
+        (at < t).then_some((at, i))
+    }
+
+    /// Move the earliest node to its next instant `at` (`None`: out of the queue).
+    fn reschedule_first(&mut self, at: Option<f64>) {
+        let (Some(i), Some(at)) = (self.order.pop_front(), at) else {
+            return;
+        };
+        if let Some(slot) = self.at.get_mut(i) {
+            *slot = at;
+        }
+        let mut pos = self.order.len();
+        while pos > 0 {
+            let Some(&before) = self.order.get(pos - 1) else {
+                break;
+            };
+            if Self::key_cmp(&self.at, before, i).is_gt() {
+                pos -= 1;
+            } else {
+                break;
+            }
+        }
+        self.order.insert(pos, i);
     }
 }
 
 fn wrap(d: f64) -> f64 {
-    d - d.round()
+    d - round(d)
+}
+
+/// Below this magnitude every `f64` converts to `i64` and back exactly.
+const EXACT_INT: f64 = 4_503_599_627_370_496.0; // 2^52
+
+/// `x.floor()`, bit for bit (signed zeros and NaN included), without the libm call the
+/// baseline x86-64 target makes for it: truncation through `i64` is exact below 2^52.
+#[inline]
+fn floor(x: f64) -> f64 {
+    if x.abs() < EXACT_INT {
+        let t = x as i64 as f64;
+        if t == x {
+            x
+        } else if t > x {
+            t - 1.0
+        } else {
+            t
+        }
+    } else {
+        x.floor()
+    }
+}
+
+/// `x.round()` (half away from zero), bit for bit, as [`floor`]: `x − trunc(x)` is exact
+/// below 2^52, and the result carries the sign of `x` (so −0.3 rounds to −0.0).
+#[inline]
+fn round(x: f64) -> f64 {
+    if x.abs() < EXACT_INT {
+        let t = x as i64 as f64;
+        let d = x - t;
+        let r = if d >= 0.5 {
+            t + 1.0
+        } else if d <= -0.5 {
+            t - 1.0
+        } else {
+            t
+        };
+        r.copysign(x)
+    } else {
+        x.round()
+    }
 }
 
 /// Largest pairwise wrapped difference of phases in turns (`0..=½`).
@@ -252,7 +335,7 @@ fn link_latencies(setup: &Replica, e: &[f64], rng: &mut ChaCha8Rng) -> (Vec<f64>
     let slots = setup.nbr.len();
     let told = |rx: usize, mean: f64| {
         if setup.latency_known {
-            (mean * (1.0 + e.get(rx).copied().unwrap_or(0.0))).round()
+            round(mean * (1.0 + e.get(rx).copied().unwrap_or(0.0)))
         } else {
             0.0
         }
@@ -294,11 +377,18 @@ struct Wires {
     table: Vec<Option<Entry>>,
 }
 
+/// When a sampled run may stop before the horizon: once its error has stayed within
+/// `inner` for `stay` samples.
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct EarlyStop {
+    pub(crate) inner: f64,
+    pub(crate) stay: usize,
+}
+
 /// One run of the model from the generator's stream `run`: the largest pairwise phase
-/// error at each sample `k` (at `(k + ½)` update intervals), turns. With `stop =
-/// Some((inner, w))` the run ends early once its last `w` samples are all within
-/// `inner` (the series is then shorter than the horizon).
-pub(crate) fn run(setup: &Replica, seed: u64, run: u64, stop: Option<(f64, usize)>) -> Vec<f64> {
+/// error at each sample `k` (at `(k + ½)` update intervals), turns. With `stop` the run
+/// may end early (see [`EarlyStop`]; the series is then shorter than the horizon).
+pub(crate) fn run(setup: &Replica, seed: u64, run: u64, stop: Option<EarlyStop>) -> Vec<f64> {
     let mut rng = ChaCha8Rng::seed_from_u64(seed);
     rng.set_stream(run);
     let n = setup.nodes();
@@ -348,38 +438,28 @@ pub(crate) fn run(setup: &Replica, seed: u64, run: u64, stop: Option<(f64, usize
         flights: vec![VecDeque::new(); slots],
         table: vec![None; slots],
     };
-    let mut queue: BinaryHeap<Due> = st
-        .iter()
-        .enumerate()
-        .map(|(i, s)| Due(s.next_local / (1.0 + s.e), i))
-        .collect();
+    let mut queue = DueQueue::new(st.iter().map(|s| s.next_local / (1.0 + s.e)));
     let mut errors = Vec::with_capacity(setup.horizon);
     let mut phases = vec![0.0; n];
     let mut scratch = Vec::new();
     let mut inside = 0_usize;
     for k in 0..setup.horizon {
         let t_sample = (k as f64 + 0.5) * m;
-        while let Some(&Due(t, i)) = queue.peek() {
-            if t >= t_sample {
-                break;
-            }
-            queue.pop();
+        while let Some((t, i)) = queue.first_before(t_sample) {
             update(setup, &mut st, &mut wires, &mut rng, t, i);
-            if let Some(s) = st.get(i) {
-                queue.push(Due(s.next_local / (1.0 + s.e), i));
-            }
+            queue.reschedule_first(st.get(i).map(|s| s.next_local / (1.0 + s.e)));
         }
         for (p, s) in phases.iter_mut().zip(&st) {
             // The simulator reads each node at its completed timer tick.
             let local = t_sample * (1.0 + s.e);
-            let q = local - local.floor();
+            let q = local - floor(local);
             *p = s.x + s.drift(r) * (t_sample - s.t_last) - q * (r + s.trim);
         }
         let error = largest_pairwise(&phases, &mut scratch);
         errors.push(error);
-        if let Some((inner, w)) = stop {
-            inside = if error > inner { 0 } else { inside + 1 };
-            if inside >= w {
+        if let Some(stop) = stop {
+            inside = if error > stop.inner { 0 } else { inside + 1 };
+            if inside >= stop.stay {
                 break;
             }
         }
@@ -434,7 +514,7 @@ fn update(
             if is_ref {
                 continue;
             }
-            let heard = (f.arrive * (1.0 + me.e) + f.stamp_err).round();
+            let heard = round(f.arrive * (1.0 + me.e) + f.stamp_err);
             let told = wires.told[s];
             let sample = delay_sample(setup, &f, heard, me.trim, told);
             let entry = wires.table[s].get_or_insert(Entry {
@@ -520,9 +600,9 @@ fn update(
         let ej = st.get(j).map_or(0.0, |s| s.e);
         let local = arrive * (1.0 + ej);
         let mut stamp_err = if setup.completed {
-            local.floor() - local
+            floor(local) - local
         } else {
-            local.round() - local
+            round(local) - local
         };
         if setup.ts_jitter > 0 {
             stamp_err += rng.random_range(-setup.ts_jitter..=setup.ts_jitter) as f64;
@@ -536,5 +616,82 @@ fn update(
             trim_frac,
             echo: echo.and_then(|(slot, e)| (slot == s).then_some(e)),
         });
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::{DueQueue, floor, round};
+    use rand::{Rng, SeedableRng};
+    use rand_chacha::ChaCha8Rng;
+
+    /// The fast `floor` and `round` are the standard library's bit for bit: halves,
+    /// signed zeros, integers, the 2^52 edge, infinities, NaN and random values over
+    /// many magnitudes.
+    #[test]
+    fn floor_and_round_are_bit_exact() {
+        let mut xs = vec![
+            0.0,
+            -0.0,
+            0.5,
+            -0.5,
+            1.5,
+            -1.5,
+            2.5,
+            -2.5,
+            0.49999999999999994,
+            -0.49999999999999994,
+            1.0 - f64::EPSILON / 2.0,
+            4_503_599_627_370_495.5,
+            -4_503_599_627_370_495.5,
+            4_503_599_627_370_496.0,
+            9_007_199_254_740_993.0,
+            1e300,
+            -1e300,
+            f64::MIN_POSITIVE,
+            -f64::MIN_POSITIVE,
+            f64::INFINITY,
+            f64::NEG_INFINITY,
+            f64::NAN,
+        ];
+        let mut rng = ChaCha8Rng::seed_from_u64(5);
+        for _ in 0..200_000 {
+            let scale = 10f64.powi(rng.random_range(-6..18));
+            xs.push((rng.random::<f64>() - 0.5) * scale);
+            xs.push(f64::from(rng.random_range(-1000..1000)) + 0.5);
+        }
+        for x in xs {
+            assert_eq!(floor(x).to_bits(), x.floor().to_bits(), "floor({x:e})");
+            assert_eq!(round(x).to_bits(), x.round().to_bits(), "round({x:e})");
+        }
+    }
+
+    /// The queue hands out nodes in the order a binary heap keyed on (instant, index)
+    /// would, with ties and reschedules to any place.
+    #[test]
+    fn due_queue_matches_a_heap() {
+        use std::cmp::Reverse;
+        use std::collections::BinaryHeap;
+        let mut rng = ChaCha8Rng::seed_from_u64(9);
+        for _ in 0..200 {
+            let n = rng.random_range(1..40);
+            // Coarse instants, so that ties are common.
+            let start: Vec<f64> = (0..n).map(|_| f64::from(rng.random_range(0..20))).collect();
+            let mut queue = DueQueue::new(start.iter().copied());
+            let mut heap: BinaryHeap<Reverse<(u64, usize)>> = start
+                .iter()
+                .enumerate()
+                .map(|(i, &t)| Reverse((t.to_bits(), i)))
+                .collect();
+            for _ in 0..500 {
+                let Reverse((bits, i)) = heap.pop().unwrap();
+                let t = f64::from_bits(bits);
+                assert_eq!(queue.first_before(f64::INFINITY), Some((t, i)));
+                assert_eq!(queue.first_before(t), None, "strictly before");
+                let next = t + f64::from(rng.random_range(0..25));
+                queue.reschedule_first(Some(next));
+                heap.push(Reverse((next.to_bits(), i)));
+            }
+        }
     }
 }

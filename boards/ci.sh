@@ -179,9 +179,10 @@ field_check() {
     python3 "$here/field-summary.py" "$@" <"$logs/field.json"
 }
 step "field check of the P chain's telemetry against boards/chain-p.toml"
-# The decay fitted from the emulated links' noisy stamps came out more than 1.5 times
-# slower than predicted in one run of six (fitted 0.937 per update against 0.905, on a
-# run whose noise floor was 5 times the others'): printed, not gating.
+# The decay fitted from the emulated links' noisy stamps is noisy too: 0.805 to 0.937
+# per update against 0.909 predicted in nine runs; the slowest, on a run with a high noise
+# floor, is just inside the 1.5 times allowed (see README.md, "The field check"). A
+# `slower_than_predicted` is printed, not gating.
 field_check chain-p.toml "$chain_logs/p" --gate 5 --allow slower_than_predicted
 
 # The PI law over the same links (issue 12): reported; it gates only with

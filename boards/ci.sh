@@ -14,10 +14,14 @@
 #   6. the cost tables (instructions per update, per law and neighbour count);
 #   7. the chain of five emulated nodes locks under the P law with version-2 beacons and
 #      no latency told; the PI-law run is reported (gating with CHAIN_PI_GATES=1);
+#      each node's telemetry lines are kept, and the host checker's `entrain field`
+#      holds them against boards/chain-p.toml (gating: verdict pass, the links heard
+#      exactly the chain's, both ways) and chain-pi.toml (reported only);
 #   8. the figures in boards/README.md (digests, sizes, cost tables: all deterministic
 #      under -icount) are the ones this run printed (BOARDS_UPDATE_README=1 rewrites them).
 # environment: BOARDS_TARGET_DIR (default boards/target), HOST_TARGET_DIR (default
-# target/), NODES / RUN_MS / TOL_US for the chain (see run-chain.sh),
+# target/; the host checker `entrain` is built there), NODES / RUN_MS / TOL_US /
+# TELEMETRY_EVERY for the chain (see run-chain.sh),
 # BOARDS_UPDATE_README=1 to rewrite the README's figures instead of checking them.
 set -euo pipefail
 
@@ -38,6 +42,7 @@ step "tools"
 missing=()
 command -v qemu-system-arm >/dev/null || missing+=(qemu-system-arm)
 command -v qemu-system-riscv32 >/dev/null || missing+=(qemu-system-misc)
+command -v python3 >/dev/null || missing+=(python3)
 if ((${#missing[@]})); then
     apt-get update -qq
     apt-get install -y --no-install-recommends "${missing[@]}"
@@ -90,6 +95,11 @@ done
     cargo clippy --release --quiet -- -D warnings
 )
 echo "sifive-e: built"
+# The host checker, for the chain's field check.
+host_target=${HOST_TARGET_DIR:-$here/../target}
+(cd "$here/.." && CARGO_TARGET_DIR=$host_target cargo build --release --quiet --features cli --bin entrain)
+entrain=$host_target/release/entrain
+echo "entrain (host checker): built"
 
 # The boards' runners, spelled out so each run can be bounded by `timeout`.
 qemu_m4() {
@@ -146,7 +156,34 @@ qemu_m4 "$m4/cost" | record
 qemu_m0 "$m0/cost" | record
 
 step "chain of emulated nodes, P law, version-2 beacons, no latency told"
-KI_Q16=0 "$here/run-chain.sh" "$m4/chain"
+chain_logs=$CARGO_TARGET_DIR/chain-logs
+KI_Q16=0 LOG_DIR=$chain_logs/p "$here/run-chain.sh" "$m4/chain"
+
+# Every node's telemetry lines against the scenario of the chain as it runs (five nodes:
+# with another NODES the scenario does not describe the chain, and the check is skipped).
+# The checker exits 1 on a failing verdict, which field-summary.py reads from the JSON;
+# the full text report is kept beside the logs (field.txt).
+field_check() {
+    local scenario=$1 logs=$2 status=0
+    shift 2
+    if [[ ${NODES:-5} != 5 ]]; then
+        echo "field: skipped, $scenario describes five nodes, not NODES=$NODES"
+        return 0
+    fi
+    "$entrain" field "$here/$scenario" "$logs"/node-*.log --json >"$logs/field.json" || status=$?
+    if (( status > 1 )); then
+        echo "entrain field failed with status $status"
+        return "$status"
+    fi
+    "$entrain" field "$here/$scenario" "$logs"/node-*.log >"$logs/field.txt" || true
+    python3 "$here/field-summary.py" "$@" <"$logs/field.json"
+}
+step "field check of the P chain's telemetry against boards/chain-p.toml"
+# The decay fitted from the emulated links' noisy stamps is noisy too: 0.805 to 0.937
+# per update against 0.909 predicted in nine runs; the slowest, on a run with a high noise
+# floor, is just inside the 1.5 times allowed (see README.md, "The field check"). A
+# `slower_than_predicted` is printed, not gating.
+field_check chain-p.toml "$chain_logs/p" --gate 5 --allow slower_than_predicted
 
 # The PI law over the same links (issue 12): reported; it gates only with
 # CHAIN_PI_GATES=1, because on a loaded 2-core host the emulated links' jitter moves
@@ -154,7 +191,10 @@ KI_Q16=0 "$here/run-chain.sh" "$m4/chain"
 step "chain of emulated nodes, PI law with a trim leak, version-2 beacons, no latency told"
 pi_status=0
 KI_Q16=${CHAIN_KI_Q16:-128} SMOOTHING=${CHAIN_SMOOTHING:-5} RUN_MS=${CHAIN_PI_RUN_MS:-60000} \
-    "$here/run-chain.sh" "$m4/chain" || pi_status=$?
+    LOG_DIR=$chain_logs/pi "$here/run-chain.sh" "$m4/chain" || pi_status=$?
+# The PI chain's field report, printed, not gating (issue 12).
+step "field check of the PI chain's telemetry against boards/chain-pi.toml (reported only)"
+field_check chain-pi.toml "$chain_logs/pi" || true
 if (( pi_status != 0 )); then
     if [[ ${CHAIN_PI_GATES:-0} == 1 ]]; then
         exit "$pi_status"

@@ -12,6 +12,11 @@
 # trims' mean, matches its programmed crystal error relative to the crystals' mean,
 # trim - mean trim = -(ppm - mean ppm), within TRIM_TOL_PPM.
 #
+# Every node also writes the crate's telemetry line (`ET1 ...`) of every
+# TELEMETRY_EVERY-th update on the same console; they are kept out of the printed
+# output, and with LOG_DIR set each node's lines go to LOG_DIR/node-K.log (one file per
+# node, for `entrain field`; boards/chain-p.toml and chain-pi.toml describe the chain).
+#
 # usage: run-chain.sh [CHAIN_ELF]
 # environment: NODES (3..5, default 5), RUN_MS (default 12000), TOL_US (default 10000),
 #              KP_Q16 / KI_Q16 / LEAK_Q16 (gains in 1/65536, default 16384 / 0 / KI/64;
@@ -19,7 +24,9 @@
 #              TRIM_TOL_PPM (default 5), DELAY_US (link delay the nodes are told,
 #              default 0: none, they measure it), SMOOTHING (delay smoothing shift,
 #              default 3), SLEW_US (slew limit, us per update, default 62500),
-#              TRIM_LIMIT_PPM (default 200), BASE_PORT.
+#              TRIM_LIMIT_PPM (default 200), BASE_PORT, TELEMETRY_EVERY (default 1;
+#              0: no telemetry lines), LOG_DIR (where the per-node telemetry logs go;
+#              default: not kept).
 set -euo pipefail
 
 here=$(cd "$(dirname "$0")" && pwd)
@@ -37,9 +44,12 @@ trim_limit_ppm=${TRIM_LIMIT_PPM:-200}
 slew_us=${SLEW_US:-62500}
 trim_tol_ppm=${TRIM_TOL_PPM:-5}
 delay_us=${DELAY_US:-0}
+telemetry_every=${TELEMETRY_EVERY:-1}
+log_dir=${LOG_DIR:-}
 if (( ki_q16 > 0 )); then law=PI; else law=P; fi
 base=${BASE_PORT:-$((20000 + $$ % 20000))}
 # Crystal errors, ppm: invented, within a ±100 ppm part (common practice, no source).
+# boards/chain-p.toml and chain-pi.toml repeat them: change both together.
 ppm=(+60 -45 +25 -70 +10)
 
 if [[ ! -f $elf ]]; then
@@ -49,6 +59,10 @@ fi
 if (( nodes < 3 || nodes > 5 )); then
     echo "run-chain: NODES must be 3 to 5, not $nodes" >&2
     exit 2
+fi
+if [[ -n $log_dir ]]; then
+    mkdir -p "$log_dir"
+    rm -f "$log_dir"/node-*.log
 fi
 
 logs=$(mktemp -d)
@@ -97,7 +111,7 @@ for (( i = 0; i < nodes; i++ )); do
     timeout "$limit_s" qemu-system-arm -machine mps2-an386 -cpu cortex-m4 \
         -nographic -monitor none -semihosting-config enable=on,target=native \
         -serial "$left" -serial "$right" -kernel "$elf" \
-        -append "node=$i nodes=$nodes ppm=${ppm[$i]} delay=$delay_us run_ms=$run_ms tol_us=$tol_us kp_q16=$kp_q16 ki_q16=$ki_q16 leak_q16=$leak_q16 version=$version smoothing=$smoothing trim_limit_ppm=$trim_limit_ppm slew_us=$slew_us" \
+        -append "node=$i nodes=$nodes ppm=${ppm[$i]} delay=$delay_us run_ms=$run_ms tol_us=$tol_us kp_q16=$kp_q16 ki_q16=$ki_q16 leak_q16=$leak_q16 version=$version smoothing=$smoothing trim_limit_ppm=$trim_limit_ppm slew_us=$slew_us telemetry=$telemetry_every" \
         >"$logs/node$i.log" 2>&1 &
     pids+=("$!")
     if (( i < nodes - 1 )); then
@@ -117,7 +131,10 @@ for (( i = 0; i < nodes; i++ )); do
     else
         status=$?
     fi
-    cat "$logs/node$i.log"
+    grep -v '^ET1 ' "$logs/node$i.log" || true
+    if [[ -n $log_dir ]]; then
+        grep '^ET1 ' "$logs/node$i.log" >"$log_dir/node-$i.log" || true
+    fi
     if (( status != 0 )); then
         echo "chain: node $i exited with status $status"
         failed=1

@@ -159,3 +159,92 @@ fn unreadable_logs_exit_2_with_a_clear_line() {
         .unwrap();
     assert_eq!(out.status.code(), Some(2));
 }
+
+#[test]
+fn p_law_logs_say_crystals_not_estimated() {
+    // A chain of four under the P law: no node trims, so the report must not turn the
+    // zero trims into crystal estimates of 0 ppm.
+    let dir = tempfile::tempdir().unwrap();
+    let scenario = dir.path().join("p-chain.toml");
+    std::fs::write(
+        &scenario,
+        r#"version = 1
+name = "P-law chain"
+[network]
+topology = "chain"
+nodes = 4
+[timing]
+update_rate_hz = 10
+phase_period_s = 1
+[law]
+coupling = "sine"
+kp = 0.25
+[clock]
+crystal_tolerance_ppm = 50
+crystal_ppm = [40, -30, 10, -45]
+timestamp_jitter_s = 0.00001
+[lock]
+initial_spread_s = 0.2
+tolerance_s = 0.005
+budget_s = 20
+[monte_carlo]
+runs = 1
+seed = 3
+"#,
+    )
+    .unwrap();
+    let logs = dir.path().join("logs");
+    let out = entrain()
+        .arg("simulate")
+        .arg(&scenario)
+        .arg("--telemetry")
+        .arg(&logs)
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let mut files: Vec<PathBuf> = std::fs::read_dir(&logs)
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .collect();
+    files.sort();
+    assert_eq!(files.len(), 4);
+    let out = entrain()
+        .arg("field")
+        .arg(&scenario)
+        .args(&files)
+        .arg("--json")
+        .output()
+        .unwrap();
+    let v: Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(v["observed"]["crystals_estimated"], false);
+    let nodes = v["nodes"].as_array().unwrap();
+    assert_eq!(nodes.len(), 4);
+    for n in nodes {
+        assert_eq!(n["trim_ppm"], 0.0, "{n}");
+        assert!(n["crystal_ppm"].is_null(), "{n}");
+    }
+    let out = entrain()
+        .arg("field")
+        .arg(&scenario)
+        .args(&files)
+        .output()
+        .unwrap();
+    let report = String::from_utf8(out.stdout).unwrap();
+    let rows: Vec<&str> = report
+        .lines()
+        .skip_while(|l| l.trim() != "Nodes")
+        .skip(2)
+        .take(4)
+        .collect();
+    assert_eq!(rows.len(), 4, "{report}");
+    for row in rows {
+        // The trim column reads 0.0 ppm; the crystal column must not.
+        assert!(row.contains("not estimated"), "{row}");
+        assert_eq!(row.matches("ppm").count(), 1, "{row}");
+    }
+    assert!(report.contains("crystal offsets not estimated"), "{report}");
+}

@@ -109,6 +109,34 @@ fn a_healthy_network_passes_and_its_loss_and_crystals_read_back() {
 }
 
 #[test]
+fn under_the_p_law_crystals_are_not_estimated() {
+    // No integral path: every node's trim stays 0 whatever its crystal, so reading the
+    // crystals from the trims would report every one as 0 ppm (here they are up to
+    // 18 ppm off). The check must say it cannot tell, not 0.
+    let crystals = [12.0, -7.5, 3.0, 18.0, -15.0, 0.5, -2.0, 9.0];
+    let p_law = |text: &str| {
+        text.replace("ki = 0.02\n", "").replace(
+            "timestamp_jitter_s",
+            &format!("crystal_ppm = {crystals:?}\ntimestamp_jitter_s"),
+        )
+    };
+    let truth = Scenario::from_toml(Path::new("p-law.toml"), &p_law(PLANNED)).unwrap();
+    assert!(!truth.gains.is_pi());
+    let logs = logs_of(&truth, &[]);
+    assert!(logs.records.iter().all(|r| r.head.trim_ppb == 0));
+    let check = field_check(truth, &logs).unwrap();
+    let r = &check.report;
+    assert!(!r.crystals_estimated);
+    assert_eq!(r.nodes.len(), crystals.len());
+    for n in &r.nodes {
+        assert_eq!(n.trim_ppm, Some(0.0), "node {}", n.id);
+        assert_eq!(n.crystal_ppm, None, "node {}", n.id);
+    }
+    // The PI scenario of the same network does estimate them (see the healthy test).
+    assert!(planned().gains.is_pi());
+}
+
+#[test]
 fn each_fault_is_named_and_nothing_else_is_blamed() {
     // As built: link 3–4 never installed, node 5 on a 200 ppm crystal, and link 0–1
     // losing 30 % of its beacons.

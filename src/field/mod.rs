@@ -47,6 +47,9 @@
 //!   is the same on every node. With the median crystal taken as nominal, node i's
 //!   crystal is the median trim minus its own (median over its last quarter of records);
 //!   for a pinned chain the reference is nominal and the crystal is minus the trim.
+//!   Under the P law (`ki = 0`) no node trims, so the trims say nothing of the crystals:
+//!   they are not estimated ([`FieldReport::crystals_estimated`] is false, every
+//!   [`NodeReport::crystal_ppm`] is `None`) rather than reported as 0 ppm.
 //!
 //! # Verdict
 //!
@@ -147,7 +150,8 @@ pub struct NodeReport {
     pub merge: MergeCounts,
     /// Median trim over its last quarter of records, ppm.
     pub trim_ppm: Option<f64>,
-    /// Crystal error estimated from the trims, ppm.
+    /// Crystal error estimated from the trims, ppm (`None`: no records, not in the
+    /// scenario, or not estimated at all, see [`FieldReport::crystals_estimated`]).
     pub crystal_ppm: Option<f64>,
     /// A trim at its limit in its last quarter of records.
     pub trim_at_limit: bool,
@@ -445,6 +449,9 @@ pub struct FieldReport {
     pub unexpected: Vec<(usize, usize)>,
     /// Every node with records, and every node of the scenario.
     pub nodes: Vec<NodeReport>,
+    /// The crystals were estimated from the trims: false under the P law (`ki = 0`),
+    /// whose nodes keep no rate trim.
+    pub crystals_estimated: bool,
     /// Phase error per complete round: (seconds from power-up, seconds of phase).
     pub error_s: Vec<(f64, f64)>,
     /// Rounds spanned by the logs.
@@ -738,7 +745,11 @@ pub fn analyse(a: &Assessment, logs: &LogSet) -> Result<FieldReport, AssessError
             trim_at_limit: at_limit,
         });
     }
-    let common = if reference.is_some() {
+    // The P law keeps no rate trim: every trim is 0 whatever the crystals are.
+    let crystals_estimated = s.gains.is_pi();
+    let common = if !crystals_estimated {
+        None
+    } else if reference.is_some() {
         Some(0.0)
     } else {
         median(&mut trims.iter().map(|t| t.1).collect::<Vec<_>>())
@@ -980,6 +991,7 @@ pub fn analyse(a: &Assessment, logs: &LogSet) -> Result<FieldReport, AssessError
         missing,
         unexpected,
         nodes,
+        crystals_estimated,
         error_s,
         rounds: span,
         incomplete_rounds: incomplete,

@@ -7,8 +7,9 @@
 //! `tol_us=`, `kp_q16=`, `ki_q16=` and `leak_q16=` (gains in 1/65536; default 0.25, 0
 //! and 0: the P law), `version=` (the beacon frame version sent, 1 or 2; default 2),
 //! `smoothing=` (the node's delay smoothing shift, default 3), `trim_limit_ppm=`
-//! (default 200) and `slew_us=` (the slew limit, µs of phase per update; default 62,500,
-//! the law's default of 1/16 turn).
+//! (default 200), `slew_us=` (the slew limit, µs of phase per update; default 62,500,
+//! the law's default of 1/16 turn) and `telemetry=K` (a telemetry line every K updates,
+//! default 1; 0: none).
 //! UART0 is the link to node I−1, UART1 the link to node I+1 (the script gives the end
 //! nodes a null line on the missing side).
 //!
@@ -20,6 +21,11 @@
 //! each carries its send stamp and one echo, for the left and the right neighbour in
 //! turn, so every node measures each link's delay by two-way exchange instead of being
 //! told it.
+//!
+//! Telemetry: every K updates the node writes the crate's telemetry line of that update
+//! ([`entrain::telemetry::write_line`], `ET1 …`, its update count from 0 at the first
+//! update) on its semihosting console, between the other lines; `run-chain.sh` sorts
+//! them into one log per node for `entrain field`.
 //!
 //! Verdict: over the judging window (from 60 % to 90 % of the run) the node records, for
 //! each neighbour, the phase difference of every received beacon (the neighbour's phase
@@ -36,11 +42,12 @@
 use crate::cmsdk_uart::Uart;
 use crate::crystal::Crystal;
 use crate::host;
+use crate::line::LineBuf;
 use crate::link::FrameReceiver;
 use core::sync::atomic::{AtomicU32, Ordering};
 use cortex_m::peripheral::syst::SystClkSource;
 use cortex_m::peripheral::{NVIC, SCB, SYST};
-use cortex_m_semihosting::hprintln;
+use cortex_m_semihosting::{hprint, hprintln};
 use entrain::beacon::{BeaconPort, FrameVersion, MAX_FRAME_LEN};
 use entrain::{Config, Gain, Law, Node, NodeId, Phase};
 
@@ -164,6 +171,7 @@ struct Args {
     smoothing: u8,
     trim_limit_ppm: u32,
     slew_us: u32,
+    telemetry_every: u32,
 }
 
 fn args() -> Option<Args> {
@@ -186,6 +194,7 @@ fn args() -> Option<Args> {
         smoothing: u8::try_from(num("smoothing", Some(3))?).ok()?,
         trim_limit_ppm: u32::try_from(num("trim_limit_ppm", Some(200))?).ok()?,
         slew_us: u32::try_from(num("slew_us", Some(62_500))?).ok()?,
+        telemetry_every: u32::try_from(num("telemetry", Some(1))?).ok()?,
     })
 }
 
@@ -262,7 +271,7 @@ fn signed_counts_to_us(counts: i64) -> i64 {
 pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
     let Some(a) = args() else {
         hprintln!(
-            "chain: command line must say node=I nodes=N [ppm=E delay=D run_ms=T tol_us=U kp_q16= ki_q16= leak_q16= version=1|2]"
+            "chain: command line must say node=I nodes=N [ppm=E delay=D run_ms=T tol_us=U kp_q16= ki_q16= leak_q16= version=1|2 telemetry=K]"
         );
         return false;
     };
@@ -342,6 +351,8 @@ pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
     let mut next_update = now.wrapping_add(UPDATE_TICKS);
     let mut wire = [0u8; MAX_FRAME_LEN];
     let mut updates = 0u32;
+    // The telemetry line of the latest update (two neighbours: under 130 bytes).
+    let mut telemetry: LineBuf<160> = LineBuf::new();
     // Rate trim over the judging window: sum (ppb) and count of updates.
     let mut trim_sum = 0i64;
     let mut trim_n = 0i64;
@@ -409,6 +420,23 @@ pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
                 }
             }
             let report = port.node_mut().update(now);
+            telemetry.clear();
+            if a.telemetry_every > 0 && updates.is_multiple_of(a.telemetry_every) {
+                // Formatted now, from the state the update left; written after the
+                // beacons are out, so the console write does not delay them. A line that
+                // does not fit is left out rather than cut.
+                let written = entrain::telemetry::write_line(
+                    &mut telemetry,
+                    a.id,
+                    updates,
+                    &report,
+                    port.node(),
+                )
+                .and_then(|()| core::fmt::Write::write_str(&mut telemetry, "\n"));
+                if written.is_err() {
+                    telemetry.clear();
+                }
+            }
             updates = updates.wrapping_add(1);
             if elapsed_us >= judge_from && elapsed_us < judge_to {
                 trim_sum = trim_sum.wrapping_add(i64::from(port.node().trim_ppb()));
@@ -428,6 +456,9 @@ pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
                         u.write_byte(b);
                     }
                 }
+            }
+            if !telemetry.is_empty() {
+                hprint!("{}", telemetry.as_str());
             }
             next_update = next_update.wrapping_add(UPDATE_TICKS);
             // After a long stall, do not try to catch up update by update.

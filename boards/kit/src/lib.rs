@@ -14,6 +14,7 @@ pub mod cost;
 pub mod crystal;
 pub mod host;
 pub mod icount;
+pub mod line;
 #[cfg(feature = "chain")]
 pub mod link;
 #[cfg(feature = "pulse")]

@@ -456,6 +456,7 @@ pub fn field(
             "settle_s": opt(r.settle_s),
             "noise_floor_s": r.noise_floor_s.map_or(Value::Null, |(a, b)| json!({"p50": num(a), "p99": num(b)})),
             "noise_floor_limit_s": opt(r.noise_limit_s),
+            "crystals_estimated": r.crystals_estimated,
             "decay": r.decay.map_or(Value::Null, |d| json!({
                 "fitted_per_update": num(d.fitted_per_update),
                 "predicted_per_update": num(d.predicted_per_update),
@@ -472,6 +473,7 @@ pub fn field(
         json!({
             "settle_s": p.settle.map_or(Value::Null, |t| json!({"p50": opt(t.p50_s), "p90": opt(t.p90_s), "compared": num(t.compared_s)})),
             "noise_floor_s": p.noise_floor.map_or(Value::Null, |n| json!({"p50": num(n.p50_s), "p99": num(n.p99_s)})),
+            "decay_per_update": num(p.stability.mean_radius_with_loss),
         }),
     );
     m.insert(

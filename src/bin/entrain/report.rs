@@ -889,8 +889,18 @@ pub fn field(c: &entrain::field::FieldCheck, plot: Option<&Path>) -> String {
             n.id,
             n.merge.records,
             n.trim_ppm.map_or_else(|| "—".to_owned(), ppm),
-            n.crystal_ppm.map_or_else(|| "—".to_owned(), ppm),
+            match n.crystal_ppm {
+                Some(x) => ppm(x),
+                None if r.crystals_estimated => "—".to_owned(),
+                None => "not estimated".to_owned(),
+            },
             notes.join("; ")
+        );
+    }
+    if !r.crystals_estimated {
+        let _ = writeln!(
+            s,
+            "  crystal offsets not estimated: the P law (ki = 0) keeps no rate trim to read them from"
         );
     }
 
@@ -955,12 +965,20 @@ pub fn field(c: &entrain::field::FieldCheck, plot: Option<&Path>) -> String {
                 ),
             );
         }
-        None => row(
-            &mut s,
-            "decay per update, fitted",
-            "—",
-            "no transient to fit",
-        ),
+        None => {
+            row(
+                &mut s,
+                "decay per update, fitted",
+                "—",
+                "no transient to fit",
+            );
+            row(
+                &mut s,
+                "decay per update, predicted",
+                &format!("{:.6}", p.stability.mean_radius_with_loss),
+                "slowest mode, mean dynamics with loss",
+            );
+        }
     }
     heading(&mut s, "Warnings");
     if r.warnings.is_empty() {

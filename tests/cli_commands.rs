@@ -432,3 +432,118 @@ fn every_example_checks_and_passes() {
         );
     }
 }
+
+/// Grounded chain of N followers, reference at one end: λ_k = 4·sin²((2k − 1)π/(2(2N + 1))),
+/// k = 1..N. Yueh (2005), "Eigenvalues of several tridiagonal matrices", Applied
+/// Mathematics E-Notes 5, 66–74 (form quoted from memory; tests/graph_spectra.rs also
+/// checks it against nalgebra).
+fn pinned_chain_eigenvalue(n: usize, k: usize) -> f64 {
+    let x = (2 * k - 1) as f64 * PI / (2 * (2 * n + 1)) as f64;
+    4.0 * x.sin().powi(2)
+}
+
+/// The conveyor example rewritten as a 12-segment line fed by a disciplined clock at
+/// node 0 (`reference_nodes`), next to the same line as a `pinned_chain`.
+fn referenced_line(kp: &str, ki: &str) -> tempfile::TempDir {
+    let edges: Vec<String> = (0..12).map(|i| format!("[{i}, {}]", i + 1)).collect();
+    let network = format!("edges = [{}]\nreference_nodes = [0]", edges.join(", "));
+    let dir = variant(
+        "line.toml",
+        "examples/conveyor.toml",
+        &[
+            ("edge_list_file = \"conveyor.edges\"", &network),
+            ("kp = \"tune\"", kp),
+            ("ki = \"tune\"", ki),
+        ],
+    );
+    let pinned = std::fs::read_to_string(dir.path().join("line.toml"))
+        .unwrap()
+        .replace(
+            "topology = \"edge_list\"",
+            "topology = \"pinned_chain\"\nnodes = 12",
+        )
+        .replace(&network, "");
+    std::fs::write(dir.path().join("pinned.toml"), pinned).unwrap();
+    dir
+}
+
+#[test]
+fn reference_nodes_plan_as_the_grounded_laplacian() {
+    let dir = referenced_line("kp = 0.4", "ki = 0.02");
+    let line = dir.path().join("line.toml");
+    let (v, status) = json(&["spectrum", line.to_str().unwrap()]);
+    assert_eq!(status, 0);
+    assert_eq!(v["scenario"]["reference_nodes"], serde_json::json!([0]));
+    assert_eq!(v["spectrum"]["pinned"], true);
+    assert_eq!(v["spectrum"]["node_count"], 12);
+    let ev = v["eigenvalues"].as_array().unwrap();
+    assert_eq!(ev.len(), 12);
+    for (k, x) in ev.iter().enumerate() {
+        assert!(
+            (f(x) - pinned_chain_eigenvalue(12, k + 1)).abs() < TOL,
+            "k={k}"
+        );
+    }
+    // λslow ≈ 0.01577, not the free 13-node chain's 0.0584.
+    assert!((f(&v["spectrum"]["lambda_slow"]) - 0.01577).abs() < 5e-6);
+    // The reference does not move in the slowest mode; the far end moves most.
+    assert_eq!(f(&v["slow_mode"][0]), 0.0);
+    assert_eq!(f(&v["slow_mode"][12]), 1.0);
+    // The planner's verdict and stability figures equal the closed-form pinned chain's.
+    let pinned = dir.path().join("pinned.toml");
+    let (a, sa) = json(&["check", line.to_str().unwrap(), "--no-simulate"]);
+    let (b, sb) = json(&["check", pinned.to_str().unwrap(), "--no-simulate"]);
+    assert_eq!(sa, sb);
+    assert_eq!(a["verdict"], b["verdict"]);
+    for key in ["stability", "margins"] {
+        assert_eq!(a["prediction"][key], b["prediction"][key], "{key}");
+    }
+    assert_eq!(b["spectrum"]["source"], "closed_form");
+    for key in ["lambda_slow", "lambda_max", "max_degree", "flow_factor"] {
+        assert!(
+            (f(&a["spectrum"][key]) - f(&b["spectrum"][key])).abs() < 1e-9,
+            "{key}"
+        );
+    }
+}
+
+#[test]
+fn reference_nodes_tune_and_simulate() {
+    // Undelayed P law: the fastest gain of a pinned network is near
+    // 2/(λ1 + λmax) (Xiao & Boyd 2004, the optimal constant step for the grounded
+    // Laplacian's spectrum); the tuner's scan is coarse, so within 5 %.
+    let dir = referenced_line("kp = \"tune\"", "ki = 0");
+    let line = dir.path().join("line.toml");
+    let (v, _) = json(&["tune", line.to_str().unwrap()]);
+    let best = 2.0 / (pinned_chain_eigenvalue(12, 1) + pinned_chain_eigenvalue(12, 12));
+    let fastest = f(&v["tuning"]["fastest"]["kp"]);
+    assert!((fastest / best - 1.0).abs() < 0.05, "{fastest} vs {best}");
+    // The simulator runs the node code with node 0 held to the reference: every run
+    // settles onto it.
+    let dir = referenced_line("kp = 0.4", "ki = 0.02");
+    let line = dir.path().join("line.toml");
+    let (v, status) = json(&["simulate", line.to_str().unwrap(), "--runs", "2"]);
+    assert!(status == 0 || status == 1, "{status}");
+    assert_eq!(v["simulation"]["runs"], 2);
+    assert_eq!(v["simulation"]["settled_runs"], 2);
+}
+
+#[test]
+fn spectrum_prints_tiny_eigenvalues_in_scientific_notation() {
+    // A 300-node chain: λ2 = 4·sin²(π/600) = 1.0966e-4 (path spectrum, Fiedler 1973).
+    let dir = variant(
+        "long.toml",
+        "examples/footbridge.toml",
+        &[("nodes = 24", "nodes = 300")],
+    );
+    let file = dir.path().join("long.toml");
+    let out = entrain()
+        .args(["spectrum", file.to_str().unwrap()])
+        .output()
+        .unwrap();
+    let text = String::from_utf8(out.stdout).unwrap();
+    let want = path_eigenvalue(300, 1);
+    assert!(want < 1e-3);
+    assert!(text.contains(&format!("{want:.5e}")), "{text}");
+    assert!(!text.contains("  0.000110  "), "{text}");
+}

@@ -125,7 +125,8 @@ down_s = 0.4
         Layout::EdgeList {
             path: Path::new("quay.toml").to_path_buf(),
             nodes: 4,
-            edges: vec![(0, 1), (1, 2), (2, 0), (2, 3)]
+            edges: vec![(0, 1), (1, 2), (2, 0), (2, 3)],
+            references: Vec::new(),
         }
     );
     assert_eq!(back(&s), s);

@@ -413,8 +413,7 @@ fn forecast_runs(
 /// polynomials on the Laplacian's eigenvalues (grounded at a pinned reference).
 fn slowest_period(s: &Setup) -> Option<f64> {
     let n = s.nodes();
-    let reference = s.links.reference();
-    let keep: Vec<usize> = (0..n).filter(|&i| Some(i) != reference).collect();
+    let keep: Vec<usize> = (0..n).filter(|&i| !s.links.is_reference(i)).collect();
     let pos = |i: usize| keep.iter().position(|&k| k == i);
     let mut l = DMatrix::<f64>::zeros(keep.len(), keep.len());
     for &(a, b) in s.links.pairs() {

@@ -26,7 +26,8 @@ pub(crate) struct Replica {
     nbr: Vec<usize>,
     /// For receiver slot s (node i's neighbour j), the slot of i in j's list.
     back: Vec<usize>,
-    reference: Option<usize>,
+    /// `true` at each reference node (beacons the ideal phase, never adjusts).
+    reference: Vec<bool>,
     /// Update interval M, ticks.
     m: f64,
     /// Turns per tick, `1/ticks_per_period`.
@@ -100,7 +101,7 @@ impl Replica {
             off,
             nbr,
             back,
-            reference: s.links.reference(),
+            reference: (0..s.nodes()).map(|i| s.links.is_reference(i)).collect(),
             m: f64::from(c.update_ticks()),
             r,
             kp: c.kp().to_f64(),
@@ -313,7 +314,7 @@ pub(crate) fn run(setup: &Replica, seed: u64, run: u64, stop: Option<(f64, usize
     };
     let mut st: Vec<State> = (0..n)
         .map(|i| {
-            let e = if setup.reference == Some(i) {
+            let e = if setup.reference[i] {
                 0.0
             } else {
                 ppm[i] * 1e-6
@@ -322,6 +323,9 @@ pub(crate) fn run(setup: &Replica, seed: u64, run: u64, stop: Option<(f64, usize
                 StartPhases::Uniform { spread_turns } => (rng.random::<f64>() - 0.5) * spread_turns,
                 StartPhases::Fixed(v) => v[i],
             };
+            // Every reference holds the reference phase: the ideal clock's (the draw
+            // above still happens, so the other nodes' draws do not move).
+            let x = if setup.reference[i] { 0.0 } else { x };
             let first = if setup.random_start {
                 rng.random_range(0..setup.m as u64) as f64
             } else {
@@ -425,7 +429,7 @@ fn update(
     me.t_last = t;
     // Updates fall on whole ticks of the node's own timer.
     let now_local = me.next_local;
-    let is_ref = setup.reference == Some(i);
+    let is_ref = setup.reference[i];
     for s in lo..hi {
         while wires.flights[s].front().is_some_and(|f| f.arrive < t) {
             let Some(f) = wires.flights[s].pop_front() else {

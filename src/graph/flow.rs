@@ -71,14 +71,38 @@ impl Graph {
             });
         }
         let n = self.node_count();
-        // L† = (L + J/n)⁻¹ − J/n for a connected graph.
-        let l = self.laplacian_dense()?;
-        let shifted = l.add_scalar(1.0 / n as f64);
-        let inverse = shifted
-            .cholesky()
-            .ok_or(GraphError::Factorization)?
-            .inverse();
-        let pinv = inverse.add_scalar(-1.0 / n as f64);
+        let pinv = if self.is_pinned() {
+            // Referenced: θ = L_g⁻¹ω̃ on the adjusting nodes, 0 at the references.
+            let inverse = self
+                .grounded_laplacian_dense()?
+                .cholesky()
+                .ok_or(GraphError::Factorization)?
+                .inverse();
+            let keep: Vec<Option<usize>> = {
+                let mut next = 0;
+                (0..n)
+                    .map(|i| {
+                        (!self.is_reference(i)).then(|| {
+                            next += 1;
+                            next - 1
+                        })
+                    })
+                    .collect()
+            };
+            nalgebra::DMatrix::from_fn(n, n, |r, c| match (keep[r], keep[c]) {
+                (Some(a), Some(b)) => inverse[(a, b)],
+                _ => 0.0,
+            })
+        } else {
+            // L† = (L + J/n)⁻¹ − J/n for a connected graph.
+            let l = self.laplacian_dense()?;
+            let shifted = l.add_scalar(1.0 / n as f64);
+            let inverse = shifted
+                .cholesky()
+                .ok_or(GraphError::Factorization)?
+                .inverse();
+            inverse.add_scalar(-1.0 / n as f64)
+        };
         let mut worst = (0.0_f64, vec![0.0; n]);
         for e in self.edges() {
             let (ca, cb) = (pinv.column(e.a), pinv.column(e.b));

@@ -149,6 +149,7 @@ pub fn connected_edges(
                 path: Path::new("generated.toml").to_path_buf(),
                 nodes: n,
                 edges,
+                references: Vec::new(),
             }
         })
         .boxed()
@@ -452,10 +453,16 @@ impl Deployments {
             .prop_map(move |(layout, crystals, loss, latency, spread, outages)| {
                 let mut s = base.clone();
                 let layout = match layout {
-                    Layout::EdgeList { nodes, edges, .. } => Layout::EdgeList {
+                    Layout::EdgeList {
+                        nodes,
+                        edges,
+                        references,
+                        ..
+                    } => Layout::EdgeList {
                         path: s.path.clone(),
                         nodes,
                         edges,
+                        references,
                     },
                     other => other,
                 };

@@ -224,6 +224,7 @@ struct RawNetwork {
     cols: Option<S<i64>>,
     edge_list_file: Option<S<String>>,
     edges: Option<S<Vec<(i64, i64)>>>,
+    reference_nodes: Option<S<Vec<i64>>>,
 }
 
 #[derive(Deserialize)]
@@ -379,11 +380,15 @@ pub enum Layout {
         nodes: usize,
         /// Undirected edges `(a, b)`, `a ≠ b`, each listed once.
         edges: Vec<(usize, usize)>,
+        /// Reference nodes (`[network] reference_nodes`), ascending: they beacon the
+        /// reference phase at the nominal rate and never adjust. Empty: a free network.
+        references: Vec<usize>,
     },
 }
 
 impl Layout {
-    /// Number of nodes that adjust their phase (a pinned chain's reference not counted).
+    /// Number of nodes the scenario numbers (`0..node_count`): a pinned chain's reference
+    /// is not counted, an edge list's reference nodes are.
     #[must_use]
     pub fn node_count(&self) -> usize {
         match self {
@@ -422,14 +427,29 @@ impl Layout {
                     format!("chain of {nodes} nodes pinned to a reference at node 0")
                 }
             },
-            Layout::EdgeList { path, nodes, edges } => format!(
-                "{nodes} nodes, {} edges from {}",
-                edges.len(),
-                path.file_name().map_or_else(
+            Layout::EdgeList {
+                path,
+                nodes,
+                edges,
+                references,
+            } => {
+                let file = path.file_name().map_or_else(
                     || path.display().to_string(),
-                    |n| n.to_string_lossy().into_owned()
-                )
-            ),
+                    |n| n.to_string_lossy().into_owned(),
+                );
+                let pinned = match references.as_slice() {
+                    [] => String::new(),
+                    [one] => format!(", reference at node {one}"),
+                    many => format!(
+                        ", references at nodes {}",
+                        many.iter()
+                            .map(ToString::to_string)
+                            .collect::<Vec<_>>()
+                            .join(", ")
+                    ),
+                };
+                format!("{nodes} nodes, {} edges from {file}{pinned}", edges.len())
+            }
         }
     }
 }
@@ -1318,7 +1338,20 @@ fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Layout, Scena
     let side = max;
     if topology != "edge_list" {
         refuse_extra(loc, n.edges.as_ref(), "edges", topology)?;
+        refuse_extra(loc, n.reference_nodes.as_ref(), "reference_nodes", topology)?;
     }
+    let references = |nodes: usize| -> Result<Vec<usize>, ScenarioError> {
+        match &n.reference_nodes {
+            None => Ok(Vec::new()),
+            Some(list) => check_references(list.get_ref(), nodes).map_err(|message| {
+                refuse(
+                    loc,
+                    list.span(),
+                    format!("network.reference_nodes: {message}"),
+                )
+            }),
+        }
+    };
     let linear = |kind: &str, min: i64, max: i64| -> Result<usize, ScenarioError> {
         refuse_extra(loc, n.rows.as_ref(), "rows", topology)?;
         refuse_extra(loc, n.cols.as_ref(), "cols", topology)?;
@@ -1396,6 +1429,7 @@ fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Layout, Scena
                     path: loc.file.to_path_buf(),
                     nodes: count,
                     edges,
+                    references: references(count)?,
                 });
             }
             let Some(file) = &n.edge_list_file else {
@@ -1423,6 +1457,7 @@ fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Layout, Scena
                 path,
                 nodes: count,
                 edges,
+                references: references(count)?,
             }
         }
         other => {
@@ -1501,6 +1536,31 @@ pub(crate) fn open_regular(
     let file = std::fs::File::open(path).map_err(unreadable)?;
     regular(&file.metadata().map_err(unreadable)?)?;
     Ok(file)
+}
+
+/// Check `[network] reference_nodes` against a graph of `nodes` nodes: each a node
+/// number, none twice, and at least one node left to adjust. Ascending on return.
+fn check_references(list: &[i64], nodes: usize) -> Result<Vec<usize>, String> {
+    let mut out = Vec::with_capacity(list.len());
+    for &r in list {
+        let Some(node) = usize::try_from(r).ok().filter(|&v| v < nodes) else {
+            return Err(format!(
+                "node {r} is out of range: node numbers are from 0 to {}",
+                nodes - 1
+            ));
+        };
+        if out.contains(&node) {
+            return Err(format!("node {node} is listed twice"));
+        }
+        out.push(node);
+    }
+    if out.len() >= nodes {
+        return Err(format!(
+            "all {nodes} nodes are references: at least one node must adjust its phase"
+        ));
+    }
+    out.sort_unstable();
+    Ok(out)
 }
 
 /// Check inline edges (`[network] edges`): node numbers from 0, no self-loop, no edge

@@ -120,7 +120,7 @@ struct Station<const N: usize> {
     next_local: u64,
     ppm: f64,
     alive: bool,
-    /// A pinned chain's reference: beacons, never takes observations or updates.
+    /// A reference node: beacons, never takes observations or updates.
     reference: bool,
     /// Which neighbour (index into its target list) the next beacon echoes.
     echo_next: usize,
@@ -230,7 +230,7 @@ impl<const N: usize> Network<N> {
         let n = scenario.nodes();
         let config = scenario.config;
         let update_ticks = u64::from(config.update_ticks());
-        let reference = scenario.links.reference();
+        let links = &scenario.links;
         let mut ppm: Vec<f64> = match &scenario.crystals {
             Crystals::Identical { ppm } => vec![*ppm; n],
             Crystals::Uniform { tolerance_ppm } => (0..n)
@@ -239,15 +239,24 @@ impl<const N: usize> Network<N> {
             Crystals::Fixed(v) => v.clone(),
         };
         // The reference is a disciplined clock: nominal rate.
-        if let Some(e) = reference.and_then(|r| ppm.get_mut(r)) {
-            *e = 0.0;
+        for &r in links.references() {
+            if let Some(e) = ppm.get_mut(r) {
+                *e = 0.0;
+            }
         }
-        let start: Vec<Phase> = match &scenario.start {
+        let mut start: Vec<Phase> = match &scenario.start {
             StartPhases::Uniform { spread_turns } => (0..n)
                 .map(|_| phase_from_turns((rng.random::<f64>() - 0.5) * spread_turns))
                 .collect(),
             StartPhases::Fixed(v) => v.iter().map(|&t| phase_from_turns(t)).collect(),
         };
+        // Every reference holds the reference phase, the ideal clock's (started at 0);
+        // the draws above are kept so the other nodes' start phases do not move.
+        for &r in links.references() {
+            if let Some(p) = start.get_mut(r) {
+                *p = Phase::ZERO;
+            }
+        }
         let mut stations = Vec::with_capacity(n);
         for (i, (&e, &phase)) in ppm.iter().zip(&start).enumerate() {
             let l0 = u64::from(rng.random::<u32>());
@@ -262,7 +271,7 @@ impl<const N: usize> Network<N> {
                 next_local: l0 + offset,
                 ppm: e,
                 alive: true,
-                reference: reference == Some(i),
+                reference: links.is_reference(i),
                 echo_next: 0,
             });
         }

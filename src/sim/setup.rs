@@ -27,7 +27,6 @@ pub struct Links {
     graph: Graph,
     topology: Option<Topology>,
     pairs: Vec<(usize, usize)>,
-    reference: Option<usize>,
 }
 
 impl Links {
@@ -40,12 +39,12 @@ impl Links {
     /// [`MAX_SIM_NODES`]; [`SimError::DegreeTooHigh`] above [`MAX_DEGREE`] neighbours.
     pub fn from_topology(topology: &Topology) -> Result<Links, SimError> {
         let graph = Graph::from_topology(topology).map_err(SimError::Graph)?;
-        let reference = topology.is_pinned().then(|| topology.node_count());
-        Links::build(graph, Some(*topology), reference)
+        Links::build(graph, Some(*topology))
     }
 
-    /// The links of an arbitrary graph. The node law weights every neighbour alike, so
-    /// every edge weight must be 1.
+    /// The links of an arbitrary graph; its reference nodes ([`Graph::references`])
+    /// beacon at the nominal rate and never adjust. The node law weights every neighbour
+    /// alike, so every edge weight must be 1.
     ///
     /// # Errors
     /// [`SimError::InvalidParameter`] for an edge weight other than 1;
@@ -57,7 +56,7 @@ impl Links {
                 valid: "1 (the node law weights every neighbour alike)",
             });
         }
-        Links::build(graph.clone(), None, None)
+        Links::build(graph.clone(), None)
     }
 
     /// The links of `nodes` nodes joined by `pairs` (each pair once).
@@ -67,7 +66,7 @@ impl Links {
     /// [`SimError::TooManyNodes`]; [`SimError::DegreeTooHigh`].
     pub fn from_pairs(nodes: usize, pairs: &[(usize, usize)]) -> Result<Links, SimError> {
         let graph = Graph::from_edges(nodes, pairs).map_err(SimError::Graph)?;
-        Links::build(graph, None, None)
+        Links::build(graph, None)
     }
 
     /// An open chain of `nodes ≥ 2` (the checker's [`Topology::Chain`]).
@@ -87,11 +86,7 @@ impl Links {
         Links::from_topology(&Topology::Ring { nodes })
     }
 
-    fn build(
-        graph: Graph,
-        topology: Option<Topology>,
-        reference: Option<usize>,
-    ) -> Result<Links, SimError> {
+    fn build(graph: Graph, topology: Option<Topology>) -> Result<Links, SimError> {
         let nodes = graph.node_count();
         if nodes > MAX_SIM_NODES {
             return Err(SimError::TooManyNodes {
@@ -119,7 +114,6 @@ impl Links {
             graph,
             topology,
             pairs,
-            reference,
         })
     }
 
@@ -147,10 +141,17 @@ impl Links {
         self.topology
     }
 
-    /// The reference node of a pinned chain (beacons, never adjusts).
+    /// The reference nodes, ascending (a pinned chain's is its last node): they beacon
+    /// the reference phase at the nominal rate and never adjust.
     #[must_use]
-    pub fn reference(&self) -> Option<usize> {
-        self.reference
+    pub fn references(&self) -> &[usize] {
+        self.graph.references()
+    }
+
+    /// Whether `node` is a reference node.
+    #[must_use]
+    pub fn is_reference(&self, node: usize) -> bool {
+        self.graph.is_reference(node)
     }
 
     /// True for a ring (nodes in cyclic order), whose runs report a winding number.
@@ -531,7 +532,7 @@ mod tests {
         let torus = Links::from_topology(&Topology::Torus { rows: 3, cols: 4 }).unwrap();
         assert_eq!((torus.pairs().len(), torus.max_degree()), (24, 4));
         let pinned = Links::from_topology(&Topology::PinnedChain { nodes: 3 }).unwrap();
-        assert_eq!((pinned.nodes(), pinned.reference()), (4, Some(3)));
+        assert_eq!((pinned.nodes(), pinned.references()), (4, &[3][..]));
         assert!(Links::ring(5).unwrap().is_ring());
         assert!(!Links::chain(5).unwrap().is_ring());
     }

@@ -547,3 +547,110 @@ fn spectrum_prints_tiny_eigenvalues_in_scientific_notation() {
     assert!(text.contains(&format!("{want:.5e}")), "{text}");
     assert!(!text.contains("  0.000110  "), "{text}");
 }
+
+/// The conveyor example with its edge list replaced by `edges` (the file's text), fixed
+/// gains kp 0.2, ki 0.01.
+fn conveyor_with_edges(edges: &str) -> tempfile::TempDir {
+    let dir = variant(
+        "c.toml",
+        "examples/conveyor.toml",
+        &[
+            ("kp = \"tune\"", "kp = 0.2"),
+            ("ki = \"tune\"", "ki = 0.01"),
+        ],
+    );
+    std::fs::write(dir.path().join("conveyor.edges"), edges).unwrap();
+    dir
+}
+
+#[test]
+fn weighted_edge_lists_plan_and_simulate_with_their_weights() {
+    // A 12-node chain whose links all weigh 2: L = 2·L(P_12), so λ_k = 2·(2 − 2cos(kπ/12))
+    // (path spectrum, Fiedler 1973, scaled by the weight).
+    let text: String = (1..12).map(|k| format!("{} {k} 2\n", k - 1)).collect();
+    let dir = conveyor_with_edges(&text);
+    let file = dir.path().join("c.toml");
+    let (v, status) = json(&["spectrum", file.to_str().unwrap()]);
+    assert_eq!(status, 0);
+    let ev = v["eigenvalues"].as_array().unwrap();
+    assert_eq!(ev.len(), 12);
+    for (k, x) in ev.iter().enumerate().skip(1) {
+        assert!((f(x) - 2.0 * path_eigenvalue(12, k)).abs() < TOL, "k={k}");
+    }
+    assert_eq!(f(&v["spectrum"]["max_degree"]), 4.0);
+    // The planner's stability follows the weighted λmax: kp·λmax against 2 (Xiao & Boyd
+    // 2004), so the gain margin halves against the unweighted chain's.
+    let plain: String = (1..12).map(|k| format!("{} {k}\n", k - 1)).collect();
+    let plain_dir = conveyor_with_edges(&plain);
+    let plain_file = plain_dir.path().join("c.toml");
+    let (a, _) = json(&["check", file.to_str().unwrap(), "--no-simulate"]);
+    let (b, _) = json(&["check", plain_file.to_str().unwrap(), "--no-simulate"]);
+    let margin = |v: &Value| f(&v["prediction"]["margins"]["gain"]);
+    assert!(
+        (margin(&a) / margin(&b) - 0.5).abs() < 0.02,
+        "{} vs {}",
+        margin(&a),
+        margin(&b)
+    );
+    assert!(
+        (f(&a["prediction"]["stability"]["kp_limit"])
+            / f(&b["prediction"]["stability"]["kp_limit"])
+            - 0.5)
+            .abs()
+            < 0.02
+    );
+    // Tune runs end to end: its fastest P gain sits near 2/(λ2 + λmax) of the weighted
+    // spectrum (Xiao & Boyd 2004; the tuner's scan is coarse, so within 5 %), half the
+    // unweighted chain's.
+    let tune_dir = variant(
+        "t.toml",
+        "examples/conveyor.toml",
+        &[("ki = \"tune\"", "ki = 0")],
+    );
+    std::fs::write(tune_dir.path().join("conveyor.edges"), &text).unwrap();
+    let tune_file = tune_dir.path().join("t.toml");
+    let (t, status) = json(&["tune", tune_file.to_str().unwrap()]);
+    assert!(status == 0 || status == 1, "{status}");
+    let best = 2.0 / (2.0 * path_eigenvalue(12, 1) + 2.0 * path_eigenvalue(12, 11));
+    let fastest = f(&t["tuning"]["fastest"]["kp"]);
+    assert!((fastest / best - 1.0).abs() < 0.05, "{fastest} vs {best}");
+    // The simulator runs the node code with the weights.
+    let (s, status) = json(&["simulate", file.to_str().unwrap(), "--runs", "2"]);
+    assert!(status == 0 || status == 1, "{status}");
+    assert_eq!(s["simulation"]["settled_runs"], 2);
+}
+
+#[test]
+fn weight_one_is_the_unweighted_edge_list() {
+    // The conveyor's own edges, once as given and once with an explicit weight 1 on
+    // every line: every command's answer is the same, simulation included (the node law
+    // takes weight one as the unweighted law, bit for bit).
+    let plain = std::fs::read_to_string(
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/conveyor.edges"),
+    )
+    .unwrap();
+    let ones: String = plain
+        .lines()
+        .map(|l| {
+            if l.trim().is_empty() || l.starts_with('#') {
+                format!("{l}\n")
+            } else {
+                format!("{l} 1\n")
+            }
+        })
+        .collect();
+    assert_ne!(plain, ones);
+    let (da, db) = (conveyor_with_edges(&plain), conveyor_with_edges(&ones));
+    for args in [vec!["spectrum"], vec!["simulate", "--runs", "2"]] {
+        let run = |dir: &tempfile::TempDir| {
+            let file = dir.path().join("c.toml");
+            let mut full = args.clone();
+            full.insert(1, file.to_str().unwrap());
+            let (mut v, _) = json(&full);
+            v["scenario"]["file"] = Value::Null;
+            v
+        };
+        let (va, vb) = (run(&da), run(&db));
+        assert_eq!(va, vb, "{args:?}");
+    }
+}

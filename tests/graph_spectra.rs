@@ -570,3 +570,47 @@ fn bad_reference_lists_are_errors() {
     assert!(both.is_connected());
     assert!((both.spectrum().unwrap().lambda_slow - 1.0).abs() < 1e-14);
 }
+
+#[test]
+fn weighted_star_and_chain_meet_closed_forms() {
+    // Star with every spoke of weight w: the Laplacian is w times the plain star's, so
+    // {0, w (×N−2), wN} (the plain star: Brouwer & Haemers 2012 §1.4, from memory; scaled by w).
+    let (n, w) = (9, 2.5);
+    let spokes: Vec<(usize, usize, f64)> = (1..n).map(|i| (0, i, w)).collect();
+    let star = Graph::from_weighted_edges(n, &spokes).unwrap();
+    let ev = star.dense_spectrum().unwrap().eigenvalues().to_vec();
+    assert!(ev[0].abs() < 1e-12);
+    for &x in &ev[1..n - 1] {
+        assert!((x - w).abs() < 1e-12);
+    }
+    assert!((ev[n - 1] - w * n as f64).abs() < 1e-12);
+    // A chain with uneven weights against nalgebra on the matrix built here, and its
+    // flow factor against the partial sums: on a tree the steady flow over edge k is
+    // S_k whatever the weights (Strogatz & Mirollo 1988), so per unit of the edge's own
+    // capacity (weight w_k) the worst is max_k 2k(N − k)/(N·w_k).
+    let n = 12;
+    let weights: Vec<f64> = (1..n).map(|k| 0.5 + 0.37 * ((k * 5) % 7) as f64).collect();
+    let edges: Vec<(usize, usize, f64)> = (1..n).map(|k| (k - 1, k, weights[k - 1])).collect();
+    let chain = Graph::from_weighted_edges(n, &edges).unwrap();
+    let want = sorted_eigenvalues(reference_laplacian(n, &edges));
+    let dense = chain.dense_spectrum().unwrap();
+    for (x, y) in dense.eigenvalues().iter().zip(&want) {
+        assert!((x - y).abs() < 1e-12);
+    }
+    let sparse = chain.sparse_spectrum().unwrap();
+    assert!((sparse.lambda2 - want[1]).abs() <= sparse.lambda2_error_bound + 1e-12);
+    let flow = (1..n)
+        .map(|k| 2.0 * (k * (n - k)) as f64 / (n as f64 * weights[k - 1]))
+        .fold(0.0, f64::max);
+    assert!((chain.worst_flow_factor().unwrap() - flow).abs() < 1e-9);
+    // Weight 1 everywhere is the unweighted graph, bit for bit.
+    let ones: Vec<(usize, usize, f64)> = (1..n).map(|k| (k - 1, k, 1.0)).collect();
+    let plain: Vec<(usize, usize)> = (1..n).map(|k| (k - 1, k)).collect();
+    assert_eq!(
+        Graph::from_weighted_edges(n, &ones)
+            .unwrap()
+            .summary()
+            .unwrap(),
+        Graph::from_edges(n, &plain).unwrap().summary().unwrap()
+    );
+}

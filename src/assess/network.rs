@@ -105,11 +105,17 @@ impl NetworkModel {
             Layout::EdgeList {
                 nodes,
                 edges,
+                weights,
                 path,
                 references,
             } => {
                 let at_file = |message: String| AssessError::input(path, message);
-                let graph = Graph::from_edges(*nodes, edges)
+                let weighted: Vec<(usize, usize, f64)> = edges
+                    .iter()
+                    .enumerate()
+                    .map(|(k, &(a, b))| (a, b, weights.get(k).copied().unwrap_or(1.0)))
+                    .collect();
+                let graph = Graph::from_weighted_edges(*nodes, &weighted)
                     .and_then(|g| g.with_references(references))
                     .map_err(|e| at_file(format!("edge list: {e}")))?;
                 if graph.is_pinned() && !graph.is_connected() {

@@ -26,6 +26,8 @@ pub(crate) struct Replica {
     nbr: Vec<usize>,
     /// For receiver slot s (node i's neighbour j), the slot of i in j's list.
     back: Vec<usize>,
+    /// Coupling weight of each receiver slot's link, as the node applies it (Q16.16).
+    weight: Vec<f64>,
     /// `true` at each reference node (beacons the ideal phase, never adjusts).
     reference: Vec<bool>,
     /// Update interval M, ticks.
@@ -95,12 +97,19 @@ impl Replica {
                 }
             }
         }
+        let mut weight = vec![1.0; nbr.len()];
+        for i in 0..n {
+            for s_ in off[i]..off[i + 1] {
+                weight[s_] = f64::from(s.links.weight_q16(i, nbr[s_])) / 65_536.0;
+            }
+        }
         let c = &s.config;
         let r = 1.0 / f64::from(c.ticks_per_period());
         Replica {
             off,
             nbr,
             back,
+            weight,
             reference: (0..s.nodes()).map(|i| s.links.is_reference(i)).collect(),
             m: f64::from(c.update_ticks()),
             r,
@@ -471,14 +480,14 @@ fn update(
         me.trim = me.trim_next;
         let mut sum = 0.0;
         let mut used = 0;
-        for slot in &mut wires.table[lo..hi] {
+        for (slot, &w) in wires.table[lo..hi].iter_mut().zip(&setup.weight[lo..hi]) {
             let Some(e) = *slot else { continue };
             if now_local - e.heard > setup.timeout {
                 *slot = None;
                 continue;
             }
             let d = wrap(e.anchored_diff - me.corr);
-            sum += if setup.sine { (TAU * d).sin() / TAU } else { d };
+            sum += w * if setup.sine { (TAU * d).sin() / TAU } else { d };
             used += 1;
         }
         if used > 0 {

@@ -34,9 +34,12 @@ impl Graph {
             .collect())
     }
 
-    /// Worst edge load per unit detuning: `max over edges e of ‖w_e·L†b_e‖₁`, so drifts
-    /// within `±w` load no edge beyond `w ×` this (the input of
-    /// [`crate::plan::lock_worst_case`]). Dense `L†` via a Cholesky inverse; O(N³).
+    /// Worst edge load per unit detuning, relative to each edge's own capacity:
+    /// `max over edges e of ‖L†b_e‖₁` (the flow `‖w_e·L†b_e‖₁` over the edge's weight
+    /// `w_e`, since a link of weight `w` carries `w` times a plain link's coupling), so
+    /// drifts within `±d` load no edge beyond `d ×` this many plain-link capacities (the
+    /// input of [`crate::plan::lock_worst_case`]). Equal to the flow itself when every
+    /// weight is 1. Dense `L†` via a Cholesky inverse; O(N³).
     ///
     /// # Errors
     /// [`GraphError::Disconnected`], [`GraphError::TooLargeForDense`].
@@ -106,11 +109,11 @@ impl Graph {
         let mut worst = (0.0_f64, vec![0.0; n]);
         for e in self.edges() {
             let (ca, cb) = (pinv.column(e.a), pinv.column(e.b));
-            let load: f64 = e.weight
-                * ca.iter()
-                    .zip(cb.iter())
-                    .map(|(x, y)| (x - y).abs())
-                    .sum::<f64>();
+            let load: f64 = ca
+                .iter()
+                .zip(cb.iter())
+                .map(|(x, y)| (x - y).abs())
+                .sum::<f64>();
             if load > worst.0 {
                 worst = (load, ca.iter().zip(cb.iter()).map(|(x, y)| x - y).collect());
             }

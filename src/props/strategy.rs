@@ -149,6 +149,7 @@ pub fn connected_edges(
                 path: Path::new("generated.toml").to_path_buf(),
                 nodes: n,
                 edges,
+                weights: Vec::new(),
                 references: Vec::new(),
             }
         })
@@ -456,12 +457,14 @@ impl Deployments {
                     Layout::EdgeList {
                         nodes,
                         edges,
+                        weights,
                         references,
                         ..
                     } => Layout::EdgeList {
                         path: s.path.clone(),
                         nodes,
                         edges,
+                        weights,
                         references,
                     },
                     other => other,

@@ -215,6 +215,14 @@ struct RawReboot {
     down_s: S<Real>,
 }
 
+/// An inline edge: `[a, b]`, or `[a, b, weight]`.
+#[derive(Deserialize)]
+#[serde(untagged)]
+enum RawEdge {
+    Plain(i64, i64),
+    Weighted(i64, i64, Real),
+}
+
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
 struct RawNetwork {
@@ -223,7 +231,7 @@ struct RawNetwork {
     rows: Option<S<i64>>,
     cols: Option<S<i64>>,
     edge_list_file: Option<S<String>>,
-    edges: Option<S<Vec<(i64, i64)>>>,
+    edges: Option<S<Vec<RawEdge>>>,
     reference_nodes: Option<S<Vec<i64>>>,
 }
 
@@ -366,7 +374,7 @@ struct RawMonteCarlo {
 }
 
 /// The coupling graph a scenario describes: which node beacons to which.
-#[derive(Clone, Debug, PartialEq, Eq)]
+#[derive(Clone, Debug, PartialEq)]
 pub enum Layout {
     /// One of the planner's closed-form topologies (node numbering as documented there).
     Topology(Topology),
@@ -380,6 +388,9 @@ pub enum Layout {
         nodes: usize,
         /// Undirected edges `(a, b)`, `a ≠ b`, each listed once.
         edges: Vec<(usize, usize)>,
+        /// Coupling weight of each edge (the edge-list file's third column, from
+        /// [`WEIGHT_MIN`] to [`WEIGHT_MAX`]); empty when every edge weighs 1.
+        weights: Vec<f64>,
         /// Reference nodes (`[network] reference_nodes`), ascending: they beacon the
         /// reference phase at the nominal rate and never adjust. Empty: a free network.
         references: Vec<usize>,
@@ -432,6 +443,7 @@ impl Layout {
                 nodes,
                 edges,
                 references,
+                ..
             } => {
                 let file = path.file_name().map_or_else(
                     || path.display().to_string(),
@@ -1421,7 +1433,7 @@ fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Layout, Scena
                     "edge_list_file",
                     "edge_list with inline edges",
                 )?;
-                let (count, edges) =
+                let (count, edges, weights) =
                     check_inline_edges(inline.get_ref(), nodes).map_err(|message| {
                         refuse(loc, inline.span(), format!("network.edges: {message}"))
                     })?;
@@ -1429,6 +1441,7 @@ fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Layout, Scena
                     path: loc.file.to_path_buf(),
                     nodes: count,
                     edges,
+                    weights,
                     references: references(count)?,
                 });
             }
@@ -1442,7 +1455,7 @@ fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Layout, Scena
             };
             let base = loc.file.parent().unwrap_or_else(|| Path::new(""));
             let path = base.join(file.get_ref());
-            let (count, edges) = read_edge_list(&path, nodes).map_err(|mut e| {
+            let file_edges = read_weighted_edge_list(&path, nodes).map_err(|mut e| {
                 if e.line.is_none() {
                     // Point at the key when the file itself is the problem.
                     let at = loc.at(Some(file.span()), String::new());
@@ -1455,9 +1468,10 @@ fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Layout, Scena
             })?;
             Layout::EdgeList {
                 path,
-                nodes: count,
-                edges,
-                references: references(count)?,
+                nodes: file_edges.nodes,
+                edges: file_edges.edges,
+                weights: file_edges.weights,
+                references: references(file_edges.nodes)?,
             }
         }
         other => {
@@ -1563,20 +1577,36 @@ fn check_references(list: &[i64], nodes: usize) -> Result<Vec<usize>, String> {
     Ok(out)
 }
 
+/// Inline edges as checked: node count, edges, weights (empty when none is given).
+type InlineEdges = (usize, Vec<(usize, usize)>, Vec<f64>);
+
 /// Check inline edges (`[network] edges`): node numbers from 0, no self-loop, no edge
 /// twice, at most [`crate::MAX_NEIGHBOURS`] neighbours per node, the node count `nodes` when
-/// given, else one more than the largest number.
-fn check_inline_edges(
-    pairs: &[(i64, i64)],
-    nodes: Option<usize>,
-) -> Result<(usize, Vec<(usize, usize)>), String> {
+/// given, else one more than the largest number; an optional third entry, the weight,
+/// from [`WEIGHT_MIN`] to [`WEIGHT_MAX`] (1 when left out).
+fn check_inline_edges(pairs: &[RawEdge], nodes: Option<usize>) -> Result<InlineEdges, String> {
     if pairs.is_empty() {
         return Err("no edges".to_owned());
     }
     let limit = nodes.unwrap_or(MAX_SCENARIO_NODES);
     let mut seen = std::collections::BTreeSet::new();
     let mut edges = Vec::with_capacity(pairs.len());
-    for &(a, b) in pairs {
+    let mut weights = Vec::with_capacity(pairs.len());
+    let mut weighted = false;
+    for pair in pairs {
+        let (a, b, weight) = match *pair {
+            RawEdge::Plain(a, b) => (a, b, 1.0),
+            RawEdge::Weighted(a, b, Real(w)) => {
+                weighted = true;
+                if !(w.is_finite() && (WEIGHT_MIN..=WEIGHT_MAX).contains(&w)) {
+                    return Err(format!(
+                        "edge [{a}, {b}, {w}] has weight {w}: a weight is a number from {WEIGHT_MIN} to {WEIGHT_MAX}"
+                    ));
+                }
+                (a, b, w)
+            }
+        };
+        weights.push(weight);
         let ok = |v: i64| usize::try_from(v).ok().filter(|&v| v < limit);
         let (Some(a), Some(b)) = (ok(a), ok(b)) else {
             return Err(format!(
@@ -1612,7 +1642,10 @@ fn check_inline_edges(
             }
         }
     }
-    Ok((count, edges))
+    if !weighted {
+        weights.clear();
+    }
+    Ok((count, edges, weights))
 }
 
 /// Read an edge-list file: one undirected edge `a b` per line (0-based node numbers,
@@ -1627,6 +1660,37 @@ pub fn read_edge_list(
     path: &Path,
     nodes: Option<usize>,
 ) -> Result<(usize, Vec<(usize, usize)>), ScenarioError> {
+    read_weighted_edge_list(path, nodes).map(|e| (e.nodes, e.edges))
+}
+
+/// Smallest coupling weight an edge-list line may give (`[WEIGHT_MIN, WEIGHT_MAX]`).
+pub const WEIGHT_MIN: f64 = 0.01;
+
+/// Largest coupling weight an edge-list line may give.
+pub const WEIGHT_MAX: f64 = 100.0;
+
+/// An edge-list file as read by [`read_weighted_edge_list`].
+#[derive(Clone, Debug, PartialEq)]
+pub struct EdgeListFile {
+    /// Number of nodes.
+    pub nodes: usize,
+    /// The edges, in file order.
+    pub edges: Vec<(usize, usize)>,
+    /// One coupling weight per edge when any line gives a third column (lines without
+    /// one weigh 1); empty when none does.
+    pub weights: Vec<f64>,
+}
+
+/// As [`read_edge_list`], with an optional third column on each line: the edge's
+/// coupling weight relative to a plain link, a number from [`WEIGHT_MIN`] to
+/// [`WEIGHT_MAX`] (a line without it weighs 1).
+///
+/// # Errors
+/// As [`read_edge_list`]; also a weight that is not a number or out of range.
+pub fn read_weighted_edge_list(
+    path: &Path,
+    nodes: Option<usize>,
+) -> Result<EdgeListFile, ScenarioError> {
     let file = open_regular(path, MAX_EDGE_LIST_BYTES, "edge-list file")?;
     // Read as a stream, a line at a time, never more than the cap.
     let reader = BufReader::new(file.take(MAX_EDGE_LIST_BYTES + 1));
@@ -1638,6 +1702,8 @@ pub fn read_edge_list(
         message,
     };
     let mut edges = Vec::new();
+    let mut weights = Vec::new();
+    let mut weighted = false;
     let mut seen = std::collections::BTreeSet::new();
     let mut largest = 0usize;
     for (index, raw_line) in reader.lines().enumerate() {
@@ -1674,19 +1740,39 @@ pub fn read_edge_list(
             continue;
         }
         let column_of = |byte: usize| body.get(..byte).map_or(1, |s| s.chars().count() + 1);
-        if fields.len() != 2 {
-            let col = fields.get(2).map_or(1, |f| column_of(f.0));
+        if !(2..=3).contains(&fields.len()) {
+            let col = fields
+                .get(3)
+                .or(fields.get(2))
+                .map_or(1, |f| column_of(f.0));
             return Err(here(
                 line_no,
                 col,
                 format!(
-                    "an edge line holds exactly two node numbers, found {} fields",
+                    "an edge line holds two node numbers and an optional weight, found {} fields",
                     fields.len()
                 ),
             ));
         }
+        let weight = match fields.get(2) {
+            None => 1.0,
+            Some(&(at, field)) => match field.parse::<f64>() {
+                Ok(w) if w.is_finite() && (WEIGHT_MIN..=WEIGHT_MAX).contains(&w) => w,
+                _ => {
+                    return Err(here(
+                        line_no,
+                        column_of(at),
+                        format!(
+                            "\"{field}\" is not a coupling weight: a weight is a number from {WEIGHT_MIN} to {WEIGHT_MAX}"
+                        ),
+                    ));
+                }
+            },
+        };
+        weighted |= fields.len() == 3;
+        weights.push(weight);
         let mut ends = [0usize; 2];
-        for (slot, (at, field)) in ends.iter_mut().zip(&fields) {
+        for (slot, (at, field)) in ends.iter_mut().zip(fields.iter().take(2)) {
             *slot = field.parse::<usize>().map_err(|_| {
                 here(
                     line_no,
@@ -1752,7 +1838,14 @@ pub fn read_edge_list(
             }
         }
     }
-    Ok((count, edges))
+    if !weighted {
+        weights.clear();
+    }
+    Ok(EdgeListFile {
+        nodes: count,
+        edges,
+        weights,
+    })
 }
 
 #[cfg(test)]

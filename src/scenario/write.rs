@@ -69,11 +69,19 @@ impl Scenario {
             Layout::EdgeList {
                 nodes,
                 edges,
+                weights,
                 references,
                 ..
             } => {
                 let _ = writeln!(s, "nodes = {nodes}");
-                let list: Vec<String> = edges.iter().map(|(a, b)| format!("[{a}, {b}]")).collect();
+                let list: Vec<String> = edges
+                    .iter()
+                    .enumerate()
+                    .map(|(k, (a, b))| match weights.get(k) {
+                        Some(&w) => format!("[{a}, {b}, {}]", real(w)),
+                        None => format!("[{a}, {b}]"),
+                    })
+                    .collect();
                 let _ = writeln!(s, "edges = [{}]", list.join(", "));
                 if !references.is_empty() {
                     let list: Vec<String> = references.iter().map(ToString::to_string).collect();

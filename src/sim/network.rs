@@ -39,7 +39,9 @@ use super::settle::{
 use super::setup::{Crystals, Setup, Stamping, StartPhases};
 use super::telemetry::Recorder;
 use super::trace::Trace;
-use crate::{Config, Node, NodeId, Observation, ObserveError, Phase, Timing, UpdateReport};
+use crate::{
+    Config, Node, NodeId, Observation, ObserveError, Phase, Timing, UpdateReport, WEIGHT_ONE,
+};
 
 /// Sub-ticks per nominal tick.
 const SUB: u64 = 1 << 16;
@@ -57,6 +59,8 @@ struct Beacon {
     delay_ticks: u32,
     /// Two-way timing (version-2 beacons).
     timing: Option<Timing>,
+    /// The link's coupling weight, Q16.16.
+    weight_q16: u32,
 }
 
 /// One node's timer: real time ↔ local ticks.
@@ -143,6 +147,9 @@ pub struct Network<const N: usize> {
     stations: Vec<Station<N>>,
     row_start: Vec<usize>,
     targets: Vec<u16>,
+    /// Per slot (as `targets`): the link's coupling weight, Q16.16 (links are
+    /// undirected, so a sender slot and a receiver slot of one link agree).
+    slot_weight: Vec<u32>,
     pairs: Vec<(usize, usize)>,
     ring: bool,
     inbox: Vec<Vec<Beacon>>,
@@ -317,11 +324,21 @@ impl<const N: usize> Network<N> {
             && b.stamping == Stamping::Nearest
             && scenario.reboots.is_empty();
         let slots = targets.len();
+        let slot_weight: Vec<u32> = (0..n)
+            .flat_map(|i| {
+                let (lo, hi) = (row_start[i], row_start[i + 1]);
+                let links = &scenario.links;
+                targets[lo..hi]
+                    .iter()
+                    .map(move |&j| links.weight_q16(i, usize::from(j)))
+            })
+            .collect();
         Ok(Network {
             config,
             stations,
             row_start,
             targets,
+            slot_weight,
             pairs: scenario.links.pairs().to_vec(),
             ring: scenario.links.is_ring(),
             inbox: vec![Vec::with_capacity(2 * N.min(8)); n],
@@ -593,7 +610,9 @@ impl<const N: usize> Network<N> {
                 // (only with a timeout shorter than the update interval) is refused
                 // as from the future; the node's next update would have emptied its
                 // table anyway. Only a full table is counted.
-                if let Err(ObserveError::TableFull(_)) = node.observe_timed(obs, b.timing) {
+                if let Err(ObserveError::TableFull(_)) =
+                    node.observe_weighted(obs, b.timing, b.weight_q16)
+                {
                     full += 1;
                 }
                 false
@@ -686,6 +705,7 @@ impl<const N: usize> Network<N> {
                     rx_ticks,
                     delay_ticks: self.told_ticks[slot],
                     timing,
+                    weight_q16: self.slot_weight[slot],
                 });
             }
         }
@@ -723,7 +743,10 @@ impl<const N: usize> Network<N> {
                         delay_ticks: latency,
                     };
                     // As above: only a full table is counted.
-                    if let Err(ObserveError::TableFull(_)) = st.node.observe(obs) {
+                    let weight = self.slot_weight.get(s).copied().unwrap_or(WEIGHT_ONE);
+                    if let Err(ObserveError::TableFull(_)) =
+                        st.node.observe_weighted(obs, None, weight)
+                    {
                         self.stats.table_full += 1;
                     }
                 }

@@ -1231,6 +1231,17 @@ fn check_reboots(
         .map(|r| {
             let r = r.get_ref();
             let node = int_in(loc, &r.node, "reboot.node", 0, nodes - 1, "")? as usize;
+            if let Layout::EdgeList { references, .. } = layout {
+                if references.contains(&node) {
+                    return Err(refuse(
+                        loc,
+                        r.node.span(),
+                        format!(
+                            "reboot.node = {node} is a reference node: a reference holds the reference phase and never reboots here"
+                        ),
+                    ));
+                }
+            }
             let within = |v: f64| v * update_rate_hz <= MAX_SIM_UPDATES;
             let at_s = real_in(
                 loc,

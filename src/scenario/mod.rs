@@ -216,11 +216,35 @@ struct RawReboot {
 }
 
 /// An inline edge: `[a, b]`, or `[a, b, weight]`.
-#[derive(Deserialize)]
-#[serde(untagged)]
 enum RawEdge {
     Plain(i64, i64),
     Weighted(i64, i64, Real),
+}
+
+impl<'de> Deserialize<'de> for RawEdge {
+    fn deserialize<D: Deserializer<'de>>(deserializer: D) -> Result<Self, D::Error> {
+        struct EdgeVisitor;
+        impl<'de> Visitor<'de> for EdgeVisitor {
+            type Value = RawEdge;
+            fn expecting(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+                f.write_str("an edge [a, b] or [a, b, weight] with whole node numbers")
+            }
+            fn visit_seq<A: de::SeqAccess<'de>>(self, mut seq: A) -> Result<RawEdge, A::Error> {
+                let shape = || de::Error::custom("an edge is [a, b] or [a, b, weight]");
+                let a: i64 = seq.next_element()?.ok_or_else(shape)?;
+                let b: i64 = seq.next_element()?.ok_or_else(shape)?;
+                let edge = match seq.next_element::<Real>()? {
+                    None => RawEdge::Plain(a, b),
+                    Some(w) => RawEdge::Weighted(a, b, w),
+                };
+                if seq.next_element::<de::IgnoredAny>()?.is_some() {
+                    return Err(shape());
+                }
+                Ok(edge)
+            }
+        }
+        deserializer.deserialize_seq(EdgeVisitor)
+    }
 }
 
 #[derive(Deserialize)]

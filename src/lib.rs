@@ -103,5 +103,6 @@ pub use gain::{GAIN_FRAC_BITS, Gain};
 pub use law::Law;
 pub use node::{
     Echo, LinkView, MAX_NEIGHBOURS, Node, NodeId, Observation, ObserveError, Timing, UpdateReport,
+    WEIGHT_ONE,
 };
 pub use phase::Phase;

@@ -109,6 +109,11 @@ pub struct Echo {
 /// Fractional bits of a measured link delay (`Entry::delay_q16`): 2^-16 tick.
 const DELAY_FRAC: u32 = 16;
 
+/// A neighbour's coupling weight of one (a plain link), Q16.16: the weight
+/// [`observe`](Node::observe) and [`observe_timed`](Node::observe_timed) give every
+/// neighbour. With weight one the law's arithmetic is exactly the unweighted law's.
+pub const WEIGHT_ONE: u32 = 1 << 16;
+
 /// What one update did.
 #[derive(Clone, Copy, PartialEq, Eq, Hash, Debug, Default)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -145,6 +150,9 @@ struct Entry {
     /// Measured one-way delay beyond the observation's `delay_ticks`, this node's ticks
     /// in Q.16, smoothed over the echoes (see [`Config::delay_smoothing`]).
     delay_q16: i64,
+    /// Coupling weight of this neighbour, Q16.16 ([`WEIGHT_ONE`] for a plain link), as
+    /// the last accepted observation gave it.
+    weight_q16: u32,
 }
 
 /// A neighbour as the node sees it: what [`Node::links`] yields.
@@ -182,6 +190,9 @@ pub struct LinkView {
 /// rate at the mean of its crystals: without it the sum of all trims has no restoring
 /// force and wanders with every timestamp error (docs/design.md, "Two-way timing and the
 /// leak").
+///
+/// A neighbour heard through [`observe_weighted`](Node::observe_weighted) pulls with its
+/// link's weight, `pull(Δ_j)·w_j` in both sums (the weighted Laplacian's law).
 ///
 /// Observations with two-way [`Timing`] ([`observe_timed`](Node::observe_timed)) let
 /// the node measure each link's delay itself, so that neither an unknown latency nor a
@@ -399,6 +410,24 @@ impl<const N: usize> Node<N> {
         obs: Observation,
         timing: Option<Timing>,
     ) -> Result<(), ObserveError> {
+        self.observe_weighted(obs, timing, WEIGHT_ONE)
+    }
+
+    /// [`observe_timed`](Node::observe_timed) from a neighbour whose link carries the
+    /// coupling weight `weight_q16` (Q16.16; [`WEIGHT_ONE`] is a plain link): that
+    /// neighbour's pull enters the update scaled by the weight,
+    /// `round(pull(Δ_j) · weight_q16 / 2^16)` (ties away from zero, saturating), so the
+    /// node follows the weighted Laplacian's law. Every accepted observation sets the
+    /// neighbour's weight. With `WEIGHT_ONE` this is exactly `observe_timed`.
+    ///
+    /// # Errors
+    /// As [`observe`](Node::observe).
+    pub fn observe_weighted(
+        &mut self,
+        obs: Observation,
+        timing: Option<Timing>,
+        weight_q16: u32,
+    ) -> Result<(), ObserveError> {
         let age = self.now.wrapping_sub(obs.rx_ticks) as i32;
         // The timeout is at most i32::MAX (checked when the configuration was built).
         if age < 0 && age.unsigned_abs() > self.config.timeout_ticks() {
@@ -423,6 +452,7 @@ impl<const N: usize> Node<N> {
                     timed: false,
                     samples: 0,
                     delay_q16: 0,
+                    weight_q16,
                 };
                 if self.table.push(fresh).is_err() {
                     return Err(ObserveError::TableFull(obs));
@@ -437,6 +467,7 @@ impl<const N: usize> Node<N> {
         let Some(entry) = self.table.get_mut(index) else {
             return Ok(());
         };
+        entry.weight_q16 = weight_q16;
         // A fresh entry was stamped with this reception; a held one is replaced only by
         // a reception at least as new (the held one is otherwise the fresher estimate).
         let newer = (obs.rx_ticks.wrapping_sub(entry.heard) as i32) >= 0;
@@ -594,7 +625,15 @@ impl<const N: usize> Node<N> {
             }
             let diff = e.anchored_diff.wrapping_sub(corrections) as i32;
             largest = largest.max(diff.unsigned_abs());
-            sum = sum.wrapping_add(i64::from(L::pull(diff)));
+            // Weight one skips the multiply (it would give the same bits:
+            // (|p|·2^16 + 2^15) >> 16 = |p|).
+            let pull = i64::from(L::pull(diff));
+            let pull = if e.weight_q16 == WEIGHT_ONE {
+                pull
+            } else {
+                mul_q16_sym(pull, i64::from(e.weight_q16))
+            };
+            sum = sum.wrapping_add(pull);
             used = used.wrapping_add(1);
             true
         });
@@ -688,6 +727,46 @@ mod tests {
             rx_ticks: rx,
             delay_ticks: 0,
         }
+    }
+
+    #[test]
+    fn weights_scale_each_neighbours_pull() {
+        // Linear law, kp = 1/4: two neighbours 40,000 and −8,000 counts away. Unweighted
+        // the step is round((40,000 − 8,000)/4) = 8,000; with weights 3/2 and 1/4 (Q16
+        // 98,304 and 16,384) it is round((60,000 − 2,000)/4) = 14,500, worked by hand.
+        let c = config(Law::Linear, 16_384, 0);
+        let step = |w1: u32, w2: u32| {
+            let mut n: Node<2> = Node::new(c, Phase::ZERO, 0);
+            n.observe_weighted(obs(1, 40_000, 0), None, w1).unwrap();
+            n.observe_weighted(obs(2, 0u32.wrapping_sub(8_000), 0), None, w2)
+                .unwrap();
+            n.update(0).correction
+        };
+        assert_eq!(step(WEIGHT_ONE, WEIGHT_ONE), 8_000);
+        assert_eq!(step(98_304, 16_384), 14_500);
+        // An odd pull at weight 1/2 rounds away from zero: round(−3/2) = −2.
+        let mut n: Node<1> = Node::new(config(Law::Linear, 65_536, 0), Phase::ZERO, 0);
+        n.observe_weighted(obs(1, 0u32.wrapping_sub(3), 0), None, 32_768)
+            .unwrap();
+        assert_eq!(n.update(0).correction, -2);
+        // Weight one through observe_weighted is observe, bit for bit.
+        let mut a: Node<2> = Node::new(config(Law::Sine, 20_000, 900), Phase::ZERO, 0);
+        let mut b = a.clone();
+        for k in 0..50u32 {
+            let t = k * 100_000;
+            a.observe(obs(1, k.wrapping_mul(7_919_177), t)).unwrap();
+            b.observe_weighted(obs(1, k.wrapping_mul(7_919_177), t), None, WEIGHT_ONE)
+                .unwrap();
+            assert_eq!(a.update(t), b.update(t));
+            assert_eq!((a.phase(), a.trim_raw()), (b.phase(), b.trim_raw()));
+        }
+    }
+
+    #[test]
+    fn entry_size_with_the_weight() {
+        // id u16 + three u32 + bool + u8 + i64 + the u32 weight = 28 bytes, padded to the
+        // i64's alignment: 32 (24 before the weight), so Node<N> grew by 8·N bytes.
+        assert_eq!(core::mem::size_of::<Entry>(), 32);
     }
 
     #[test]

@@ -432,3 +432,225 @@ fn every_example_checks_and_passes() {
         );
     }
 }
+
+/// Grounded chain of N followers, reference at one end: λ_k = 4·sin²((2k − 1)π/(2(2N + 1))),
+/// k = 1..N. Yueh (2005), "Eigenvalues of several tridiagonal matrices", Applied
+/// Mathematics E-Notes 5, 66–74 (form quoted from memory; tests/graph_spectra.rs also
+/// checks it against nalgebra).
+fn pinned_chain_eigenvalue(n: usize, k: usize) -> f64 {
+    let x = (2 * k - 1) as f64 * PI / (2 * (2 * n + 1)) as f64;
+    4.0 * x.sin().powi(2)
+}
+
+/// The conveyor example rewritten as a 12-segment line fed by a disciplined clock at
+/// node 0 (`reference_nodes`), next to the same line as a `pinned_chain`.
+fn referenced_line(kp: &str, ki: &str) -> tempfile::TempDir {
+    let edges: Vec<String> = (0..12).map(|i| format!("[{i}, {}]", i + 1)).collect();
+    let network = format!("edges = [{}]\nreference_nodes = [0]", edges.join(", "));
+    let dir = variant(
+        "line.toml",
+        "examples/conveyor.toml",
+        &[
+            ("edge_list_file = \"conveyor.edges\"", &network),
+            ("kp = \"tune\"", kp),
+            ("ki = \"tune\"", ki),
+        ],
+    );
+    let pinned = std::fs::read_to_string(dir.path().join("line.toml"))
+        .unwrap()
+        .replace(
+            "topology = \"edge_list\"",
+            "topology = \"pinned_chain\"\nnodes = 12",
+        )
+        .replace(&network, "");
+    std::fs::write(dir.path().join("pinned.toml"), pinned).unwrap();
+    dir
+}
+
+#[test]
+fn reference_nodes_plan_as_the_grounded_laplacian() {
+    let dir = referenced_line("kp = 0.4", "ki = 0.02");
+    let line = dir.path().join("line.toml");
+    let (v, status) = json(&["spectrum", line.to_str().unwrap()]);
+    assert_eq!(status, 0);
+    assert_eq!(v["scenario"]["reference_nodes"], serde_json::json!([0]));
+    assert_eq!(v["spectrum"]["pinned"], true);
+    assert_eq!(v["spectrum"]["node_count"], 12);
+    let ev = v["eigenvalues"].as_array().unwrap();
+    assert_eq!(ev.len(), 12);
+    for (k, x) in ev.iter().enumerate() {
+        assert!(
+            (f(x) - pinned_chain_eigenvalue(12, k + 1)).abs() < TOL,
+            "k={k}"
+        );
+    }
+    // λslow ≈ 0.01577, not the free 13-node chain's 0.0584.
+    assert!((f(&v["spectrum"]["lambda_slow"]) - 0.01577).abs() < 5e-6);
+    // The reference does not move in the slowest mode; the far end moves most.
+    assert_eq!(f(&v["slow_mode"][0]), 0.0);
+    assert_eq!(f(&v["slow_mode"][12]), 1.0);
+    // The planner's verdict and stability figures equal the closed-form pinned chain's.
+    let pinned = dir.path().join("pinned.toml");
+    let (a, sa) = json(&["check", line.to_str().unwrap(), "--no-simulate"]);
+    let (b, sb) = json(&["check", pinned.to_str().unwrap(), "--no-simulate"]);
+    assert_eq!(sa, sb);
+    assert_eq!(a["verdict"], b["verdict"]);
+    for key in ["stability", "margins"] {
+        assert_eq!(a["prediction"][key], b["prediction"][key], "{key}");
+    }
+    assert_eq!(b["spectrum"]["source"], "closed_form");
+    for key in ["lambda_slow", "lambda_max", "max_degree", "flow_factor"] {
+        assert!(
+            (f(&a["spectrum"][key]) - f(&b["spectrum"][key])).abs() < 1e-9,
+            "{key}"
+        );
+    }
+}
+
+#[test]
+fn reference_nodes_tune_and_simulate() {
+    // Undelayed P law: the fastest gain of a pinned network is near
+    // 2/(λ1 + λmax) (Xiao & Boyd 2004, the optimal constant step for the grounded
+    // Laplacian's spectrum); the tuner's scan is coarse, so within 5 %.
+    let dir = referenced_line("kp = \"tune\"", "ki = 0");
+    let line = dir.path().join("line.toml");
+    let (v, _) = json(&["tune", line.to_str().unwrap()]);
+    let best = 2.0 / (pinned_chain_eigenvalue(12, 1) + pinned_chain_eigenvalue(12, 12));
+    let fastest = f(&v["tuning"]["fastest"]["kp"]);
+    assert!((fastest / best - 1.0).abs() < 0.05, "{fastest} vs {best}");
+    // The simulator runs the node code with node 0 held to the reference: every run
+    // settles onto it.
+    let dir = referenced_line("kp = 0.4", "ki = 0.02");
+    let line = dir.path().join("line.toml");
+    let (v, status) = json(&["simulate", line.to_str().unwrap(), "--runs", "2"]);
+    assert!(status == 0 || status == 1, "{status}");
+    assert_eq!(v["simulation"]["runs"], 2);
+    assert_eq!(v["simulation"]["settled_runs"], 2);
+}
+
+#[test]
+fn spectrum_prints_tiny_eigenvalues_in_scientific_notation() {
+    // A 300-node chain: λ2 = 4·sin²(π/600) = 1.0966e-4 (path spectrum, Fiedler 1973).
+    let dir = variant(
+        "long.toml",
+        "examples/footbridge.toml",
+        &[("nodes = 24", "nodes = 300")],
+    );
+    let file = dir.path().join("long.toml");
+    let out = entrain()
+        .args(["spectrum", file.to_str().unwrap()])
+        .output()
+        .unwrap();
+    let text = String::from_utf8(out.stdout).unwrap();
+    let want = path_eigenvalue(300, 1);
+    assert!(want < 1e-3);
+    assert!(text.contains(&format!("{want:.5e}")), "{text}");
+    assert!(!text.contains("  0.000110  "), "{text}");
+}
+
+/// The conveyor example with its edge list replaced by `edges` (the file's text), fixed
+/// gains kp 0.2, ki 0.01.
+fn conveyor_with_edges(edges: &str) -> tempfile::TempDir {
+    let dir = variant(
+        "c.toml",
+        "examples/conveyor.toml",
+        &[
+            ("kp = \"tune\"", "kp = 0.2"),
+            ("ki = \"tune\"", "ki = 0.01"),
+        ],
+    );
+    std::fs::write(dir.path().join("conveyor.edges"), edges).unwrap();
+    dir
+}
+
+#[test]
+fn weighted_edge_lists_plan_and_simulate_with_their_weights() {
+    // A 12-node chain whose links all weigh 2: L = 2·L(P_12), so λ_k = 2·(2 − 2cos(kπ/12))
+    // (path spectrum, Fiedler 1973, scaled by the weight).
+    let text: String = (1..12).map(|k| format!("{} {k} 2\n", k - 1)).collect();
+    let dir = conveyor_with_edges(&text);
+    let file = dir.path().join("c.toml");
+    let (v, status) = json(&["spectrum", file.to_str().unwrap()]);
+    assert_eq!(status, 0);
+    let ev = v["eigenvalues"].as_array().unwrap();
+    assert_eq!(ev.len(), 12);
+    for (k, x) in ev.iter().enumerate().skip(1) {
+        assert!((f(x) - 2.0 * path_eigenvalue(12, k)).abs() < TOL, "k={k}");
+    }
+    assert_eq!(f(&v["spectrum"]["max_degree"]), 4.0);
+    // The planner's stability follows the weighted λmax: kp·λmax against 2 (Xiao & Boyd
+    // 2004), so the gain margin halves against the unweighted chain's.
+    let plain: String = (1..12).map(|k| format!("{} {k}\n", k - 1)).collect();
+    let plain_dir = conveyor_with_edges(&plain);
+    let plain_file = plain_dir.path().join("c.toml");
+    let (a, _) = json(&["check", file.to_str().unwrap(), "--no-simulate"]);
+    let (b, _) = json(&["check", plain_file.to_str().unwrap(), "--no-simulate"]);
+    let margin = |v: &Value| f(&v["prediction"]["margins"]["gain"]);
+    assert!(
+        (margin(&a) / margin(&b) - 0.5).abs() < 0.02,
+        "{} vs {}",
+        margin(&a),
+        margin(&b)
+    );
+    assert!(
+        (f(&a["prediction"]["stability"]["kp_limit"])
+            / f(&b["prediction"]["stability"]["kp_limit"])
+            - 0.5)
+            .abs()
+            < 0.02
+    );
+    // Tune runs end to end: its fastest P gain sits near 2/(λ2 + λmax) of the weighted
+    // spectrum (Xiao & Boyd 2004; the tuner's scan is coarse, so within 5 %), half the
+    // unweighted chain's.
+    let tune_dir = variant(
+        "t.toml",
+        "examples/conveyor.toml",
+        &[("ki = \"tune\"", "ki = 0")],
+    );
+    std::fs::write(tune_dir.path().join("conveyor.edges"), &text).unwrap();
+    let tune_file = tune_dir.path().join("t.toml");
+    let (t, status) = json(&["tune", tune_file.to_str().unwrap()]);
+    assert!(status == 0 || status == 1, "{status}");
+    let best = 2.0 / (2.0 * path_eigenvalue(12, 1) + 2.0 * path_eigenvalue(12, 11));
+    let fastest = f(&t["tuning"]["fastest"]["kp"]);
+    assert!((fastest / best - 1.0).abs() < 0.05, "{fastest} vs {best}");
+    // The simulator runs the node code with the weights.
+    let (s, status) = json(&["simulate", file.to_str().unwrap(), "--runs", "2"]);
+    assert!(status == 0 || status == 1, "{status}");
+    assert_eq!(s["simulation"]["settled_runs"], 2);
+}
+
+#[test]
+fn weight_one_is_the_unweighted_edge_list() {
+    // The conveyor's own edges, once as given and once with an explicit weight 1 on
+    // every line: every command's answer is the same, simulation included (the node law
+    // takes weight one as the unweighted law, bit for bit).
+    let plain = std::fs::read_to_string(
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/conveyor.edges"),
+    )
+    .unwrap();
+    let ones: String = plain
+        .lines()
+        .map(|l| {
+            if l.trim().is_empty() || l.starts_with('#') {
+                format!("{l}\n")
+            } else {
+                format!("{l} 1\n")
+            }
+        })
+        .collect();
+    assert_ne!(plain, ones);
+    let (da, db) = (conveyor_with_edges(&plain), conveyor_with_edges(&ones));
+    for args in [vec!["spectrum"], vec!["simulate", "--runs", "2"]] {
+        let run = |dir: &tempfile::TempDir| {
+            let file = dir.path().join("c.toml");
+            let mut full = args.clone();
+            full.insert(1, file.to_str().unwrap());
+            let (mut v, _) = json(&full);
+            v["scenario"]["file"] = Value::Null;
+            v
+        };
+        let (va, vb) = (run(&da), run(&db));
+        assert_eq!(va, vb, "{args:?}");
+    }
+}

@@ -400,3 +400,217 @@ fn summary_above_the_dense_limit_reports_the_smallest_eigenvalues() {
     let top = want[want.len() - 1];
     assert!((s.spectrum.lambda_max - top).abs() <= 1e-10 * top);
 }
+
+/// The grounded Laplacian built here from scratch: `L` of the edges, then the reference
+/// rows and columns dropped (independent of the library's grounding).
+fn reference_grounded(n: usize, edges: &[(usize, usize, f64)], refs: &[usize]) -> DMatrix<f64> {
+    let l = reference_laplacian(n, edges);
+    let keep: Vec<usize> = (0..n).filter(|i| !refs.contains(i)).collect();
+    DMatrix::from_fn(keep.len(), keep.len(), |r, c| l[(keep[r], keep[c])])
+}
+
+fn sorted_eigenvalues(m: DMatrix<f64>) -> Vec<f64> {
+    let mut v: Vec<f64> = SymmetricEigen::new(m).eigenvalues.iter().copied().collect();
+    v.sort_by(f64::total_cmp);
+    v
+}
+
+/// Eigenvalue k (1-based) of a chain of N followers grounded at one end through one link
+/// to a reference: 4·sin²((2k − 1)π / (2(2N + 1))). Yueh (2005), "Eigenvalues of several
+/// tridiagonal matrices", Applied Mathematics E-Notes 5, 66–74: the tridiagonal matrix
+/// with 2 on the diagonal, −1 off it and one corner entry changed to 1; the form is
+/// quoted from memory and is also checked against nalgebra below.
+fn pinned_chain_eigen(n: usize, k: usize) -> f64 {
+    let x = (2 * k - 1) as f64 * std::f64::consts::PI / (2 * (2 * n + 1)) as f64;
+    4.0 * x.sin().powi(2)
+}
+
+#[test]
+fn pinned_chain_graph_keeps_its_reference() {
+    let n = 12;
+    let t = Topology::PinnedChain { nodes: n };
+    let g = Graph::from_topology(&t).unwrap();
+    assert_eq!(
+        (g.node_count(), g.references(), g.free_count()),
+        (13, &[12][..], 12)
+    );
+    let s = g.spectrum().unwrap();
+    assert!(s.pinned && s.connected);
+    assert_eq!(s.node_count, 12);
+    // λslow 0.01577 (the free 13-node chain would give 0.058).
+    assert!((s.lambda_slow - pinned_chain_eigen(n, 1)).abs() < 1e-14);
+    assert!((s.lambda_slow - 0.01577).abs() < 5e-6);
+    let dense = g.dense_spectrum().unwrap();
+    let edges: Vec<(usize, usize, f64)> = g.edges().iter().map(|e| (e.a, e.b, e.weight)).collect();
+    let independent = sorted_eigenvalues(reference_grounded(13, &edges, &[12]));
+    assert_eq!(dense.eigenvalues().len(), n);
+    for (k, (&x, &y)) in dense.eigenvalues().iter().zip(&independent).enumerate() {
+        assert!((x - pinned_chain_eigen(n, k + 1)).abs() < 1e-13, "k={k}");
+        assert!((x - y).abs() < 1e-13, "k={k}");
+    }
+    // The planner's closed form agrees, degrees and flow factor included.
+    let closed = t.spectrum().unwrap();
+    assert!((closed.lambda_max - s.lambda_max).abs() < 1e-12);
+    assert_eq!(closed.max_degree, s.max_degree);
+    assert!((g.worst_flow_factor().unwrap() - t.worst_flow_factor().unwrap()).abs() < 1e-9);
+    // The slowest mode is 0 at the reference and largest at the far end.
+    let mode = dense.slow_mode();
+    assert_eq!(mode[12], 0.0);
+    assert!((mode[n - 1] - 1.0).abs() < 1e-12);
+    // The sparse path agrees with the closed form.
+    let sparse = g.sparse_spectrum().unwrap();
+    assert!((sparse.lambda2 - pinned_chain_eigen(n, 1)).abs() < 1e-12);
+    assert!(sparse.lambda_max_lower <= closed.lambda_max + 1e-12);
+    assert!(sparse.lambda_max_upper >= closed.lambda_max - 1e-12);
+}
+
+#[test]
+fn sparse_pinned_chain_above_the_dense_limit_meets_its_closed_form() {
+    let n = 3000;
+    let g = Graph::from_topology(&Topology::PinnedChain { nodes: n }).unwrap();
+    let summary = g.summary().unwrap();
+    assert!(summary.eigenvalues.is_none(), "sparse path expected");
+    assert!(summary.spectrum.pinned);
+    let want = pinned_chain_eigen(n, 1);
+    assert!((summary.spectrum.lambda_slow - want).abs() <= 1e-9 * want);
+    for (k, &x) in summary.smallest_eigenvalues.iter().enumerate() {
+        let want = pinned_chain_eigen(n, k + 1);
+        assert!((x - want).abs() <= 1e-9 * want, "k={k}: {x} vs {want}");
+    }
+    assert_eq!(summary.smallest_eigenvalues.len(), 6);
+    let top = pinned_chain_eigen(n, n);
+    assert!(
+        summary.spectrum.lambda_max >= top && summary.spectrum.lambda_max <= top * (1.0 + 1e-9)
+    );
+}
+
+#[test]
+fn reference_nodes_anywhere_match_the_grounded_reference() {
+    // A workshop of 40 stations on a random tree plus extra links, two of them fed by a
+    // disciplined clock.
+    let n = 40;
+    let parents: Vec<usize> = (0..n).map(|i| (i * 7919 + 13) % 997).collect();
+    let extra: Vec<(usize, usize)> = (0..30).map(|i| (i * 31 + 5, i * 17 + 11)).collect();
+    let edges = random_graph(n, &extra, &parents, &[1.0]);
+    let refs = [7, 23];
+    let pairs: Vec<(usize, usize)> = edges.iter().map(|&(a, b, _)| (a, b)).collect();
+    let g = Graph::from_edges(n, &pairs)
+        .unwrap()
+        .with_references(&refs)
+        .unwrap();
+    let want = sorted_eigenvalues(reference_grounded(n, &edges, &refs));
+    let dense = g.dense_spectrum().unwrap();
+    assert_eq!(dense.eigenvalues().len(), n - 2);
+    for (x, y) in dense.eigenvalues().iter().zip(&want) {
+        assert!((x - y).abs() < 1e-12);
+    }
+    assert!((dense.lambda2() - want[0]).abs() < 1e-12);
+    let options = SparseOptions {
+        smallest: 4,
+        ..SparseOptions::default()
+    };
+    let sparse = g.sparse_spectrum_with(&options).unwrap();
+    for (k, (&x, &b)) in sparse
+        .smallest
+        .iter()
+        .zip(&sparse.smallest_error_bounds)
+        .enumerate()
+    {
+        assert!((x - want[k]).abs() <= b + 1e-12, "k={k}");
+    }
+    let top = want[want.len() - 1];
+    assert!(sparse.lambda_max_lower <= top + 1e-12 && sparse.lambda_max_upper >= top - 1e-12);
+    for &r in &refs {
+        assert_eq!(sparse.slow_mode[r], 0.0);
+        assert_eq!(dense.slow_mode()[r], 0.0);
+    }
+    // The same slowest mode on both paths.
+    let overlap: f64 = sparse
+        .slow_mode
+        .iter()
+        .zip(dense.slow_mode())
+        .map(|(a, b)| a * b)
+        .sum();
+    let norms: f64 = sparse.slow_mode.iter().map(|a| a * a).sum::<f64>().sqrt()
+        * dense.slow_mode().iter().map(|a| a * a).sum::<f64>().sqrt();
+    assert!((overlap.abs() / norms - 1.0).abs() < 1e-9);
+}
+
+#[test]
+fn bad_reference_lists_are_errors() {
+    let g = Graph::from_edges(4, &[(0, 1), (1, 2), (2, 3)]).unwrap();
+    assert_eq!(
+        g.clone().with_references(&[4]),
+        Err(GraphError::ReferenceOutOfRange { node: 4, nodes: 4 })
+    );
+    assert_eq!(
+        g.clone().with_references(&[1, 1]),
+        Err(GraphError::DuplicateReference { node: 1 })
+    );
+    assert_eq!(
+        g.clone().with_references(&[0, 1, 2, 3]),
+        Err(GraphError::AllReferences { nodes: 4 })
+    );
+    // A piece with no reference can never be pulled to the reference phase.
+    let split = Graph::from_edges(4, &[(0, 1), (2, 3)])
+        .unwrap()
+        .with_references(&[0])
+        .unwrap();
+    assert!(!split.is_connected());
+    assert_eq!(
+        split.sparse_spectrum(),
+        Err(GraphError::NoReferenceReached { pieces: 1 })
+    );
+    assert!(!split.spectrum().unwrap().connected);
+    // Each piece with its own reference is fine.
+    let both = Graph::from_edges(4, &[(0, 1), (2, 3)])
+        .unwrap()
+        .with_references(&[0, 3])
+        .unwrap();
+    assert!(both.is_connected());
+    assert!((both.spectrum().unwrap().lambda_slow - 1.0).abs() < 1e-14);
+}
+
+#[test]
+fn weighted_star_and_chain_meet_closed_forms() {
+    // Star with every spoke of weight w: the Laplacian is w times the plain star's, so
+    // {0, w (×N−2), wN} (the plain star: Brouwer & Haemers 2012 §1.4, from memory; scaled by w).
+    let (n, w) = (9, 2.5);
+    let spokes: Vec<(usize, usize, f64)> = (1..n).map(|i| (0, i, w)).collect();
+    let star = Graph::from_weighted_edges(n, &spokes).unwrap();
+    let ev = star.dense_spectrum().unwrap().eigenvalues().to_vec();
+    assert!(ev[0].abs() < 1e-12);
+    for &x in &ev[1..n - 1] {
+        assert!((x - w).abs() < 1e-12);
+    }
+    assert!((ev[n - 1] - w * n as f64).abs() < 1e-12);
+    // A chain with uneven weights against nalgebra on the matrix built here, and its
+    // flow factor against the partial sums: on a tree the steady flow over edge k is
+    // S_k whatever the weights (Strogatz & Mirollo 1988), so per unit of the edge's own
+    // capacity (weight w_k) the worst is max_k 2k(N − k)/(N·w_k).
+    let n = 12;
+    let weights: Vec<f64> = (1..n).map(|k| 0.5 + 0.37 * ((k * 5) % 7) as f64).collect();
+    let edges: Vec<(usize, usize, f64)> = (1..n).map(|k| (k - 1, k, weights[k - 1])).collect();
+    let chain = Graph::from_weighted_edges(n, &edges).unwrap();
+    let want = sorted_eigenvalues(reference_laplacian(n, &edges));
+    let dense = chain.dense_spectrum().unwrap();
+    for (x, y) in dense.eigenvalues().iter().zip(&want) {
+        assert!((x - y).abs() < 1e-12);
+    }
+    let sparse = chain.sparse_spectrum().unwrap();
+    assert!((sparse.lambda2 - want[1]).abs() <= sparse.lambda2_error_bound + 1e-12);
+    let flow = (1..n)
+        .map(|k| 2.0 * (k * (n - k)) as f64 / (n as f64 * weights[k - 1]))
+        .fold(0.0, f64::max);
+    assert!((chain.worst_flow_factor().unwrap() - flow).abs() < 1e-9);
+    // Weight 1 everywhere is the unweighted graph, bit for bit.
+    let ones: Vec<(usize, usize, f64)> = (1..n).map(|k| (k - 1, k, 1.0)).collect();
+    let plain: Vec<(usize, usize)> = (1..n).map(|k| (k - 1, k)).collect();
+    assert_eq!(
+        Graph::from_weighted_edges(n, &ones)
+            .unwrap()
+            .summary()
+            .unwrap(),
+        Graph::from_edges(n, &plain).unwrap().summary().unwrap()
+    );
+}

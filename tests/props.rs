@@ -125,10 +125,40 @@ down_s = 0.4
         Layout::EdgeList {
             path: Path::new("quay.toml").to_path_buf(),
             nodes: 4,
-            edges: vec![(0, 1), (1, 2), (2, 0), (2, 3)]
+            edges: vec![(0, 1), (1, 2), (2, 0), (2, 3)],
+            weights: Vec::new(),
+            references: Vec::new(),
         }
     );
     assert_eq!(back(&s), s);
+}
+
+#[test]
+fn weighted_and_referenced_edge_lists_read_back_equal() {
+    let text = QUICK.replace(
+        "topology = \"chain\"\nnodes = 2",
+        "topology = \"edge_list\"\nedges = [[0, 1, 2.5], [1, 2], [2, 3, 0.125]]\nreference_nodes = [3, 0]",
+    );
+    let s = read("pier.toml", &text);
+    assert_eq!(
+        s.layout,
+        Layout::EdgeList {
+            path: Path::new("pier.toml").to_path_buf(),
+            nodes: 4,
+            edges: vec![(0, 1), (1, 2), (2, 3)],
+            weights: vec![2.5, 1.0, 0.125],
+            references: vec![0, 3],
+        }
+    );
+    assert_eq!(back(&s), s);
+    for bad in ["[1, 2, 0.0]", "[1, 2, 101]", "[1, 2, -1]"] {
+        let text = text.replace("[1, 2]", bad);
+        let e = Scenario::from_toml(Path::new("pier.toml"), &text).unwrap_err();
+        assert!(
+            e.message.contains("a weight is a number from 0.01 to 100"),
+            "{e}"
+        );
+    }
 }
 
 #[test]

@@ -385,7 +385,7 @@ fn pi_common_rate_holds_over_a_long_run() {
 #[test]
 fn pinned_chain_follows_its_reference() {
     let links = Links::from_topology(&Topology::PinnedChain { nodes: 5 }).unwrap();
-    let reference = links.reference().unwrap();
+    let reference = links.references()[0];
     let mut s = Setup::new(links, config(Law::Sine, 0.4, 0.02), 1e6);
     s.crystals = Crystals::Uniform {
         tolerance_ppm: 20.0,
@@ -408,4 +408,69 @@ fn pinned_chain_follows_its_reference() {
     assert!(o.stats.node_updates <= 5 * (rounds + 1) && o.stats.node_updates + 5 >= 5 * rounds);
     // The planner sees a pinned spectrum for the same links.
     assert!(s.links.topology().unwrap().spectrum().unwrap().pinned);
+}
+
+/// Reference nodes anywhere in an edge list: a greenhouse bench of eight controllers with
+/// two fed by a disciplined clock. The references never adjust, so between samples
+/// (one update interval of an ideal clock apart) each advances by exactly the same
+/// phase, the same as an ideal clock's; the others lock onto them.
+#[test]
+fn reference_nodes_never_move_relative_to_ideal() {
+    let edges = [
+        (0, 1),
+        (1, 2),
+        (2, 3),
+        (3, 4),
+        (4, 5),
+        (5, 6),
+        (6, 7),
+        (2, 6),
+    ];
+    let graph = entrain::graph::Graph::from_edges(8, &edges)
+        .unwrap()
+        .with_references(&[3, 7])
+        .unwrap();
+    let links = Links::from_graph(&graph).unwrap();
+    assert_eq!(links.references(), &[3, 7]);
+    let mut s = Setup::new(links, config(Law::Sine, 0.4, 0.02), 1e6);
+    s.crystals = Crystals::Identical { ppm: 40.0 };
+    s.schedule = Schedule {
+        random_start: true,
+        jitter_ticks: 100,
+    };
+    s.start = StartPhases::Uniform { spread_turns: 0.2 };
+    s.horizon_updates = 2_000;
+    let mut net = Network::<4>::new(&s, 5, 0).unwrap();
+    // Held at the nominal rate whatever the scenario's crystals say.
+    assert_eq!(net.crystal_ppm(3), Some(0.0));
+    assert_eq!(net.crystal_ppm(7), Some(0.0));
+    assert_eq!(net.crystal_ppm(0), Some(40.0));
+    net.step();
+    let first: Vec<u32> = [3, 7]
+        .iter()
+        .map(|&r| net.sampled_phases()[r].unwrap().counts())
+        .collect();
+    // One update interval of an ideal clock is config.update_ticks() ticks of a
+    // period of 10,000 ticks, i.e. update_ticks/10,000 of a turn, in 2^32 counts a turn.
+    let update_ticks = u64::from(s.config.update_ticks());
+    let step = ((update_ticks % 10_000) << 32) / 10_000;
+    for k in 1..400u64 {
+        net.step();
+        for (i, &r) in [3, 7].iter().enumerate() {
+            let now = net.sampled_phases()[r].unwrap().counts();
+            let ideal = first[i].wrapping_add((k * step) as u32);
+            let off = now.wrapping_sub(ideal) as i32;
+            // Within a count or two of the exact ideal advance (integer tick arithmetic).
+            assert!(
+                off.abs() <= 2,
+                "node {r} sample {k}: {off} counts off ideal"
+            );
+        }
+    }
+    for r in [3, 7] {
+        let node = net.node(r).unwrap();
+        assert_eq!((node.neighbour_count(), node.trim_ppb()), (0, 0));
+    }
+    let o = net.run(None);
+    assert!(o.settle.is_some(), "{o:?}");
 }

@@ -102,10 +102,31 @@ impl NetworkModel {
                     slow_mode,
                 })
             }
-            Layout::EdgeList { nodes, edges, path } => {
+            Layout::EdgeList {
+                nodes,
+                edges,
+                weights,
+                path,
+                references,
+            } => {
                 let at_file = |message: String| AssessError::input(path, message);
-                let graph = Graph::from_edges(*nodes, edges)
+                let weighted: Vec<(usize, usize, f64)> = edges
+                    .iter()
+                    .enumerate()
+                    .map(|(k, &(a, b))| (a, b, weights.get(k).copied().unwrap_or(1.0)))
+                    .collect();
+                let graph = Graph::from_weighted_edges(*nodes, &weighted)
+                    .and_then(|g| g.with_references(references))
                     .map_err(|e| at_file(format!("edge list: {e}")))?;
+                if graph.is_pinned() && !graph.is_connected() {
+                    return Err(at_file(format!(
+                        "edge list: {}",
+                        graph
+                            .require_connected()
+                            .err()
+                            .map_or_else(String::new, |e| e.to_string())
+                    )));
+                }
                 if !graph.is_connected() {
                     return Err(at_file(format!(
                         "edge list: the graph falls apart into {} pieces that can never lock to each other: every node must be reachable from every other",

@@ -553,7 +553,8 @@ pub fn analyse(a: &Assessment, logs: &LogSet) -> Result<FieldReport, AssessError
         a.prediction.horizon_updates,
     )?;
     let n = setup.links.nodes();
-    let reference = setup.links.reference();
+    // Every reference node holds the ideal phase: offsets are measured from the first.
+    let reference = setup.links.references().first().copied();
     let expected: BTreeSet<(usize, usize)> = setup
         .links
         .pairs()
@@ -771,7 +772,7 @@ pub fn analyse(a: &Assessment, logs: &LogSet) -> Result<FieldReport, AssessError
         }
     }
     let silent: Vec<usize> = (0..n)
-        .filter(|&i| Some(i) != reference && !logging.contains(&i))
+        .filter(|&i| !setup.links.is_reference(i) && !logging.contains(&i))
         .collect();
     let unknown: Vec<usize> = series
         .keys()

@@ -416,18 +416,18 @@ fn forecast_runs(
 /// polynomials on the Laplacian's eigenvalues (grounded at a pinned reference).
 fn slowest_period(s: &Setup) -> Option<f64> {
     let n = s.nodes();
-    let reference = s.links.reference();
-    let keep: Vec<usize> = (0..n).filter(|&i| Some(i) != reference).collect();
+    let keep: Vec<usize> = (0..n).filter(|&i| !s.links.is_reference(i)).collect();
     let pos = |i: usize| keep.iter().position(|&k| k == i);
     let mut l = DMatrix::<f64>::zeros(keep.len(), keep.len());
     for &(a, b) in s.links.pairs() {
+        let w = f64::from(s.links.weight_q16(a, b)) / 65_536.0;
         for (u, v) in [(a, b), (b, a)] {
             if let Some(pu) = pos(u) {
                 if let Some(x) = l.get_mut((pu, pu)) {
-                    *x += 1.0;
+                    *x += w;
                 }
                 if let Some(x) = pos(v).and_then(|pv| l.get_mut((pu, pv))) {
-                    *x -= 1.0;
+                    *x -= w;
                 }
             }
         }

@@ -26,7 +26,10 @@ pub(crate) struct Replica {
     nbr: Vec<usize>,
     /// For receiver slot s (node i's neighbour j), the slot of i in j's list.
     back: Vec<usize>,
-    reference: Option<usize>,
+    /// Coupling weight of each receiver slot's link, as the node applies it (Q16.16).
+    weight: Vec<f64>,
+    /// `true` at each reference node (beacons the ideal phase, never adjusts).
+    reference: Vec<bool>,
     /// Update interval M, ticks.
     m: f64,
     /// Turns per tick, `1/ticks_per_period`.
@@ -94,13 +97,20 @@ impl Replica {
                 }
             }
         }
+        let mut weight = vec![1.0; nbr.len()];
+        for i in 0..n {
+            for s_ in off[i]..off[i + 1] {
+                weight[s_] = f64::from(s.links.weight_q16(i, nbr[s_])) / 65_536.0;
+            }
+        }
         let c = &s.config;
         let r = 1.0 / f64::from(c.ticks_per_period());
         Replica {
             off,
             nbr,
             back,
-            reference: s.links.reference(),
+            weight,
+            reference: (0..s.nodes()).map(|i| s.links.is_reference(i)).collect(),
             m: f64::from(c.update_ticks()),
             r,
             kp: c.kp().to_f64(),
@@ -403,7 +413,7 @@ pub(crate) fn run(setup: &Replica, seed: u64, run: u64, stop: Option<EarlyStop>)
     };
     let mut st: Vec<State> = (0..n)
         .map(|i| {
-            let e = if setup.reference == Some(i) {
+            let e = if setup.reference[i] {
                 0.0
             } else {
                 ppm[i] * 1e-6
@@ -412,6 +422,9 @@ pub(crate) fn run(setup: &Replica, seed: u64, run: u64, stop: Option<EarlyStop>)
                 StartPhases::Uniform { spread_turns } => (rng.random::<f64>() - 0.5) * spread_turns,
                 StartPhases::Fixed(v) => v[i],
             };
+            // Every reference holds the reference phase: the ideal clock's (the draw
+            // above still happens, so the other nodes' draws do not move).
+            let x = if setup.reference[i] { 0.0 } else { x };
             let first = if setup.random_start {
                 rng.random_range(0..setup.m as u64) as f64
             } else {
@@ -505,7 +518,7 @@ fn update(
     me.t_last = t;
     // Updates fall on whole ticks of the node's own timer.
     let now_local = me.next_local;
-    let is_ref = setup.reference == Some(i);
+    let is_ref = setup.reference[i];
     for s in lo..hi {
         while wires.flights[s].front().is_some_and(|f| f.arrive < t) {
             let Some(f) = wires.flights[s].pop_front() else {
@@ -547,14 +560,14 @@ fn update(
         me.trim = me.trim_next;
         let mut sum = 0.0;
         let mut used = 0;
-        for slot in &mut wires.table[lo..hi] {
+        for (slot, &w) in wires.table[lo..hi].iter_mut().zip(&setup.weight[lo..hi]) {
             let Some(e) = *slot else { continue };
             if now_local - e.heard > setup.timeout {
                 *slot = None;
                 continue;
             }
             let d = wrap(e.anchored_diff - me.corr);
-            sum += if setup.sine { (TAU * d).sin() / TAU } else { d };
+            sum += w * if setup.sine { (TAU * d).sin() / TAU } else { d };
             used += 1;
         }
         if used > 0 {

@@ -41,6 +41,29 @@ pub enum GraphError {
         /// Number of connected components (≥ 2).
         components: usize,
     },
+    /// A reference node index is not a node of the graph.
+    ReferenceOutOfRange {
+        /// The index given.
+        node: usize,
+        /// Number of nodes.
+        nodes: usize,
+    },
+    /// A reference node is listed twice.
+    DuplicateReference {
+        /// The repeated index.
+        node: usize,
+    },
+    /// Every node is a reference: nothing would adjust.
+    AllReferences {
+        /// Number of nodes.
+        nodes: usize,
+    },
+    /// With reference nodes: `pieces` connected pieces hold no reference, so nothing
+    /// pulls them toward the reference phase.
+    NoReferenceReached {
+        /// Pieces without a reference (≥ 1).
+        pieces: usize,
+    },
     /// More nodes than a graph may have ([`crate::graph::MAX_GRAPH_NODES`]).
     TooManyNodes {
         /// Node count that was given.
@@ -116,6 +139,21 @@ impl fmt::Display for GraphError {
                     "graph is disconnected ({components} components); its parts can never lock"
                 )
             }
+            Self::ReferenceOutOfRange { node, nodes } => write!(
+                f,
+                "reference node {node} is not a node; valid nodes are 0..{nodes}"
+            ),
+            Self::DuplicateReference { node } => {
+                write!(f, "reference node {node} is listed twice")
+            }
+            Self::AllReferences { nodes } => write!(
+                f,
+                "all {nodes} nodes are references; at least one node must adjust its phase"
+            ),
+            Self::NoReferenceReached { pieces } => write!(
+                f,
+                "{pieces} connected piece(s) of the graph hold no reference node, so nothing pulls them to the reference phase"
+            ),
             Self::TooManyNodes { nodes, max } => {
                 write!(f, "graph has {nodes} nodes; at most {max} are supported")
             }

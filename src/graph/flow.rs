@@ -34,9 +34,12 @@ impl Graph {
             .collect())
     }
 
-    /// Worst edge load per unit detuning: `max over edges e of ‖w_e·L†b_e‖₁`, so drifts
-    /// within `±w` load no edge beyond `w ×` this (the input of
-    /// [`crate::plan::lock_worst_case`]). Dense `L†` via a Cholesky inverse; O(N³).
+    /// Worst edge load per unit detuning, relative to each edge's own capacity:
+    /// `max over edges e of ‖L†b_e‖₁` (the flow `‖w_e·L†b_e‖₁` over the edge's weight
+    /// `w_e`, since a link of weight `w` carries `w` times a plain link's coupling), so
+    /// drifts within `±d` load no edge beyond `d ×` this many plain-link capacities (the
+    /// input of [`crate::plan::lock_worst_case`]). Equal to the flow itself when every
+    /// weight is 1. Dense `L†` via a Cholesky inverse; O(N³).
     ///
     /// # Errors
     /// [`GraphError::Disconnected`], [`GraphError::TooLargeForDense`].
@@ -71,22 +74,46 @@ impl Graph {
             });
         }
         let n = self.node_count();
-        // L† = (L + J/n)⁻¹ − J/n for a connected graph.
-        let l = self.laplacian_dense()?;
-        let shifted = l.add_scalar(1.0 / n as f64);
-        let inverse = shifted
-            .cholesky()
-            .ok_or(GraphError::Factorization)?
-            .inverse();
-        let pinv = inverse.add_scalar(-1.0 / n as f64);
+        let pinv = if self.is_pinned() {
+            // Referenced: θ = L_g⁻¹ω̃ on the adjusting nodes, 0 at the references.
+            let inverse = self
+                .grounded_laplacian_dense()?
+                .cholesky()
+                .ok_or(GraphError::Factorization)?
+                .inverse();
+            let keep: Vec<Option<usize>> = {
+                let mut next = 0;
+                (0..n)
+                    .map(|i| {
+                        (!self.is_reference(i)).then(|| {
+                            next += 1;
+                            next - 1
+                        })
+                    })
+                    .collect()
+            };
+            nalgebra::DMatrix::from_fn(n, n, |r, c| match (keep[r], keep[c]) {
+                (Some(a), Some(b)) => inverse[(a, b)],
+                _ => 0.0,
+            })
+        } else {
+            // L† = (L + J/n)⁻¹ − J/n for a connected graph.
+            let l = self.laplacian_dense()?;
+            let shifted = l.add_scalar(1.0 / n as f64);
+            let inverse = shifted
+                .cholesky()
+                .ok_or(GraphError::Factorization)?
+                .inverse();
+            inverse.add_scalar(-1.0 / n as f64)
+        };
         let mut worst = (0.0_f64, vec![0.0; n]);
         for e in self.edges() {
             let (ca, cb) = (pinv.column(e.a), pinv.column(e.b));
-            let load: f64 = e.weight
-                * ca.iter()
-                    .zip(cb.iter())
-                    .map(|(x, y)| (x - y).abs())
-                    .sum::<f64>();
+            let load: f64 = ca
+                .iter()
+                .zip(cb.iter())
+                .map(|(x, y)| (x - y).abs())
+                .sum::<f64>();
             if load > worst.0 {
                 worst = (load, ca.iter().zip(cb.iter()).map(|(x, y)| x - y).collect());
             }

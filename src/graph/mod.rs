@@ -61,13 +61,16 @@ const _: () = assert!(DENSE_AUTO_MAX_NODES <= DENSE_MAX_NODES);
 pub struct GraphSummary {
     /// The planner's input (λslow = λ2, λmax, degrees, connected or not).
     pub spectrum: Spectrum,
-    /// Every eigenvalue, ascending, when the dense path ran (`node_count ≤ DENSE_AUTO_MAX_NODES`).
+    /// Every eigenvalue, ascending, when the dense path ran (`node_count ≤ DENSE_AUTO_MAX_NODES`);
+    /// of the grounded Laplacian (one per adjusting node, no zero mode) on a pinned graph.
     pub eigenvalues: Option<Vec<f64>>,
     /// The smallest eigenvalues, ascending: 0, then λ2 up to [`SMALLEST_EIGENVALUES`]
-    /// non-zero ones (fewer on a small graph); on both paths. Empty for a disconnected
-    /// graph on the sparse path.
+    /// non-zero ones (fewer on a small graph); on both paths. A pinned graph has no zero
+    /// mode: its [`SMALLEST_EIGENVALUES`] + 1 smallest grounded eigenvalues. Empty for a
+    /// disconnected graph on the sparse path.
     pub smallest_eigenvalues: Vec<f64>,
-    /// The slowest mode's shape (largest magnitude 1); empty for a disconnected graph.
+    /// The slowest mode's shape (largest magnitude 1), one entry per node (0 at reference
+    /// nodes); empty for a disconnected graph.
     pub slow_mode: Vec<f64>,
     /// Worst edge load per unit detuning ([`Graph::worst_flow_factor`]) when the dense path
     /// ran and the graph is connected.
@@ -95,6 +98,12 @@ pub struct Graph {
     neighbours: Vec<(usize, f64)>,
     degrees: Vec<f64>,
     components: usize,
+    /// Reference nodes, ascending (empty: a free graph).
+    references: Vec<usize>,
+    /// `true` at each reference node (empty when there are none).
+    grounded: Vec<bool>,
+    /// Connected pieces without a reference node (0 when there are no references).
+    unreferenced: usize,
 }
 
 impl Graph {
@@ -191,13 +200,89 @@ impl Graph {
             neighbours,
             degrees,
             components: 0,
+            references: Vec::new(),
+            grounded: Vec::new(),
+            unreferenced: 0,
         };
-        graph.components = graph.count_components();
+        graph.components = graph.count_components().0;
         Ok(graph)
     }
 
+    /// Mark `references` as reference nodes: they beacon the reference phase and never
+    /// adjust, so every spectrum of this graph is the grounded Laplacian's (their rows and
+    /// columns removed; no zero mode), and the planner sees only the other nodes. An empty
+    /// list gives back the free graph.
+    ///
+    /// # Errors
+    /// [`GraphError::ReferenceOutOfRange`], [`GraphError::DuplicateReference`],
+    /// [`GraphError::AllReferences`].
+    pub fn with_references(mut self, references: &[usize]) -> Result<Self, GraphError> {
+        let mut grounded = vec![false; self.nodes];
+        for &node in references {
+            match grounded.get_mut(node) {
+                None => {
+                    return Err(GraphError::ReferenceOutOfRange {
+                        node,
+                        nodes: self.nodes,
+                    });
+                }
+                Some(true) => return Err(GraphError::DuplicateReference { node }),
+                Some(g) => *g = true,
+            }
+        }
+        if !references.is_empty() && references.len() == self.nodes {
+            return Err(GraphError::AllReferences { nodes: self.nodes });
+        }
+        let mut sorted = references.to_vec();
+        sorted.sort_unstable();
+        self.references = sorted;
+        self.grounded = if references.is_empty() {
+            Vec::new()
+        } else {
+            grounded
+        };
+        self.unreferenced = self.count_components().1;
+        Ok(self)
+    }
+
+    /// The reference nodes, ascending (empty for a free graph).
+    pub fn references(&self) -> &[usize] {
+        &self.references
+    }
+
+    /// Whether `node` is a reference node.
+    pub fn is_reference(&self, node: usize) -> bool {
+        self.grounded.get(node).copied().unwrap_or(false)
+    }
+
+    /// Whether the graph has reference nodes (its spectra are then grounded).
+    pub fn is_pinned(&self) -> bool {
+        !self.references.is_empty()
+    }
+
+    /// Number of nodes that adjust their phase (all but the references).
+    pub fn free_count(&self) -> usize {
+        self.nodes - self.references.len()
+    }
+
+    /// Set the reference entries of `v` to zero (pinned graphs), or subtract its mean
+    /// (free graphs): the projection onto the space the spectra live on.
+    pub(crate) fn remove_null(&self, v: &mut [f64]) {
+        if self.is_pinned() {
+            for (x, &g) in v.iter_mut().zip(&self.grounded) {
+                if g {
+                    *x = 0.0;
+                }
+            }
+        } else {
+            let mean = v.iter().sum::<f64>() / v.len().max(1) as f64;
+            v.iter_mut().for_each(|x| *x -= mean);
+        }
+    }
+
     /// The graph of a closed-form topology (node numbering as in [`Topology`]). A pinned
-    /// chain becomes a chain of `nodes + 1` with the reference as the last node.
+    /// chain becomes a chain of `nodes + 1` with the reference as the last node, marked
+    /// as a reference ([`Self::with_references`]), so its spectrum is the grounded one.
     ///
     /// # Errors
     /// [`GraphError::NoNodes`] if the topology is invalid.
@@ -210,7 +295,7 @@ impl Graph {
             Topology::PinnedChain { nodes } => {
                 edges.extend((1..nodes).map(|i| (i - 1, i)));
                 edges.push((0, nodes));
-                return Self::from_edges(nodes + 1, &edges);
+                return Self::from_edges(nodes + 1, &edges)?.with_references(&[nodes]);
             }
             Topology::Ring { nodes } => edges.extend((0..nodes).map(|i| (i, (i + 1) % nodes))),
             Topology::Star { nodes } => edges.extend((1..nodes).map(|i| (0, i))),
@@ -277,15 +362,25 @@ impl Graph {
         self.components
     }
 
-    /// Whether every node can reach every other.
+    /// Whether every node can reach every other (free graph), or every node can reach a
+    /// reference node (pinned graph): the spectrum's notion of connected.
     pub fn is_connected(&self) -> bool {
-        self.components == 1
+        if self.is_pinned() {
+            self.unreferenced == 0
+        } else {
+            self.components == 1
+        }
     }
 
-    /// Fail with [`GraphError::Disconnected`] unless connected.
+    /// Fail with [`GraphError::Disconnected`] (free graph) or
+    /// [`GraphError::NoReferenceReached`] (pinned graph) unless connected.
     pub fn require_connected(&self) -> Result<(), GraphError> {
         if self.is_connected() {
             Ok(())
+        } else if self.is_pinned() {
+            Err(GraphError::NoReferenceReached {
+                pieces: self.unreferenced,
+            })
         } else {
             Err(GraphError::Disconnected {
                 components: self.components,
@@ -293,7 +388,8 @@ impl Graph {
         }
     }
 
-    /// `y = L·x` for the weighted Laplacian `L = D − A`.
+    /// `y = L·x` for the weighted Laplacian `L = D − A`; on a pinned graph the grounded
+    /// Laplacian: reference entries of `x` are taken as 0 and those of `y` come out 0.
     ///
     /// # Errors
     /// [`GraphError::WrongLength`] unless both slices have `node_count()` entries.
@@ -306,31 +402,41 @@ impl Graph {
                 });
             }
         }
+        let at = |j: usize| if self.is_reference(j) { 0.0 } else { x[j] };
         for (i, out) in y.iter_mut().enumerate() {
+            if self.is_reference(i) {
+                *out = 0.0;
+                continue;
+            }
             let xi = x[i];
             *out = self
                 .neighbours(i)
                 .iter()
-                .map(|&(j, w)| w * (xi - x[j]))
+                .map(|&(j, w)| w * (xi - at(j)))
                 .sum();
         }
         Ok(())
     }
 
-    fn count_components(&self) -> usize {
+    /// Connected components, and how many of them hold no reference node (0 on a free
+    /// graph).
+    fn count_components(&self) -> (usize, usize) {
         let mut seen = vec![false; self.nodes];
         let mut stack = Vec::new();
         let mut count = 0;
+        let mut unreferenced = 0;
         for start in 0..self.nodes {
             if seen.get(start).copied().unwrap_or(true) {
                 continue;
             }
             count += 1;
+            let mut holds_reference = false;
             stack.push(start);
             if let Some(s) = seen.get_mut(start) {
                 *s = true;
             }
             while let Some(i) = stack.pop() {
+                holds_reference |= self.is_reference(i);
                 for &(j, _) in self.neighbours(i) {
                     if let Some(s) = seen.get_mut(j) {
                         if !*s {
@@ -340,8 +446,11 @@ impl Graph {
                     }
                 }
             }
+            if self.is_pinned() && !holds_reference {
+                unreferenced += 1;
+            }
         }
-        count
+        (count, unreferenced)
     }
 
     /// The full report: spectrum summary, all eigenvalues and the flow factor where the
@@ -391,12 +500,17 @@ impl Graph {
                 },
             })
         } else if self.is_connected() {
+            // A pinned graph has no zero mode: one more eigenvalue makes up the list.
             let options = SparseOptions {
-                smallest: SMALLEST_EIGENVALUES,
+                smallest: SMALLEST_EIGENVALUES + usize::from(self.is_pinned()),
                 ..SparseOptions::default()
             };
             let s = self.sparse_spectrum_observed(&options, observe)?;
-            let mut smallest = vec![0.0];
+            let mut smallest = if self.is_pinned() {
+                Vec::new()
+            } else {
+                vec![0.0]
+            };
             smallest.extend(&s.smallest);
             Ok(GraphSummary {
                 spectrum: self.spectrum_of(s.lambda2, s.lambda_max_upper),
@@ -448,15 +562,22 @@ impl Graph {
         Ok(self.spectrum_of(lambda_slow, lambda_max))
     }
 
-    /// The planner's summary of this (free, unpinned) graph with the given extremes.
+    /// The planner's summary of this graph with the given extremes (for a pinned graph:
+    /// the nodes that adjust, their largest degree counting links to references).
     fn spectrum_of(&self, lambda_slow: f64, lambda_max: f64) -> Spectrum {
+        let max_degree = self
+            .degrees
+            .iter()
+            .enumerate()
+            .filter(|&(i, _)| !self.is_reference(i))
+            .fold(0.0, |m: f64, (_, &d)| m.max(d));
         Spectrum {
-            node_count: self.nodes,
+            node_count: self.free_count(),
             lambda_slow,
             lambda_max,
-            max_degree: self.max_degree(),
+            max_degree,
             connected: self.is_connected(),
-            pinned: false,
+            pinned: self.is_pinned(),
             stable_twisted_states: 0,
         }
     }

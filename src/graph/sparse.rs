@@ -25,6 +25,14 @@
 //! Kato–Temple estimate, if the factorisation there succeeds. It stops when
 //! `hi − lo ≤ tolerance · lo`: that width is a bound on the error, not an estimate.
 //!
+//! **Reference nodes** ([`Graph::with_references`]): the spectrum is the grounded
+//! Laplacian's `L_g` (reference rows and columns removed). The factorised matrix carries
+//! each reference as an identity row and column, decoupled from the rest, and every
+//! vector has its reference entries set to 0 (in place of removing the mean): `L_g⁻¹` then
+//! replaces `L†` above, its largest eigenvalue `1/λ1(L_g)`, and `σI − L_g` the shifted
+//! operator; the Rayleigh quotients from edge differences stay exact with `z = 0` at the
+//! references.
+//!
 //! Both solvers keep every Lanczos vector and re-orthogonalise fully (twice), restart from
 //! the Ritz vector when the basis is full, and return
 //! [`GraphError::EigenvalueNotConverged`] rather than a number when the bound does not
@@ -72,7 +80,8 @@ impl Default for SparseOptions {
 /// The few smallest non-zero eigenvalues, λmax and the slowest mode, from the sparse path.
 #[derive(Clone, Debug, PartialEq)]
 pub struct SparseSpectrum {
-    /// λ2, the algebraic connectivity (= `smallest[0]`).
+    /// λ2, the algebraic connectivity (= `smallest[0]`); on a pinned graph the grounded
+    /// Laplacian's smallest eigenvalue.
     pub lambda2: f64,
     /// Bound on `|λ2 − lambda2|` (absolute).
     pub lambda2_error_bound: f64,
@@ -90,7 +99,8 @@ pub struct SparseSpectrum {
     /// most `tolerance · lambda_max_lower` above the lower bound: the conservative figure
     /// for step-size limits.
     pub lambda_max_upper: f64,
-    /// The eigenvector of λ2, scaled so its largest magnitude is 1 and positive.
+    /// The eigenvector of λ2, scaled so its largest magnitude is 1 and positive (0 at
+    /// reference nodes).
     pub slow_mode: Vec<f64>,
     /// Solves with a Cholesky factor (grounded for the smallest, shifted for λmax).
     pub operator_applications: usize,
@@ -127,6 +137,10 @@ pub(crate) struct Pattern {
     matrix: SparseColMat<usize, f64>,
     /// Position of each node's diagonal entry among the values.
     diagonal: Vec<usize>,
+    /// Whether the graph has reference nodes (then `matrix` is already grounded).
+    pinned: bool,
+    /// `true` at each reference node (empty on a free graph).
+    reference: Vec<bool>,
 }
 
 enum ShiftOutcome {
@@ -140,11 +154,20 @@ impl Pattern {
     pub(crate) fn new(graph: &Graph) -> Result<Self, GraphError> {
         let n = graph.node_count();
         let mut triplets = Vec::with_capacity(n + graph.edges().len());
+        // Reference nodes are grounded here: an identity row and column (the edges keep
+        // their place in the pattern with value 0), which leaves the other nodes' block
+        // equal to the grounded Laplacian and decoupled from the references.
         for (i, &d) in graph.degrees().iter().enumerate() {
+            let d = if graph.is_reference(i) { 1.0 } else { d };
             triplets.push(Triplet::new(i, i, d));
         }
         for e in graph.edges() {
-            triplets.push(Triplet::new(e.a.max(e.b), e.a.min(e.b), -e.weight));
+            let w = if graph.is_reference(e.a) || graph.is_reference(e.b) {
+                0.0
+            } else {
+                -e.weight
+            };
+            triplets.push(Triplet::new(e.a.max(e.b), e.a.min(e.b), w));
         }
         let matrix = SparseColMat::<usize, f64>::try_new_from_triplets(n, n, &triplets)
             .map_err(|_| GraphError::Factorization)?;
@@ -162,6 +185,8 @@ impl Pattern {
             symbolic,
             matrix,
             diagonal,
+            pinned: graph.is_pinned(),
+            reference: (0..n).map(|i| graph.is_reference(i)).collect(),
         })
     }
 
@@ -173,21 +198,33 @@ impl Pattern {
         }
     }
 
-    /// Factorise `σI − L`.
+    /// Factorise `σI − L` (on a pinned graph `σI − L_g` with the references' identity
+    /// rows kept, so that they cannot spoil the factorisation whatever `σ`).
     fn shifted(&self, shift: f64) -> Result<ShiftOutcome, GraphError> {
         let mut m = self.matrix.clone();
         let values = m.val_mut();
         values.iter_mut().for_each(|v| *v = -*v);
-        for &k in &self.diagonal {
-            values[k] += shift;
+        for (i, &k) in self.diagonal.iter().enumerate() {
+            values[k] = if self.reference.get(i).copied().unwrap_or(false) {
+                1.0
+            } else {
+                values[k] + shift
+            };
         }
         self.factor(&m)
     }
 
     /// Factorise `L` with node 0 grounded: its row and column replaced by the identity's,
-    /// so a right-hand side with a zero first entry solves the grounded Laplacian.
+    /// so a right-hand side with a zero first entry solves the grounded Laplacian. On a
+    /// pinned graph the matrix is already grounded at the references.
     fn grounded(&self) -> Result<Llt<usize, f64>, GraphError> {
         let mut m = self.matrix.clone();
+        if self.pinned {
+            return match self.factor(&m)? {
+                ShiftOutcome::Factor(llt) => Ok(llt),
+                ShiftOutcome::Indefinite => Err(GraphError::Factorization),
+            };
+        }
         let end = m.col_ptr()[1];
         let first = self.diagonal[0];
         let values = m.val_mut();
@@ -217,7 +254,7 @@ impl<'g> Grounded<'g> {
     fn with_pattern(graph: &'g Graph, pattern: &Pattern) -> Result<Self, GraphError> {
         graph.require_connected()?;
         let n = graph.node_count();
-        if n < 2 {
+        if n < 2 && !graph.is_pinned() {
             return Err(GraphError::TooSmall { nodes: n, min: 2 });
         }
         Ok(Self {
@@ -226,22 +263,31 @@ impl<'g> Grounded<'g> {
         })
     }
 
-    /// `y = L_g⁻¹·x[1..]` with `y[0] = 0` (one solve, no refinement).
+    /// `y = L_g⁻¹·x[1..]` with `y[0] = 0` (one solve, no refinement); on a pinned graph
+    /// the grounded Laplacian's inverse with 0 at the references.
     fn solve(&self, x: &[f64], y: &mut [f64]) {
-        let mut rhs = Mat::<f64>::from_fn(x.len(), 1, |i, _| if i == 0 { 0.0 } else { x[i] });
+        let pinned = self.graph.is_pinned();
+        let ground = |i: usize| {
+            if pinned {
+                self.graph.is_reference(i)
+            } else {
+                i == 0
+            }
+        };
+        let mut rhs = Mat::<f64>::from_fn(x.len(), 1, |i, _| if ground(i) { 0.0 } else { x[i] });
         self.llt.solve_in_place(rhs.as_mut());
-        for (out, v) in y.iter_mut().zip(rhs.col_as_slice(0)) {
-            *out = *v;
+        for (i, (out, v)) in y.iter_mut().zip(rhs.col_as_slice(0)).enumerate() {
+            *out = if ground(i) { 0.0 } else { *v };
         }
-        y[0] = 0.0;
     }
 
-    /// `y = L†·x` for `x` with zero sum (the mean of `x` is ignored): one solve.
+    /// `y = L†·x` for `x` with zero sum (the mean of `x` is ignored): one solve. On a
+    /// pinned graph `y = L_g⁻¹·x` (reference entries ignored, and 0 in `y`).
     pub(crate) fn apply(&self, x: &[f64], y: &mut [f64]) {
         let mut centred = x.to_vec();
-        subtract_mean(&mut centred);
+        self.graph.remove_null(&mut centred);
         self.solve(&centred, y);
-        subtract_mean(y);
+        self.graph.remove_null(y);
     }
 
     /// `L†·x` with one step of iterative refinement, the residual formed from edge
@@ -250,7 +296,7 @@ impl<'g> Grounded<'g> {
     fn apply_refined(&self, x: &[f64], y: &mut [f64]) {
         let n = self.graph.node_count();
         let mut b = x.to_vec();
-        subtract_mean(&mut b);
+        self.graph.remove_null(&mut b);
         self.solve(&b, y);
         let mut ly = vec![0.0; n];
         self.graph
@@ -260,7 +306,7 @@ impl<'g> Grounded<'g> {
         let mut correction = vec![0.0; n];
         self.solve(&residual, &mut correction);
         axpy(1.0, &correction, y);
-        subtract_mean(y);
+        self.graph.remove_null(y);
     }
 }
 
@@ -270,11 +316,6 @@ fn shifted_solve(llt: &Llt<usize, f64>, x: &[f64], y: &mut [f64]) {
     for (out, v) in y.iter_mut().zip(rhs.col_as_slice(0)) {
         *out = *v;
     }
-}
-
-fn subtract_mean(v: &mut [f64]) {
-    let mean = v.iter().sum::<f64>() / v.len().max(1) as f64;
-    v.iter_mut().for_each(|x| *x -= mean);
 }
 
 fn dot(a: &[f64], b: &[f64]) -> f64 {
@@ -485,7 +526,7 @@ fn smallest_one(
 ) -> Result<Smallest, GraphError> {
     let n = graph.node_count();
     let project = |v: &mut [f64]| {
-        subtract_mean(v);
+        graph.remove_null(v);
         for u in locked {
             let c = dot(u, v);
             axpy(-c, u, v);
@@ -577,7 +618,13 @@ fn largest(
     // A shorter basis per round: the shift moves toward λmax between rounds, which
     // separates the top of the spectrum better than more steps at one shift.
     let steps = options.max_basis.min(LARGEST_BASIS).clamp(2, n);
-    let identity = |_: &mut [f64]| {};
+    // On a pinned graph the references' identity rows put eigenvalue 1 into the shifted
+    // inverse: project them out. A free graph needs no projection.
+    let project = |v: &mut [f64]| {
+        if graph.is_pinned() {
+            graph.remove_null(v);
+        }
+    };
     for round in 0..=options.max_restarts {
         if hi - lo <= tolerance * lo {
             return Ok((lo, hi, applications, factorizations));
@@ -593,7 +640,7 @@ fn largest(
                 && (r.residual <= 0.5 * tolerance.sqrt() * r.theta
                     || r.estimate() <= 1e-12 * r.theta)
         };
-        let Some(run) = lanczos(start, steps, &mut apply, &identity, &mut stop) else {
+        let Some(run) = lanczos(start, steps, &mut apply, &project, &mut stop) else {
             break;
         };
         applications += run.applications;
@@ -689,13 +736,19 @@ impl Graph {
             return Err(GraphError::NotFinite { name: "tolerance" });
         }
         let n = self.node_count();
-        if n < 3 {
+        if n < 3 && !self.is_pinned() {
             return Err(GraphError::TooSmall { nodes: n, min: 3 });
         }
+        // The space the spectrum lives on: orthogonal to 1, or the adjusting nodes.
+        let dimension = if self.is_pinned() {
+            self.free_count()
+        } else {
+            n - 1
+        };
         observe(SparseStage::Factorising);
         let pattern = Pattern::new(self)?;
         let grounded = Grounded::with_pattern(self, &pattern)?;
-        let wanted = options.smallest.clamp(1, n - 1);
+        let wanted = options.smallest.clamp(1, dimension);
         let mut locked: Vec<Vec<f64>> = Vec::with_capacity(wanted);
         let mut smallest = Vec::with_capacity(wanted);
         let mut bounds = Vec::with_capacity(wanted);

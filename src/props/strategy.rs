@@ -149,6 +149,8 @@ pub fn connected_edges(
                 path: Path::new("generated.toml").to_path_buf(),
                 nodes: n,
                 edges,
+                weights: Vec::new(),
+                references: Vec::new(),
             }
         })
         .boxed()
@@ -452,10 +454,18 @@ impl Deployments {
             .prop_map(move |(layout, crystals, loss, latency, spread, outages)| {
                 let mut s = base.clone();
                 let layout = match layout {
-                    Layout::EdgeList { nodes, edges, .. } => Layout::EdgeList {
+                    Layout::EdgeList {
+                        nodes,
+                        edges,
+                        weights,
+                        references,
+                        ..
+                    } => Layout::EdgeList {
                         path: s.path.clone(),
                         nodes,
                         edges,
+                        weights,
+                        references,
                     },
                     other => other,
                 };

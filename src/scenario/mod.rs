@@ -215,6 +215,38 @@ struct RawReboot {
     down_s: S<Real>,
 }
 
+/// An inline edge: `[a, b]`, or `[a, b, weight]`.
+enum RawEdge {
+    Plain(i64, i64),
+    Weighted(i64, i64, Real),
+}
+
+impl<'de> Deserialize<'de> for RawEdge {
+    fn deserialize<D: Deserializer<'de>>(deserializer: D) -> Result<Self, D::Error> {
+        struct EdgeVisitor;
+        impl<'de> Visitor<'de> for EdgeVisitor {
+            type Value = RawEdge;
+            fn expecting(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+                f.write_str("an edge [a, b] or [a, b, weight] with whole node numbers")
+            }
+            fn visit_seq<A: de::SeqAccess<'de>>(self, mut seq: A) -> Result<RawEdge, A::Error> {
+                let shape = || de::Error::custom("an edge is [a, b] or [a, b, weight]");
+                let a: i64 = seq.next_element()?.ok_or_else(shape)?;
+                let b: i64 = seq.next_element()?.ok_or_else(shape)?;
+                let edge = match seq.next_element::<Real>()? {
+                    None => RawEdge::Plain(a, b),
+                    Some(w) => RawEdge::Weighted(a, b, w),
+                };
+                if seq.next_element::<de::IgnoredAny>()?.is_some() {
+                    return Err(shape());
+                }
+                Ok(edge)
+            }
+        }
+        deserializer.deserialize_seq(EdgeVisitor)
+    }
+}
+
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
 struct RawNetwork {
@@ -223,7 +255,8 @@ struct RawNetwork {
     rows: Option<S<i64>>,
     cols: Option<S<i64>>,
     edge_list_file: Option<S<String>>,
-    edges: Option<S<Vec<(i64, i64)>>>,
+    edges: Option<S<Vec<RawEdge>>>,
+    reference_nodes: Option<S<Vec<i64>>>,
 }
 
 #[derive(Deserialize)]
@@ -365,7 +398,7 @@ struct RawMonteCarlo {
 }
 
 /// The coupling graph a scenario describes: which node beacons to which.
-#[derive(Clone, Debug, PartialEq, Eq)]
+#[derive(Clone, Debug, PartialEq)]
 pub enum Layout {
     /// One of the planner's closed-form topologies (node numbering as documented there).
     Topology(Topology),
@@ -379,11 +412,18 @@ pub enum Layout {
         nodes: usize,
         /// Undirected edges `(a, b)`, `a ≠ b`, each listed once.
         edges: Vec<(usize, usize)>,
+        /// Coupling weight of each edge (the edge-list file's third column, from
+        /// [`WEIGHT_MIN`] to [`WEIGHT_MAX`]); empty when every edge weighs 1.
+        weights: Vec<f64>,
+        /// Reference nodes (`[network] reference_nodes`), ascending: they beacon the
+        /// reference phase at the nominal rate and never adjust. Empty: a free network.
+        references: Vec<usize>,
     },
 }
 
 impl Layout {
-    /// Number of nodes that adjust their phase (a pinned chain's reference not counted).
+    /// Number of nodes the scenario numbers (`0..node_count`): a pinned chain's reference
+    /// is not counted, an edge list's reference nodes are.
     #[must_use]
     pub fn node_count(&self) -> usize {
         match self {
@@ -422,14 +462,30 @@ impl Layout {
                     format!("chain of {nodes} nodes pinned to a reference at node 0")
                 }
             },
-            Layout::EdgeList { path, nodes, edges } => format!(
-                "{nodes} nodes, {} edges from {}",
-                edges.len(),
-                path.file_name().map_or_else(
+            Layout::EdgeList {
+                path,
+                nodes,
+                edges,
+                references,
+                ..
+            } => {
+                let file = path.file_name().map_or_else(
                     || path.display().to_string(),
-                    |n| n.to_string_lossy().into_owned()
-                )
-            ),
+                    |n| n.to_string_lossy().into_owned(),
+                );
+                let pinned = match references.as_slice() {
+                    [] => String::new(),
+                    [one] => format!(", reference at node {one}"),
+                    many => format!(
+                        ", references at nodes {}",
+                        many.iter()
+                            .map(ToString::to_string)
+                            .collect::<Vec<_>>()
+                            .join(", ")
+                    ),
+                };
+                format!("{nodes} nodes, {} edges from {file}{pinned}", edges.len())
+            }
         }
     }
 }
@@ -1199,6 +1255,17 @@ fn check_reboots(
         .map(|r| {
             let r = r.get_ref();
             let node = int_in(loc, &r.node, "reboot.node", 0, nodes - 1, "")? as usize;
+            if let Layout::EdgeList { references, .. } = layout {
+                if references.contains(&node) {
+                    return Err(refuse(
+                        loc,
+                        r.node.span(),
+                        format!(
+                            "reboot.node = {node} is a reference node: a reference holds the reference phase and never reboots here"
+                        ),
+                    ));
+                }
+            }
             let within = |v: f64| v * update_rate_hz <= MAX_SIM_UPDATES;
             let at_s = real_in(
                 loc,
@@ -1318,7 +1385,20 @@ fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Layout, Scena
     let side = max;
     if topology != "edge_list" {
         refuse_extra(loc, n.edges.as_ref(), "edges", topology)?;
+        refuse_extra(loc, n.reference_nodes.as_ref(), "reference_nodes", topology)?;
     }
+    let references = |nodes: usize| -> Result<Vec<usize>, ScenarioError> {
+        match &n.reference_nodes {
+            None => Ok(Vec::new()),
+            Some(list) => check_references(list.get_ref(), nodes).map_err(|message| {
+                refuse(
+                    loc,
+                    list.span(),
+                    format!("network.reference_nodes: {message}"),
+                )
+            }),
+        }
+    };
     let linear = |kind: &str, min: i64, max: i64| -> Result<usize, ScenarioError> {
         refuse_extra(loc, n.rows.as_ref(), "rows", topology)?;
         refuse_extra(loc, n.cols.as_ref(), "cols", topology)?;
@@ -1388,7 +1468,7 @@ fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Layout, Scena
                     "edge_list_file",
                     "edge_list with inline edges",
                 )?;
-                let (count, edges) =
+                let (count, edges, weights) =
                     check_inline_edges(inline.get_ref(), nodes).map_err(|message| {
                         refuse(loc, inline.span(), format!("network.edges: {message}"))
                     })?;
@@ -1396,6 +1476,8 @@ fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Layout, Scena
                     path: loc.file.to_path_buf(),
                     nodes: count,
                     edges,
+                    weights,
+                    references: references(count)?,
                 });
             }
             let Some(file) = &n.edge_list_file else {
@@ -1408,7 +1490,7 @@ fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Layout, Scena
             };
             let base = loc.file.parent().unwrap_or_else(|| Path::new(""));
             let path = base.join(file.get_ref());
-            let (count, edges) = read_edge_list(&path, nodes).map_err(|mut e| {
+            let file_edges = read_weighted_edge_list(&path, nodes).map_err(|mut e| {
                 if e.line.is_none() {
                     // Point at the key when the file itself is the problem.
                     let at = loc.at(Some(file.span()), String::new());
@@ -1421,8 +1503,10 @@ fn check_network(loc: &Locator<'_>, net: &S<RawNetwork>) -> Result<Layout, Scena
             })?;
             Layout::EdgeList {
                 path,
-                nodes: count,
-                edges,
+                nodes: file_edges.nodes,
+                edges: file_edges.edges,
+                weights: file_edges.weights,
+                references: references(file_edges.nodes)?,
             }
         }
         other => {
@@ -1503,20 +1587,61 @@ pub(crate) fn open_regular(
     Ok(file)
 }
 
+/// Check `[network] reference_nodes` against a graph of `nodes` nodes: each a node
+/// number, none twice, and at least one node left to adjust. Ascending on return.
+fn check_references(list: &[i64], nodes: usize) -> Result<Vec<usize>, String> {
+    let mut out = Vec::with_capacity(list.len());
+    for &r in list {
+        let Some(node) = usize::try_from(r).ok().filter(|&v| v < nodes) else {
+            return Err(format!(
+                "node {r} is out of range: node numbers are from 0 to {}",
+                nodes - 1
+            ));
+        };
+        if out.contains(&node) {
+            return Err(format!("node {node} is listed twice"));
+        }
+        out.push(node);
+    }
+    if out.len() >= nodes {
+        return Err(format!(
+            "all {nodes} nodes are references: at least one node must adjust its phase"
+        ));
+    }
+    out.sort_unstable();
+    Ok(out)
+}
+
+/// Inline edges as checked: node count, edges, weights (empty when none is given).
+type InlineEdges = (usize, Vec<(usize, usize)>, Vec<f64>);
+
 /// Check inline edges (`[network] edges`): node numbers from 0, no self-loop, no edge
 /// twice, at most [`crate::MAX_NEIGHBOURS`] neighbours per node, the node count `nodes` when
-/// given, else one more than the largest number.
-fn check_inline_edges(
-    pairs: &[(i64, i64)],
-    nodes: Option<usize>,
-) -> Result<(usize, Vec<(usize, usize)>), String> {
+/// given, else one more than the largest number; an optional third entry, the weight,
+/// from [`WEIGHT_MIN`] to [`WEIGHT_MAX`] (1 when left out).
+fn check_inline_edges(pairs: &[RawEdge], nodes: Option<usize>) -> Result<InlineEdges, String> {
     if pairs.is_empty() {
         return Err("no edges".to_owned());
     }
     let limit = nodes.unwrap_or(MAX_SCENARIO_NODES);
     let mut seen = std::collections::BTreeSet::new();
     let mut edges = Vec::with_capacity(pairs.len());
-    for &(a, b) in pairs {
+    let mut weights = Vec::with_capacity(pairs.len());
+    let mut weighted = false;
+    for pair in pairs {
+        let (a, b, weight) = match *pair {
+            RawEdge::Plain(a, b) => (a, b, 1.0),
+            RawEdge::Weighted(a, b, Real(w)) => {
+                weighted = true;
+                if !(w.is_finite() && (WEIGHT_MIN..=WEIGHT_MAX).contains(&w)) {
+                    return Err(format!(
+                        "edge [{a}, {b}, {w}] has weight {w}: a weight is a number from {WEIGHT_MIN} to {WEIGHT_MAX}"
+                    ));
+                }
+                (a, b, w)
+            }
+        };
+        weights.push(weight);
         let ok = |v: i64| usize::try_from(v).ok().filter(|&v| v < limit);
         let (Some(a), Some(b)) = (ok(a), ok(b)) else {
             return Err(format!(
@@ -1552,7 +1677,10 @@ fn check_inline_edges(
             }
         }
     }
-    Ok((count, edges))
+    if !weighted {
+        weights.clear();
+    }
+    Ok((count, edges, weights))
 }
 
 /// Read an edge-list file: one undirected edge `a b` per line (0-based node numbers,
@@ -1567,6 +1695,37 @@ pub fn read_edge_list(
     path: &Path,
     nodes: Option<usize>,
 ) -> Result<(usize, Vec<(usize, usize)>), ScenarioError> {
+    read_weighted_edge_list(path, nodes).map(|e| (e.nodes, e.edges))
+}
+
+/// Smallest coupling weight an edge-list line may give (`[WEIGHT_MIN, WEIGHT_MAX]`).
+pub const WEIGHT_MIN: f64 = 0.01;
+
+/// Largest coupling weight an edge-list line may give.
+pub const WEIGHT_MAX: f64 = 100.0;
+
+/// An edge-list file as read by [`read_weighted_edge_list`].
+#[derive(Clone, Debug, PartialEq)]
+pub struct EdgeListFile {
+    /// Number of nodes.
+    pub nodes: usize,
+    /// The edges, in file order.
+    pub edges: Vec<(usize, usize)>,
+    /// One coupling weight per edge when any line gives a third column (lines without
+    /// one weigh 1); empty when none does.
+    pub weights: Vec<f64>,
+}
+
+/// As [`read_edge_list`], with an optional third column on each line: the edge's
+/// coupling weight relative to a plain link, a number from [`WEIGHT_MIN`] to
+/// [`WEIGHT_MAX`] (a line without it weighs 1).
+///
+/// # Errors
+/// As [`read_edge_list`]; also a weight that is not a number or out of range.
+pub fn read_weighted_edge_list(
+    path: &Path,
+    nodes: Option<usize>,
+) -> Result<EdgeListFile, ScenarioError> {
     let file = open_regular(path, MAX_EDGE_LIST_BYTES, "edge-list file")?;
     // Read as a stream, a line at a time, never more than the cap.
     let reader = BufReader::new(file.take(MAX_EDGE_LIST_BYTES + 1));
@@ -1578,6 +1737,8 @@ pub fn read_edge_list(
         message,
     };
     let mut edges = Vec::new();
+    let mut weights = Vec::new();
+    let mut weighted = false;
     let mut seen = std::collections::BTreeSet::new();
     let mut largest = 0usize;
     for (index, raw_line) in reader.lines().enumerate() {
@@ -1614,19 +1775,39 @@ pub fn read_edge_list(
             continue;
         }
         let column_of = |byte: usize| body.get(..byte).map_or(1, |s| s.chars().count() + 1);
-        if fields.len() != 2 {
-            let col = fields.get(2).map_or(1, |f| column_of(f.0));
+        if !(2..=3).contains(&fields.len()) {
+            let col = fields
+                .get(3)
+                .or(fields.get(2))
+                .map_or(1, |f| column_of(f.0));
             return Err(here(
                 line_no,
                 col,
                 format!(
-                    "an edge line holds exactly two node numbers, found {} fields",
+                    "an edge line holds two node numbers and an optional weight, found {} fields",
                     fields.len()
                 ),
             ));
         }
+        let weight = match fields.get(2) {
+            None => 1.0,
+            Some(&(at, field)) => match field.parse::<f64>() {
+                Ok(w) if w.is_finite() && (WEIGHT_MIN..=WEIGHT_MAX).contains(&w) => w,
+                _ => {
+                    return Err(here(
+                        line_no,
+                        column_of(at),
+                        format!(
+                            "\"{field}\" is not a coupling weight: a weight is a number from {WEIGHT_MIN} to {WEIGHT_MAX}"
+                        ),
+                    ));
+                }
+            },
+        };
+        weighted |= fields.len() == 3;
+        weights.push(weight);
         let mut ends = [0usize; 2];
-        for (slot, (at, field)) in ends.iter_mut().zip(&fields) {
+        for (slot, (at, field)) in ends.iter_mut().zip(fields.iter().take(2)) {
             *slot = field.parse::<usize>().map_err(|_| {
                 here(
                     line_no,
@@ -1692,7 +1873,14 @@ pub fn read_edge_list(
             }
         }
     }
-    Ok((count, edges))
+    if !weighted {
+        weights.clear();
+    }
+    Ok(EdgeListFile {
+        nodes: count,
+        edges,
+        weights,
+    })
 }
 
 #[cfg(test)]

@@ -66,10 +66,27 @@ impl Scenario {
             Layout::Topology(Topology::Grid { rows, cols } | Topology::Torus { rows, cols }) => {
                 let _ = writeln!(s, "rows = {rows}\ncols = {cols}");
             }
-            Layout::EdgeList { nodes, edges, .. } => {
+            Layout::EdgeList {
+                nodes,
+                edges,
+                weights,
+                references,
+                ..
+            } => {
                 let _ = writeln!(s, "nodes = {nodes}");
-                let list: Vec<String> = edges.iter().map(|(a, b)| format!("[{a}, {b}]")).collect();
+                let list: Vec<String> = edges
+                    .iter()
+                    .enumerate()
+                    .map(|(k, (a, b))| match weights.get(k) {
+                        Some(&w) => format!("[{a}, {b}, {}]", real(w)),
+                        None => format!("[{a}, {b}]"),
+                    })
+                    .collect();
                 let _ = writeln!(s, "edges = [{}]", list.join(", "));
+                if !references.is_empty() {
+                    let list: Vec<String> = references.iter().map(ToString::to_string).collect();
+                    let _ = writeln!(s, "reference_nodes = [{}]", list.join(", "));
+                }
             }
         }
         let _ = writeln!(s, "\n[timing]");

@@ -39,7 +39,9 @@ use super::settle::{
 use super::setup::{Crystals, Setup, Stamping, StartPhases};
 use super::telemetry::Recorder;
 use super::trace::Trace;
-use crate::{Config, Node, NodeId, Observation, ObserveError, Phase, Timing, UpdateReport};
+use crate::{
+    Config, Node, NodeId, Observation, ObserveError, Phase, Timing, UpdateReport, WEIGHT_ONE,
+};
 
 /// Sub-ticks per nominal tick.
 const SUB: u64 = 1 << 16;
@@ -57,6 +59,8 @@ struct Beacon {
     delay_ticks: u32,
     /// Two-way timing (version-2 beacons).
     timing: Option<Timing>,
+    /// The link's coupling weight, Q16.16.
+    weight_q16: u32,
 }
 
 /// One node's timer: real time ↔ local ticks.
@@ -120,7 +124,7 @@ struct Station<const N: usize> {
     next_local: u64,
     ppm: f64,
     alive: bool,
-    /// A pinned chain's reference: beacons, never takes observations or updates.
+    /// A reference node: beacons, never takes observations or updates.
     reference: bool,
     /// Which neighbour (index into its target list) the next beacon echoes.
     echo_next: usize,
@@ -143,6 +147,9 @@ pub struct Network<const N: usize> {
     stations: Vec<Station<N>>,
     row_start: Vec<usize>,
     targets: Vec<u16>,
+    /// Per slot (as `targets`): the link's coupling weight, Q16.16 (links are
+    /// undirected, so a sender slot and a receiver slot of one link agree).
+    slot_weight: Vec<u32>,
     pairs: Vec<(usize, usize)>,
     ring: bool,
     inbox: Vec<Vec<Beacon>>,
@@ -230,7 +237,7 @@ impl<const N: usize> Network<N> {
         let n = scenario.nodes();
         let config = scenario.config;
         let update_ticks = u64::from(config.update_ticks());
-        let reference = scenario.links.reference();
+        let links = &scenario.links;
         let mut ppm: Vec<f64> = match &scenario.crystals {
             Crystals::Identical { ppm } => vec![*ppm; n],
             Crystals::Uniform { tolerance_ppm } => (0..n)
@@ -239,15 +246,24 @@ impl<const N: usize> Network<N> {
             Crystals::Fixed(v) => v.clone(),
         };
         // The reference is a disciplined clock: nominal rate.
-        if let Some(e) = reference.and_then(|r| ppm.get_mut(r)) {
-            *e = 0.0;
+        for &r in links.references() {
+            if let Some(e) = ppm.get_mut(r) {
+                *e = 0.0;
+            }
         }
-        let start: Vec<Phase> = match &scenario.start {
+        let mut start: Vec<Phase> = match &scenario.start {
             StartPhases::Uniform { spread_turns } => (0..n)
                 .map(|_| phase_from_turns((rng.random::<f64>() - 0.5) * spread_turns))
                 .collect(),
             StartPhases::Fixed(v) => v.iter().map(|&t| phase_from_turns(t)).collect(),
         };
+        // Every reference holds the reference phase, the ideal clock's (started at 0);
+        // the draws above are kept so the other nodes' start phases do not move.
+        for &r in links.references() {
+            if let Some(p) = start.get_mut(r) {
+                *p = Phase::ZERO;
+            }
+        }
         let mut stations = Vec::with_capacity(n);
         for (i, (&e, &phase)) in ppm.iter().zip(&start).enumerate() {
             let l0 = u64::from(rng.random::<u32>());
@@ -262,7 +278,7 @@ impl<const N: usize> Network<N> {
                 next_local: l0 + offset,
                 ppm: e,
                 alive: true,
-                reference: reference == Some(i),
+                reference: links.is_reference(i),
                 echo_next: 0,
             });
         }
@@ -308,11 +324,21 @@ impl<const N: usize> Network<N> {
             && b.stamping == Stamping::Nearest
             && scenario.reboots.is_empty();
         let slots = targets.len();
+        let slot_weight: Vec<u32> = (0..n)
+            .flat_map(|i| {
+                let (lo, hi) = (row_start[i], row_start[i + 1]);
+                let links = &scenario.links;
+                targets[lo..hi]
+                    .iter()
+                    .map(move |&j| links.weight_q16(i, usize::from(j)))
+            })
+            .collect();
         Ok(Network {
             config,
             stations,
             row_start,
             targets,
+            slot_weight,
             pairs: scenario.links.pairs().to_vec(),
             ring: scenario.links.is_ring(),
             inbox: vec![Vec::with_capacity(2 * N.min(8)); n],
@@ -584,7 +610,9 @@ impl<const N: usize> Network<N> {
                 // (only with a timeout shorter than the update interval) is refused
                 // as from the future; the node's next update would have emptied its
                 // table anyway. Only a full table is counted.
-                if let Err(ObserveError::TableFull(_)) = node.observe_timed(obs, b.timing) {
+                if let Err(ObserveError::TableFull(_)) =
+                    node.observe_weighted(obs, b.timing, b.weight_q16)
+                {
                     full += 1;
                 }
                 false
@@ -677,6 +705,7 @@ impl<const N: usize> Network<N> {
                     rx_ticks,
                     delay_ticks: self.told_ticks[slot],
                     timing,
+                    weight_q16: self.slot_weight[slot],
                 });
             }
         }
@@ -714,7 +743,10 @@ impl<const N: usize> Network<N> {
                         delay_ticks: latency,
                     };
                     // As above: only a full table is counted.
-                    if let Err(ObserveError::TableFull(_)) = st.node.observe(obs) {
+                    let weight = self.slot_weight.get(s).copied().unwrap_or(WEIGHT_ONE);
+                    if let Err(ObserveError::TableFull(_)) =
+                        st.node.observe_weighted(obs, None, weight)
+                    {
                         self.stats.table_full += 1;
                     }
                 }

@@ -27,7 +27,6 @@ pub struct Links {
     graph: Graph,
     topology: Option<Topology>,
     pairs: Vec<(usize, usize)>,
-    reference: Option<usize>,
 }
 
 impl Links {
@@ -40,24 +39,25 @@ impl Links {
     /// [`MAX_SIM_NODES`]; [`SimError::DegreeTooHigh`] above [`MAX_DEGREE`] neighbours.
     pub fn from_topology(topology: &Topology) -> Result<Links, SimError> {
         let graph = Graph::from_topology(topology).map_err(SimError::Graph)?;
-        let reference = topology.is_pinned().then(|| topology.node_count());
-        Links::build(graph, Some(*topology), reference)
+        Links::build(graph, Some(*topology))
     }
 
-    /// The links of an arbitrary graph. The node law weights every neighbour alike, so
-    /// every edge weight must be 1.
+    /// The links of an arbitrary graph; its reference nodes ([`Graph::references`])
+    /// beacon at the nominal rate and never adjust. An edge's weight reaches the node law
+    /// as a Q16.16 neighbour weight ([`Node::observe_weighted`](crate::Node::observe_weighted)),
+    /// rounded to the nearest 2^-16.
     ///
     /// # Errors
-    /// [`SimError::InvalidParameter`] for an edge weight other than 1;
-    /// [`SimError::TooManyNodes`]; [`SimError::DegreeTooHigh`].
+    /// [`SimError::InvalidParameter`] for an edge weight outside `[2^-16, 65535]` (no
+    /// Q16.16 weight holds it); [`SimError::TooManyNodes`]; [`SimError::DegreeTooHigh`].
     pub fn from_graph(graph: &Graph) -> Result<Links, SimError> {
-        if graph.edges().iter().any(|e| e.weight != 1.0) {
+        if graph.edges().iter().any(|e| to_q16(e.weight).is_none()) {
             return Err(SimError::InvalidParameter {
                 name: "edge weight",
-                valid: "1 (the node law weights every neighbour alike)",
+                valid: "from 2^-16 to 65535 (a Q16.16 neighbour weight)",
             });
         }
-        Links::build(graph.clone(), None, None)
+        Links::build(graph.clone(), None)
     }
 
     /// The links of `nodes` nodes joined by `pairs` (each pair once).
@@ -67,7 +67,7 @@ impl Links {
     /// [`SimError::TooManyNodes`]; [`SimError::DegreeTooHigh`].
     pub fn from_pairs(nodes: usize, pairs: &[(usize, usize)]) -> Result<Links, SimError> {
         let graph = Graph::from_edges(nodes, pairs).map_err(SimError::Graph)?;
-        Links::build(graph, None, None)
+        Links::build(graph, None)
     }
 
     /// An open chain of `nodes ≥ 2` (the checker's [`Topology::Chain`]).
@@ -87,11 +87,7 @@ impl Links {
         Links::from_topology(&Topology::Ring { nodes })
     }
 
-    fn build(
-        graph: Graph,
-        topology: Option<Topology>,
-        reference: Option<usize>,
-    ) -> Result<Links, SimError> {
+    fn build(graph: Graph, topology: Option<Topology>) -> Result<Links, SimError> {
         let nodes = graph.node_count();
         if nodes > MAX_SIM_NODES {
             return Err(SimError::TooManyNodes {
@@ -119,7 +115,6 @@ impl Links {
             graph,
             topology,
             pairs,
-            reference,
         })
     }
 
@@ -147,10 +142,29 @@ impl Links {
         self.topology
     }
 
-    /// The reference node of a pinned chain (beacons, never adjusts).
+    /// The reference nodes, ascending (a pinned chain's is its last node): they beacon
+    /// the reference phase at the nominal rate and never adjust.
     #[must_use]
-    pub fn reference(&self) -> Option<usize> {
-        self.reference
+    pub fn references(&self) -> &[usize] {
+        self.graph.references()
+    }
+
+    /// Whether `node` is a reference node.
+    #[must_use]
+    pub fn is_reference(&self, node: usize) -> bool {
+        self.graph.is_reference(node)
+    }
+
+    /// The coupling weight of the link between `a` and `b` as the node law applies it,
+    /// Q16.16 ([`crate::WEIGHT_ONE`] for a plain link, and for a pair that is no link).
+    #[must_use]
+    pub fn weight_q16(&self, a: usize, b: usize) -> u32 {
+        self.graph
+            .neighbours(a)
+            .iter()
+            .find(|&&(j, _)| j == b)
+            .and_then(|&(_, w)| to_q16(w))
+            .unwrap_or(crate::WEIGHT_ONE)
     }
 
     /// True for a ring (nodes in cyclic order), whose runs report a winding number.
@@ -189,6 +203,12 @@ impl Links {
         }
         (row_start, targets)
     }
+}
+
+/// A weight as a Q16.16 neighbour weight, nearest; `None` outside `[2^-16, 65535]`.
+fn to_q16(weight: f64) -> Option<u32> {
+    let q = (weight * 65_536.0).round();
+    (q >= 1.0 && q <= f64::from(u32::MAX)).then_some(q as u32)
 }
 
 /// The nodes' crystal errors, parts per million (positive: the timer runs fast). A node
@@ -531,7 +551,7 @@ mod tests {
         let torus = Links::from_topology(&Topology::Torus { rows: 3, cols: 4 }).unwrap();
         assert_eq!((torus.pairs().len(), torus.max_degree()), (24, 4));
         let pinned = Links::from_topology(&Topology::PinnedChain { nodes: 3 }).unwrap();
-        assert_eq!((pinned.nodes(), pinned.reference()), (4, Some(3)));
+        assert_eq!((pinned.nodes(), pinned.references()), (4, &[3][..]));
         assert!(Links::ring(5).unwrap().is_ring());
         assert!(!Links::chain(5).unwrap().is_ring());
     }
@@ -547,11 +567,21 @@ mod tests {
             Err(SimError::DegreeTooHigh { max: 255, .. })
         ));
         assert!(matches!(Links::ring(2), Err(SimError::Graph(_))));
-        let weighted = Graph::from_weighted_edges(2, &[(0, 1, 2.0)]).unwrap();
-        assert!(matches!(
-            Links::from_graph(&weighted),
-            Err(SimError::InvalidParameter { .. })
-        ));
+        // A weight no Q16.16 neighbour weight holds (below 2^-16, above 65535).
+        for w in [1e-6, 70_000.0] {
+            let weighted = Graph::from_weighted_edges(2, &[(0, 1, w)]).unwrap();
+            assert!(matches!(
+                Links::from_graph(&weighted),
+                Err(SimError::InvalidParameter { .. })
+            ));
+        }
+        // Weights the node law takes, rounded to the nearest 2^-16: 2 → 131,072,
+        // 0.01 → 655.36 → 655; a plain link and a non-link weigh one.
+        let weighted = Graph::from_weighted_edges(3, &[(0, 1, 2.0), (1, 2, 0.01)]).unwrap();
+        let links = Links::from_graph(&weighted).unwrap();
+        assert_eq!(links.weight_q16(1, 0), 131_072);
+        assert_eq!(links.weight_q16(2, 1), 655);
+        assert_eq!(links.weight_q16(0, 2), crate::WEIGHT_ONE);
     }
 
     #[test]

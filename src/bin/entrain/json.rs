@@ -59,6 +59,10 @@ fn scenario_json(s: &Scenario) -> Value {
         "nodes": s.layout.node_count(),
         "rows": rows,
         "cols": cols,
+        "reference_nodes": match &s.layout {
+            Layout::EdgeList { references, .. } => json!(references),
+            Layout::Topology(_) => Value::Null,
+        },
         "update_rate_hz": num(s.update_rate_hz),
         "phase_period_s": num(s.phase_period_s),
         "timer_hz": s.timer_hz,

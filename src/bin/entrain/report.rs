@@ -677,17 +677,21 @@ pub fn spectrum(sc: &Scenario, r: &NetworkModel) -> String {
         None => {
             heading(
                 &mut s,
-                "Smallest eigenvalues (ascending; sparse solver: 0, then λ2 to λ6, each within 1e-10 of its value)",
+                if sp.pinned {
+                    "Smallest eigenvalues (ascending; sparse solver: the grounded λ1 to λ6, each within 1e-10 of its value)"
+                } else {
+                    "Smallest eigenvalues (ascending; sparse solver: 0, then λ2 to λ6, each within 1e-10 of its value)"
+                },
             );
             &r.smallest_eigenvalues[..]
         }
     };
     let shown: Vec<String> = if ev.len() <= 24 {
-        ev.iter().map(|v| format!("{v:.6}")).collect()
+        ev.iter().map(|&v| eigenvalue_text(v)).collect()
     } else {
-        let mut v: Vec<String> = ev.iter().take(12).map(|v| format!("{v:.6}")).collect();
+        let mut v: Vec<String> = ev.iter().take(12).map(|&v| eigenvalue_text(v)).collect();
         v.push(format!("… ({} more) …", ev.len() - 24));
-        v.extend(ev.iter().skip(ev.len() - 12).map(|v| format!("{v:.6}")));
+        v.extend(ev.iter().skip(ev.len() - 12).map(|&v| eigenvalue_text(v)));
         v
     };
     for chunk in shown.chunks(6) {
@@ -707,6 +711,16 @@ pub fn spectrum(sc: &Scenario, r: &NetworkModel) -> String {
     }
     closing(&mut s);
     s
+}
+
+/// An eigenvalue for the spectrum report: six decimals, or scientific notation below
+/// 1e-3 in magnitude (where six decimals would hide it; 0 stays `0`).
+fn eigenvalue_text(v: f64) -> String {
+    if v != 0.0 && v.abs() < 1e-3 {
+        format!("{v:.5e}")
+    } else {
+        format!("{v:.6}")
+    }
 }
 
 /// A text bar centred on zero, 20 characters each way.

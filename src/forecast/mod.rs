@@ -420,7 +420,7 @@ fn slowest_period(s: &Setup) -> Option<f64> {
     let pos = |i: usize| keep.iter().position(|&k| k == i);
     let mut l = DMatrix::<f64>::zeros(keep.len(), keep.len());
     for &(a, b) in s.links.pairs() {
-        let w = f64::from(s.links.weight_q16(a, b)) / 65_536.0;
+        let w = s.links.weight(a, b);
         for (u, v) in [(a, b), (b, a)] {
             if let Some(pu) = pos(u) {
                 if let Some(x) = l.get_mut((pu, pu)) {

@@ -97,12 +97,10 @@ impl Replica {
                 }
             }
         }
-        let mut weight = vec![1.0; nbr.len()];
-        for i in 0..n {
-            for s_ in off[i]..off[i + 1] {
-                weight[s_] = f64::from(s.links.weight_q16(i, nbr[s_])) / 65_536.0;
-            }
-        }
+        let weight = (0..n)
+            .flat_map(|i| (off[i]..off[i + 1]).map(move |s_| (i, s_)))
+            .map(|(i, s_)| s.links.weight(i, nbr[s_]))
+            .collect();
         let c = &s.config;
         let r = 1.0 / f64::from(c.ticks_per_period());
         Replica {

@@ -167,6 +167,13 @@ impl Links {
             .unwrap_or(crate::WEIGHT_ONE)
     }
 
+    /// [`Links::weight_q16`] as a number (1 for a plain link): the weight exactly as the
+    /// node law applies it, for models of the law.
+    #[must_use]
+    pub fn weight(&self, a: usize, b: usize) -> f64 {
+        f64::from(self.weight_q16(a, b)) / f64::from(crate::WEIGHT_ONE)
+    }
+
     /// True for a ring (nodes in cyclic order), whose runs report a winding number.
     #[must_use]
     pub fn is_ring(&self) -> bool {

@@ -37,6 +37,14 @@
 //! the Ritz vector when the basis is full, and return
 //! [`GraphError::EigenvalueNotConverged`] rather than a number when the bound does not
 //! reach the tolerance.
+//!
+//! **Time and memory**: one symbolic analysis (fill-reducing ordering) serves every
+//! factorisation. On graphs of 20,000 nodes or more, and where the machine has a second
+//! hardware thread, λmax runs on a second thread while the calling thread finds the
+//! smallest eigenvalues; the work is the same as in turn, so every figure is identical.
+//! At most two factors are held at once (the grounded one and one shifted one): the λmax
+//! search drops its factor before trying a closer shift and rebuilds it only if no closer
+//! shift factorises.
 
 use faer::linalg::solvers::Solve;
 use faer::sparse::linalg::solvers::{Llt, SymbolicLlt};
@@ -612,7 +620,10 @@ fn largest(
             break;
         }
     }
-    let (mut hi, mut factor) = current.ok_or(GraphError::Factorization)?;
+    let (mut hi, first) = current.ok_or(GraphError::Factorization)?;
+    // The factor at `hi`; dropped before each trial shift so that two factors of a big
+    // graph are never held at once, and rebuilt at `hi` only if no trial factorised.
+    let mut factor = Some(first);
     let mut lo = 0.0_f64;
     let mut start = start_vector(n, options.seed.wrapping_add(0x5EED));
     // A shorter basis per round: the shift moves toward λmax between rounds, which
@@ -631,7 +642,18 @@ fn largest(
         }
         observe(SparseStage::Largest { round });
         let sigma = hi;
-        let mut apply = |x: &[f64], y: &mut [f64]| shifted_solve(&factor, x, y);
+        let at_hi = match factor.take() {
+            Some(f) => f,
+            None => {
+                factorizations += 1;
+                match shifted.shifted(hi)? {
+                    ShiftOutcome::Factor(f) => f,
+                    // `hi` factorised before: the same matrix cannot fail now.
+                    ShiftOutcome::Indefinite => return Err(GraphError::Factorization),
+                }
+            }
+        };
+        let mut apply = |x: &[f64], y: &mut [f64]| shifted_solve(&at_hi, x, y);
         // The Ritz vector's Rayleigh quotient on L is short of λmax by about
         // (r/θ)²·λmax (its weight off the top mode), so run until r/θ ≤ ½√tolerance, or
         // until the top Ritz pair has converged in the shifted operator's own terms.
@@ -640,7 +662,9 @@ fn largest(
                 && (r.residual <= 0.5 * tolerance.sqrt() * r.theta
                     || r.estimate() <= 1e-12 * r.theta)
         };
-        let Some(run) = lanczos(start, steps, &mut apply, &project, &mut stop) else {
+        let outcome = lanczos(start, steps, &mut apply, &project, &mut stop);
+        drop(at_hi);
+        let Some(run) = outcome else {
             break;
         };
         applications += run.applications;
@@ -671,7 +695,7 @@ fn largest(
             match shifted.shifted(trial)? {
                 ShiftOutcome::Factor(f) => {
                     hi = trial;
-                    factor = f;
+                    factor = Some(f);
                     break;
                 }
                 ShiftOutcome::Indefinite => {
@@ -697,6 +721,46 @@ fn largest(
         },
         tolerance,
     })
+}
+
+/// Graphs from this many nodes find λmax on a second thread (when the machine has one)
+/// while the calling thread finds the smallest eigenvalues. Below it a thread costs more
+/// than it saves.
+const CONCURRENT_MIN_NODES: usize = 20_000;
+
+/// The smallest eigenvalues in ascending order, their error bounds, the slowest mode and
+/// the operator applications, through the grounded factorisation (dropped on return).
+type SmallestFound = (Vec<f64>, Vec<f64>, Vec<f64>, usize);
+
+fn smallest_all(
+    graph: &Graph,
+    pattern: &Pattern,
+    options: &SparseOptions,
+    dimension: usize,
+    observe: &mut dyn FnMut(SparseStage),
+) -> Result<SmallestFound, GraphError> {
+    let grounded = Grounded::with_pattern(graph, pattern)?;
+    let wanted = options.smallest.clamp(1, dimension);
+    let mut locked: Vec<Vec<f64>> = Vec::with_capacity(wanted);
+    let mut smallest = Vec::with_capacity(wanted);
+    let mut bounds = Vec::with_capacity(wanted);
+    let mut applications = 0;
+    for index in 0..wanted {
+        observe(SparseStage::Smallest { index, of: wanted });
+        let found = smallest_one(graph, &grounded, &locked, options, index)?;
+        applications += found.applications;
+        smallest.push(found.value);
+        bounds.push(found.bound);
+        locked.push(found.vector);
+    }
+    // Found one at a time from the top of L†, so ascending up to the bounds; sort
+    // the values with their vectors so that rounding cannot misorder them.
+    let mut order: Vec<usize> = (0..wanted).collect();
+    order.sort_by(|&a, &b| smallest[a].total_cmp(&smallest[b]));
+    let slow_mode = normalise(locked.swap_remove(order[0]));
+    let smallest_sorted: Vec<f64> = order.iter().map(|&k| smallest[k]).collect();
+    let bounds_sorted: Vec<f64> = order.iter().map(|&k| bounds[k]).collect();
+    Ok((smallest_sorted, bounds_sorted, slow_mode, applications))
 }
 
 impl Graph {
@@ -747,29 +811,50 @@ impl Graph {
         };
         observe(SparseStage::Factorising);
         let pattern = Pattern::new(self)?;
-        let grounded = Grounded::with_pattern(self, &pattern)?;
-        let wanted = options.smallest.clamp(1, dimension);
-        let mut locked: Vec<Vec<f64>> = Vec::with_capacity(wanted);
-        let mut smallest = Vec::with_capacity(wanted);
-        let mut bounds = Vec::with_capacity(wanted);
-        let mut applications = 0;
-        for index in 0..wanted {
-            observe(SparseStage::Smallest { index, of: wanted });
-            let found = smallest_one(self, &grounded, &locked, options, index)?;
-            applications += found.applications;
-            smallest.push(found.value);
-            bounds.push(found.bound);
-            locked.push(found.vector);
-        }
-        // Found one at a time from the top of L†, so ascending up to the bounds; sort
-        // the values with their vectors so that rounding cannot misorder them.
-        let mut order: Vec<usize> = (0..wanted).collect();
-        order.sort_by(|&a, &b| smallest[a].total_cmp(&smallest[b]));
-        let slow_mode = normalise(locked.swap_remove(order[0]));
-        let smallest_sorted: Vec<f64> = order.iter().map(|&k| smallest[k]).collect();
-        let bounds_sorted: Vec<f64> = order.iter().map(|&k| bounds[k]).collect();
-        let (lo, hi, top_applications, shifted_factorizations) =
-            largest(self, &pattern, options, observe)?;
+        let concurrent = n >= CONCURRENT_MIN_NODES
+            && std::thread::available_parallelism().is_ok_and(|p| p.get() > 1);
+        self.sparse_spectrum_from(&pattern, options, dimension, concurrent, observe)
+    }
+
+    /// Both ends of the spectrum from the shared symbolic analysis, in turn or at once.
+    fn sparse_spectrum_from(
+        &self,
+        pattern: &Pattern,
+        options: &SparseOptions,
+        dimension: usize,
+        concurrent: bool,
+        observe: &mut dyn FnMut(SparseStage),
+    ) -> Result<SparseSpectrum, GraphError> {
+        let (small, top) = if concurrent {
+            // The two ends of the spectrum share nothing but the symbolic analysis: λmax
+            // runs on a second thread while this one finds the smallest eigenvalues. The
+            // work, and so every figure, is the same as in turn; its stages reach
+            // `observe` from this thread.
+            let (sender, stages) = std::sync::mpsc::channel();
+            std::thread::scope(|scope| {
+                let worker = scope.spawn(move || {
+                    largest(self, pattern, options, &mut |stage| {
+                        // The receiver outlives the worker (same scope).
+                        let _ = sender.send(stage);
+                    })
+                });
+                let mut forward = |stage| {
+                    stages.try_iter().for_each(&mut *observe);
+                    observe(stage);
+                };
+                let small = smallest_all(self, pattern, options, dimension, &mut forward);
+                let top = worker
+                    .join()
+                    .unwrap_or_else(|panic| std::panic::resume_unwind(panic));
+                stages.try_iter().for_each(&mut *observe);
+                (small, top)
+            })
+        } else {
+            let small = smallest_all(self, pattern, options, dimension, observe);
+            (small, largest(self, pattern, options, observe))
+        };
+        let (smallest_sorted, bounds_sorted, slow_mode, applications) = small?;
+        let (lo, hi, top_applications, shifted_factorizations) = top?;
         Ok(SparseSpectrum {
             lambda2: smallest_sorted[0],
             lambda2_error_bound: bounds_sorted[0],
@@ -782,5 +867,39 @@ impl Graph {
             operator_applications: applications + top_applications,
             factorizations: 1 + shifted_factorizations,
         })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::plan::Topology;
+
+    /// λmax on a second thread does the same work as in turn: every figure is identical,
+    /// bit for bit, and every stage still reaches the observer.
+    #[test]
+    fn concurrent_ends_equal_the_ends_in_turn() {
+        let g = Graph::from_topology(&Topology::Grid { rows: 7, cols: 30 }).unwrap();
+        let options = SparseOptions {
+            smallest: 3,
+            ..SparseOptions::default()
+        };
+        let pattern = Pattern::new(&g).unwrap();
+        let dimension = g.node_count() - 1;
+        let run = |concurrent| {
+            let mut stages = Vec::new();
+            let s = g
+                .sparse_spectrum_from(&pattern, &options, dimension, concurrent, &mut |st| {
+                    stages.push(format!("{st:?}"))
+                })
+                .unwrap();
+            stages.sort();
+            (s, stages)
+        };
+        let (alone, stages_alone) = run(false);
+        let (together, stages_together) = run(true);
+        assert_eq!(alone, together);
+        assert_eq!(stages_alone, stages_together);
+        assert!(stages_alone.iter().any(|s| s.starts_with("Largest")));
     }
 }

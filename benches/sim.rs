@@ -244,9 +244,9 @@ fn bare_f32(s: &Setup, adj: &[Vec<usize>], rounds: u64) -> (u64, f64) {
 
 fn main() {
     let clock = if cpu_clock() {
-        "CPU-seconds of one thread"
+        "CPU-second of one thread"
     } else {
-        "wall-seconds of one thread (no per-thread CPU clock here)"
+        "wall-second of one thread (no per-thread CPU clock here)"
     };
     println!("entrain simulator bench: neighbour-updates per {clock}, best of 3");
     let base = footbridge();

@@ -1,6 +1,10 @@
 //! The fidelity table: forecast, planner bound and simulation side by side for every
 //! scenario of the fidelity suite, with run times. `cargo bench --features sim --bench
 //! fidelity`.
+//!
+//! Baseline, measured in the same run: the Monte Carlo of each scenario (`s.*` columns,
+//! and its wall seconds `sim.s`); the forecast and the planner's bound are read against
+//! it, figure by figure and in run time.
 
 #[path = "../tests/fidelity_cases/mod.rs"]
 mod fidelity_cases;

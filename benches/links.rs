@@ -7,6 +7,10 @@
 //! brings the crystal to the network's mean rate|, ppm, over every node of every run), and
 //! the runs with a trim at its limit.
 //!
+//! Baseline, measured in the same run: the first case of each graph, version-1 beacons
+//! without the leak (what a firmware without either remedy does); each remedy is read
+//! against it.
+//!
 //! `cargo bench --features sim --bench links` (add a number of runs per case as the
 //! first argument; default 4).
 

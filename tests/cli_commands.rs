@@ -654,3 +654,29 @@ fn weight_one_is_the_unweighted_edge_list() {
         assert_eq!(va, vb, "{args:?}");
     }
 }
+
+#[test]
+fn simulation_reports_the_neighbour_updates_it_made() {
+    // Without beacon loss every node hears each neighbour once per update interval and
+    // keeps the entry until the timeout (5 intervals), so from its third update on each
+    // update uses every neighbour: per run the work lies between (H − 2)·Σdegree and
+    // (H + 1)·Σdegree for H update intervals (a fast crystal fits one more update in);
+    // Σdegree = 2·23 on the 24-node chain. Counted by hand, not by the simulator.
+    let dir = variant(
+        "x.toml",
+        "examples/footbridge.toml",
+        &[
+            ("loss_fraction = 0.02", "loss_fraction = 0.0"),
+            ("runs = 24", "runs = 3"),
+        ],
+    );
+    let file = dir.path().join("x.toml");
+    let (v, _) = json(&["check", file.to_str().unwrap()]);
+    let h = f(&v["prediction"]["horizon_updates"]);
+    let runs = f(&v["simulation"]["runs"]);
+    let work = f(&v["simulation"]["neighbour_updates"]);
+    assert_eq!(runs, 3.0);
+    let degrees = 46.0;
+    assert!(work >= runs * (h - 2.0) * degrees, "{work} for horizon {h}");
+    assert!(work <= runs * (h + 1.0) * degrees, "{work} for horizon {h}");
+}

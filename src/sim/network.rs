@@ -115,6 +115,19 @@ impl Timer {
     }
 }
 
+/// A sender slot (node i's neighbour j): everything a beacon from i to j needs.
+#[derive(Clone, Copy, Debug)]
+struct OutSlot {
+    /// The link's latency in this direction, sub-ticks.
+    latency_sub: u64,
+    /// The delay the receiver is told, its ticks.
+    told_ticks: u32,
+    /// The link's coupling weight, Q16.16.
+    weight_q16: u32,
+    /// The receiver.
+    to: u16,
+}
+
 /// One simulated node: the real node law plus its hardware around it.
 #[derive(Clone, Debug)]
 struct Station<const N: usize> {
@@ -160,10 +173,9 @@ pub struct Network<const N: usize> {
     rng: ChaCha8Rng,
     update_ticks: u64,
     jitter_ticks: u32,
-    /// Per sender slot (as `targets`): the link's latency in that direction, sub-ticks.
-    latency_sub: Vec<u64>,
-    /// Per sender slot: the delay the receiver is told, its ticks.
-    told_ticks: Vec<u32>,
+    /// Per sender slot (as `targets`): what a beacon on that slot needs, packed so one
+    /// node's slots share a cache line (updates come in random node order).
+    out: Vec<OutSlot>,
     /// Uniform latency in lock-step (whole ticks).
     latency_ticks: u32,
     ts_jitter: u32,
@@ -333,11 +345,25 @@ impl<const N: usize> Network<N> {
                     .map(move |&j| links.weight_q16(i, usize::from(j)))
             })
             .collect();
+        let out: Vec<OutSlot> = latency_sub
+            .iter()
+            .zip(&told_ticks)
+            .zip(slot_weight.iter().zip(&targets))
+            .map(
+                |((&latency_sub, &told_ticks), (&weight_q16, &to))| OutSlot {
+                    latency_sub,
+                    told_ticks,
+                    weight_q16,
+                    to,
+                },
+            )
+            .collect();
         Ok(Network {
             config,
             stations,
             row_start,
             targets,
+            out,
             slot_weight,
             pairs: scenario.links.pairs().to_vec(),
             ring: scenario.links.is_ring(),
@@ -348,8 +374,6 @@ impl<const N: usize> Network<N> {
             rng,
             update_ticks,
             jitter_ticks: scenario.schedule.jitter_ticks,
-            latency_sub,
-            told_ticks,
             latency_ticks: scenario.beacons.latency_ticks,
             ts_jitter: scenario.beacons.timestamp_jitter_ticks,
             stamping: b.stamping,
@@ -467,7 +491,7 @@ impl<const N: usize> Network<N> {
         let (lo, hi) = (*self.row_start.get(from)?, *self.row_start.get(from + 1)?);
         let slot =
             (lo..hi).find(|&s| self.targets.get(s).is_some_and(|&t| usize::from(t) == to))?;
-        Some(*self.latency_sub.get(slot)? as f64 / SUB as f64)
+        Some(self.out.get(slot)?.latency_sub as f64 / SUB as f64)
     }
 
     /// Counters so far.
@@ -654,8 +678,14 @@ impl<const N: usize> Network<N> {
             let degree = hi - lo;
             let echo = (degree > 0)
                 .then(|| {
-                    let k = st.echo_next % degree;
-                    st.echo_next = (k + 1) % degree;
+                    // Round robin without a division per update (`echo_next` stays
+                    // below the degree, which never changes).
+                    let k = if st.echo_next < degree {
+                        st.echo_next
+                    } else {
+                        0
+                    };
+                    st.echo_next = if k + 1 < degree { k + 1 } else { 0 };
                     let target = self.targets[lo + k];
                     st.node.echo_for(target, local).map(|echo| (target, echo))
                 })
@@ -670,14 +700,17 @@ impl<const N: usize> Network<N> {
             )
         });
         for slot in lo..hi {
-            let j = usize::from(self.targets[slot]);
+            let Some(&out) = self.out.get(slot) else {
+                continue;
+            };
+            let j = usize::from(out.to);
             let Some(rx) = self.stations.get(j) else {
                 continue;
             };
             if !rx.alive {
                 continue;
             }
-            let arrive = t + self.latency_sub[slot];
+            let arrive = t + out.latency_sub;
             self.stats.beacons_sent += 1;
             let success = self
                 .slot_success
@@ -703,9 +736,9 @@ impl<const N: usize> Network<N> {
                     phase,
                     arrive,
                     rx_ticks,
-                    delay_ticks: self.told_ticks[slot],
+                    delay_ticks: out.told_ticks,
                     timing,
-                    weight_q16: self.slot_weight[slot],
+                    weight_q16: out.weight_q16,
                 });
             }
         }

@@ -11,6 +11,14 @@ fn main() -> ! {
         kit::host::exit(false)
     };
     let mut counter = kit::icount::InstructionCounter::new(p.SYST);
-    kit::cost::print_table(&mut counter, "microbit Cortex-M0", 60);
+    kit::cost::print_table(
+        &mut counter,
+        "microbit Cortex-M0",
+        &kit::cost::Goals {
+            core: "M0",
+            fixed: 250,
+            per_neighbour: 45,
+        },
+    );
     kit::host::exit(true)
 }

@@ -11,6 +11,14 @@ fn main() -> ! {
         kit::host::exit(false)
     };
     let mut counter = kit::icount::InstructionCounter::new(p.SYST);
-    kit::cost::print_table(&mut counter, "mps2-an386 Cortex-M4F", 40);
+    kit::cost::print_table(
+        &mut counter,
+        "mps2-an386 Cortex-M4F",
+        &kit::cost::Goals {
+            core: "M4F",
+            fixed: 100,
+            per_neighbour: 30,
+        },
+    );
     kit::host::exit(true)
 }

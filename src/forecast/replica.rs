@@ -45,6 +45,8 @@ pub(crate) struct Replica {
     trim_limit: f64,
     /// Neighbour timeout, local ticks.
     timeout: f64,
+    /// Most negative corrected round trip taken, `⌊timeout/8⌋` local ticks.
+    round_trip_floor: f64,
     /// Shortest link latency, nominal ticks.
     latency: f64,
     /// Width of the per-link latency draw, nominal ticks.
@@ -118,6 +120,7 @@ impl Replica {
             slew: f64::from(c.slew_limit()) / 4_294_967_296.0,
             trim_limit: r * f64::from(c.trim_limit_ppb()) * 1e-9,
             timeout: f64::from(c.timeout_ticks()),
+            round_trip_floor: (f64::from(c.timeout_ticks()) / 8.0).floor(),
             latency: f64::from(s.beacons.latency_ticks),
             latency_spread: f64::from(s.beacons.latency_spread_ticks),
             asymmetry: f64::from(s.beacons.asymmetry_ticks),
@@ -307,11 +310,24 @@ fn round(x: f64) -> f64 {
 /// Largest pairwise wrapped difference of phases in turns (`0..=½`).
 pub(crate) fn largest_pairwise(x: &[f64], scratch: &mut Vec<f64>) -> f64 {
     let Some(&first) = x.first() else { return 0.0 };
+    // Below half a turn from the first phase, `wrap` leaves a difference as it is but
+    // for a negative zero, which it makes positive, as adding +0 does: the usual case
+    // needs no rounding, and the result is the same bit for bit.
     let (mut lo, mut hi) = (0.0_f64, 0.0_f64);
+    let mut near = true;
     for &v in x {
-        let d = wrap(v - first);
+        let d = (v - first) + 0.0;
+        near &= d.abs() < 0.5;
         lo = lo.min(d);
         hi = hi.max(d);
+    }
+    if !near {
+        (lo, hi) = (0.0, 0.0);
+        for &v in x {
+            let d = wrap(v - first);
+            lo = lo.min(d);
+            hi = hi.max(d);
+        }
     }
     if hi - lo < 0.5 {
         return hi - lo;
@@ -491,8 +507,7 @@ fn delay_sample(setup: &Replica, f: &Flight, heard: f64, own_trim: f64, told: f6
     }
     let held_here = held * (1.0 + f.trim_frac) / (1.0 + own_trim / setup.r);
     let corrected = round - held_here;
-    let floor = (setup.timeout / 8.0).floor();
-    if corrected < -floor || corrected > 2.0 * setup.timeout {
+    if corrected < -setup.round_trip_floor || corrected > 2.0 * setup.timeout {
         return None;
     }
     Some(corrected / 2.0 - told)
@@ -632,7 +647,7 @@ fn update(
 
 #[cfg(test)]
 mod tests {
-    use super::{DueQueue, floor, round};
+    use super::{DueQueue, floor, largest_pairwise, round, wrap};
     use rand::{Rng, SeedableRng};
     use rand_chacha::ChaCha8Rng;
 
@@ -674,6 +689,47 @@ mod tests {
         for x in xs {
             assert_eq!(floor(x).to_bits(), x.floor().to_bits(), "floor({x:e})");
             assert_eq!(round(x).to_bits(), x.round().to_bits(), "round({x:e})");
+        }
+    }
+
+    /// The largest pairwise difference without rounding in the usual case is the one
+    /// that wraps every difference, bit for bit: phases near each other, across a whole
+    /// turn, signed zeros, and spreads of half a turn and more.
+    #[test]
+    fn largest_pairwise_matches_wrapping_every_difference() {
+        fn wrapping_every(x: &[f64]) -> f64 {
+            let first = x[0];
+            let (lo, hi) = x.iter().fold((0.0_f64, 0.0_f64), |(lo, hi), &v| {
+                let d = wrap(v - first);
+                (lo.min(d), hi.max(d))
+            });
+            hi - lo
+        }
+        let mut rng = ChaCha8Rng::seed_from_u64(17);
+        let mut cases: Vec<Vec<f64>> = vec![
+            vec![0.0, -0.0],
+            vec![-0.0, 0.0, -0.0],
+            vec![0.25, 0.25],
+            vec![3.2, 3.2 + 0.499_999, 3.2 - 0.1],
+            vec![-7.75, -7.25],
+        ];
+        for _ in 0..20_000 {
+            let n = rng.random_range(1..12);
+            let base = (rng.random::<f64>() - 0.5) * 10f64.powi(rng.random_range(0..4));
+            let width = 10f64.powi(rng.random_range(-6..1));
+            cases.push(
+                (0..n)
+                    .map(|_| base + (rng.random::<f64>() - 0.5) * width)
+                    .collect(),
+            );
+        }
+        let mut scratch = Vec::new();
+        for x in cases {
+            let want = wrapping_every(&x);
+            if want < 0.5 {
+                let got = largest_pairwise(&x, &mut scratch);
+                assert_eq!(got.to_bits(), want.to_bits(), "{x:?}");
+            }
         }
     }
 

@@ -155,3 +155,23 @@ fn asymmetric_links_settle_at_half_the_asymmetry() {
     }
     assert!(checked >= 5, "only {checked} links had a clear asymmetry");
 }
+
+/// The trim error relative to the trims' mean takes out exactly the common part. With two
+/// adjusting nodes and signed errors e₀, e₁ both relative errors are |e₀ − e₁|/2, so they
+/// are equal, no larger than the larger absolute error and no smaller than half the
+/// absolute errors' difference (triangle inequality).
+#[test]
+fn relative_trim_error_takes_out_the_common_rate() {
+    let s = scenario("topology = \"chain\"\nnodes = 2", "");
+    let summary = monte_carlo(&build(&s, 5_000), 3, 7, &|_| {}).unwrap();
+    for o in &summary.outcomes {
+        let (rel, abs) = (&o.trim_spread_errors_ppm, &o.trim_errors_ppm);
+        assert_eq!((rel.len(), abs.len()), (2, 2));
+        assert!((rel[0] - rel[1]).abs() <= 1e-9 * rel[0].max(1.0), "{rel:?}");
+        assert!(rel[0] <= abs[0].max(abs[1]) + 1e-9, "{rel:?} {abs:?}");
+        assert!(
+            rel[0] >= 0.5 * (abs[0] - abs[1]).abs() - 1e-9,
+            "{rel:?} {abs:?}"
+        );
+    }
+}

@@ -232,6 +232,9 @@ pub struct Summary {
     /// |trim − ideal trim| at the run's end, ppm (see [`RunOutcome::trim_errors_ppm`]);
     /// `None` for the P law.
     pub trim_error_ppm: Option<Percentiles>,
+    /// PI law: the same with the common rate taken out (see
+    /// [`RunOutcome::trim_spread_errors_ppm`]); `None` for the P law.
+    pub trim_spread_error_ppm: Option<Percentiles>,
     /// Every run's outcome, in run order.
     pub outcomes: Vec<RunOutcome>,
 }
@@ -263,8 +266,13 @@ impl Summary {
             .iter()
             .flat_map(|o| o.trim_errors_ppm.iter().copied())
             .collect();
+        let mut spread_errors: Vec<f64> = outcomes
+            .iter()
+            .flat_map(|o| o.trim_spread_errors_ppm.iter().copied())
+            .collect();
         Summary {
             trim_error_ppm: Percentiles::of(&mut trim_errors),
+            trim_spread_error_ppm: Percentiles::of(&mut spread_errors),
             common_rate_max_ppm,
             trim_at_limit_fraction: if runs == 0 {
                 0.0

@@ -859,19 +859,24 @@ impl<const N: usize> Network<N> {
         } else {
             adjusting.iter().map(|s| s.ppm).sum::<f64>() / adjusting.len().max(1) as f64
         };
-        let trim_errors_ppm = if self.config.ki().q16() == 0 {
+        // Each adjusting node's trim minus its ideal trim, ppm (PI law only).
+        let signed: Vec<f64> = if self.config.ki().q16() == 0 {
             Vec::new()
         } else {
             adjusting
                 .iter()
                 .map(|s| {
                     let ideal = ((1.0 + target * 1e-6) / (1.0 + s.ppm * 1e-6) - 1.0) * 1e6;
-                    (f64::from(s.node.trim_ppb()) / 1000.0 - ideal).abs()
+                    f64::from(s.node.trim_ppb()) / 1000.0 - ideal
                 })
                 .collect()
         };
+        let common = signed.iter().sum::<f64>() / signed.len().max(1) as f64;
+        let trim_spread_errors_ppm = signed.iter().map(|e| (e - common).abs()).collect();
+        let trim_errors_ppm = signed.iter().map(|e| e.abs()).collect();
         RunOutcome {
             trim_errors_ppm,
+            trim_spread_errors_ppm,
             settle,
             first_entry_updates: first_entry,
             steady_counts: self.tracker.steady_counts().to_vec(),

@@ -62,6 +62,13 @@ pub struct RunOutcome {
     /// reference (nominal). `(1 + ω)/(1 + e_i) − 1`, ω that rate and e_i the crystal
     /// error.
     pub trim_errors_ppm: Vec<f64>,
+    /// PI law only (empty for the P law): the same errors with the common rate taken
+    /// out, `|(t_i − t̄) − (ideal_i − ideal̄)|` in ppm, node order, `t̄` the mean trim
+    /// over the adjusting nodes: how far each trim is from cancelling its crystal's
+    /// offset from the others', which is what a bench that compares trims relative to
+    /// their mean sees. The common rate, which the trim leak holds only loosely, is in
+    /// [`Self::trim_errors_ppm`] and [`Self::common_rate_ppm`], not here.
+    pub trim_spread_errors_ppm: Vec<f64>,
     /// Counters.
     pub stats: RunStats,
 }

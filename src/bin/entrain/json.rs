@@ -326,6 +326,9 @@ fn check_map(r: &Assessment, command: &str) -> Map<String, Value> {
             "trim_error_ppm": s.trim_error_ppm.map_or(Value::Null, |p| json!({
                 "p50": num(p.p50), "max": num(p.max),
             })),
+            "trim_error_relative_ppm": s.trim_spread_error_ppm.map_or(Value::Null, |p| json!({
+                "p50": num(p.p50), "max": num(p.max),
+            })),
         })
     });
     m.insert("simulation".into(), sim);

@@ -437,6 +437,14 @@ fn figures(s: &mut String, r: &Assessment) {
                     "|trim − crystal's offset from the network rate| at a run's end",
                 );
             }
+            if let Some(t) = sm.trim_spread_error_ppm {
+                row(
+                    s,
+                    "  relative to the trims' mean",
+                    &format!("p50 {:.2} ppm, max {:.2} ppm", t.p50, t.max),
+                    "the same with the common rate taken out",
+                );
+            }
         }
         None => row(s, "simulated runs", "not run", ""),
     }

@@ -843,10 +843,12 @@ impl Graph {
                     observe(stage);
                 };
                 let small = smallest_all(self, pattern, options, dimension, &mut forward);
+                // Then the worker's stages as they come, until it ends (its sender is
+                // dropped with it), so that a progress display follows λmax live.
+                stages.iter().for_each(&mut *observe);
                 let top = worker
                     .join()
                     .unwrap_or_else(|panic| std::panic::resume_unwind(panic));
-                stages.try_iter().for_each(&mut *observe);
                 (small, top)
             })
         } else {

@@ -157,7 +157,31 @@ qemu_m0 "$m0/cost" | record
 
 step "chain of emulated nodes, P law, version-2 beacons, no latency told"
 chain_logs=$CARGO_TARGET_DIR/chain-logs
-KI_Q16=0 LOG_DIR=$chain_logs/p "$here/run-chain.sh" "$m4/chain"
+mkdir -p "$chain_logs"
+# The most SysTick time any node of a run lost to the host not scheduling its QEMU, ms
+# (each node prints `time check: … (N us lost)`). A quiet host loses under 25 ms in the
+# 12 s run; a stalled one 130 to 200 ms and more, with phase spikes of tens of ms.
+stalled_ms() {
+    awk '/time check:/ { for (i = 3; i <= NF; i++) if ($i == "lost)") {
+             v = $(i - 2); gsub(/[(]/, "", v); if (v + 0 > m) m = v + 0 } }
+         END { print int(m / 1000) }' "$1"
+}
+# A run the host stalled (over 50 ms lost on some node) judges the host, not the law:
+# it is printed and the chain runs once more; a second failure, or any failure without
+# a stall, fails CI.
+for attempt in 1 2; do
+    p_status=0
+    KI_Q16=0 LOG_DIR=$chain_logs/p "$here/run-chain.sh" "$m4/chain" >"$chain_logs/p-run.txt" 2>&1 ||
+        p_status=$?
+    cat "$chain_logs/p-run.txt"
+    (( p_status == 0 )) && break
+    lost_ms=$(stalled_ms "$chain_logs/p-run.txt")
+    if (( attempt == 1 && lost_ms > 50 )); then
+        echo "chain: the host stalled the emulated nodes (up to $lost_ms ms lost in that run): running the P chain once more"
+        continue
+    fi
+    exit "$p_status"
+done
 
 # Every node's telemetry lines against the scenario of the chain as it runs (five nodes:
 # with another NODES the scenario does not describe the chain, and the check is skipped).

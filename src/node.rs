@@ -1,5 +1,6 @@
 //! One node: its local clock, its neighbour table and the PI update law.
 
+use crate::arith::{mul_64_32, mul_q16_round};
 use crate::law::{Coupling, Linear, Sine};
 use crate::{Config, Law, Phase};
 use core::fmt;
@@ -356,10 +357,12 @@ impl<const N: usize> Node<N> {
         if elapsed > self.config.timeout_ticks() {
             self.table.clear();
         }
-        let sum = u128::from(self.acc) + u128::from(elapsed) * u128::from(self.rate());
-        self.acc = sum as u64;
+        // acc + elapsed·rate, a 96-bit sum: its top word is the turns completed.
+        let (low, high) = mul_64_32(self.rate(), elapsed);
+        let (acc, carry) = self.acc.overflowing_add(low);
+        self.acc = acc;
         // elapsed < 2^31 and rate < 2^64, so the turn count is below 2^31.
-        let turns = (sum >> 64) as u32;
+        let turns = high + carry as u32;
         self.cycles = self.cycles.wrapping_add(turns);
         turns
     }
@@ -686,12 +689,8 @@ impl<const N: usize> Node<N> {
 
 /// `round(x · k / 2^16)`, ties away from zero (odd in `x`), saturating.
 const fn mul_q16_sym(x: i64, k: i64) -> i64 {
-    let mag = (x.unsigned_abs() as u128 * k.unsigned_abs() as u128 + (1 << 15)) >> 16;
-    let mag = if mag > i64::MAX as u128 {
-        i64::MAX
-    } else {
-        mag as i64
-    };
+    // At most i64::MAX, so the negation cannot overflow.
+    let mag = mul_q16_round(x.unsigned_abs(), k.unsigned_abs()) as i64;
     if (x < 0) != (k < 0) { -mag } else { mag }
 }
 

@@ -660,8 +660,12 @@ impl<const N: usize> Node<N> {
         report.correction = step as i32;
         self.apply_step(report.correction);
         if !report.slew_limited {
-            let delta = mul_q16_sym(sum, self.config.ki_tick());
-            let leak = mul_q16_sym(self.trim, i64::from(self.config.leak().q16()));
+            let delta = mul_q16_sym_inline(sum, self.config.ki_tick());
+            // No leak (the default) is a zero product: skip it.
+            let leak = match self.config.leak().q16() {
+                0 => 0,
+                q16 => mul_q16_sym(self.trim, i64::from(q16)),
+            };
             let limit = self.config.trim_limit_raw();
             self.trim_next = self
                 .trim
@@ -687,8 +691,16 @@ impl<const N: usize> Node<N> {
     }
 }
 
-/// `round(x · k / 2^16)`, ties away from zero (odd in `x`), saturating.
+/// `round(x · k / 2^16)`, ties away from zero (odd in `x`), saturating. Out of line for
+/// the weights and the leak: inlined at every use it would cost hundreds of bytes.
+#[inline(never)]
 const fn mul_q16_sym(x: i64, k: i64) -> i64 {
+    mul_q16_sym_inline(x, k)
+}
+
+/// [`mul_q16_sym`] inline, for the integral step every update takes.
+#[inline(always)]
+const fn mul_q16_sym_inline(x: i64, k: i64) -> i64 {
     // At most i64::MAX, so the negation cannot overflow.
     let mag = mul_q16_round(x.unsigned_abs(), k.unsigned_abs()) as i64;
     if (x < 0) != (k < 0) { -mag } else { mag }
@@ -1045,5 +1057,9 @@ mod tests {
         assert_eq!(mul_q16_sym(3, 1 << 15), 2);
         assert_eq!(mul_q16_sym(-3, 1 << 15), -2);
         assert_eq!(mul_q16_sym(i64::MIN, i64::MAX), -i64::MAX);
+        // What `step` relies on when it skips a zero leak.
+        for x in [i64::MIN, -1, 0, 1, i64::MAX] {
+            assert_eq!(mul_q16_sym(x, 0), 0);
+        }
     }
 }

@@ -322,6 +322,27 @@ impl<const N: usize> Node<N> {
     /// The current rate trim, parts per billion of the nominal rate (rounded toward zero).
     #[must_use]
     pub const fn trim_ppb(&self) -> i32 {
+        // |trim|·10⁹ within 64 bits (|trim| < 1.8·10¹⁰, every trim up to 1,000 ppm at a
+        // 1 MHz timer and a 1 s period): a u64 division of the magnitudes truncates toward
+        // zero as the i128 one does.
+        let (low, high) = mul_64_32(self.trim.unsigned_abs(), 1_000_000_000);
+        if high == 0 {
+            let mag = match low.checked_div(self.config.rate_nominal()) {
+                Some(q) => q,
+                None => 0,
+            };
+            // mag ≤ 10⁸ (see below).
+            return if self.trim < 0 {
+                -(mag as i32)
+            } else {
+                mag as i32
+            };
+        }
+        self.trim_ppb_wide()
+    }
+
+    /// [`trim_ppb`](Node::trim_ppb) in `i128`, for any trim.
+    const fn trim_ppb_wide(&self) -> i32 {
         // `checked_div`, not `/`: the nominal rate is never zero (a built `Config` has at
         // most 2^32 − 1 ticks per period, so the rate is at least 2^32), but the compiler
         // cannot see that, and `/` would carry a division-by-zero panic into every
@@ -825,6 +846,55 @@ mod tests {
         let got = n.phase().counts();
         let want = 3_710_851u32;
         assert!(got.abs_diff(want) <= 43, "got {got}");
+    }
+
+    #[test]
+    fn trim_ppb_fast_path_is_the_i128_division() {
+        // Trims on both sides of |trim|·10⁹ = 2^64, the fast path's limit, on timers from
+        // 2 to 2^32 − 1 ticks per period, against the i128 division.
+        let limit = u64::MAX / 1_000_000_000;
+        for ticks in [2, 3, 1_000, 32_768, 1_000_000, 16_000_000, u32::MAX] {
+            let c = Config::builder(ticks, 1)
+                .trim_limit_ppb(100_000_000)
+                .build()
+                .unwrap();
+            let mut n: Node<1> = Node::new(c, Phase::ZERO, 0);
+            let raw_limit = c.trim_limit_raw();
+            for t in [
+                0,
+                1,
+                999,
+                limit as i64 - 1,
+                limit as i64,
+                limit as i64 + 1,
+                raw_limit,
+            ] {
+                for trim in [t, -t] {
+                    let trim = trim.max(-raw_limit).min(raw_limit);
+                    n.trim = trim;
+                    assert_eq!(
+                        n.trim_ppb(),
+                        n.trim_ppb_wide(),
+                        "{ticks} ticks, trim {trim}"
+                    );
+                }
+            }
+        }
+    }
+
+    proptest::proptest! {
+        #[test]
+        fn trim_ppb_is_the_i128_division(
+            ticks in 2u32..,
+            frac in -1.0f64..1.0,
+            scale in 0u32..40,
+        ) {
+            let c = Config::builder(ticks, 1).trim_limit_ppb(100_000_000).build().unwrap();
+            let mut n: Node<1> = Node::new(c, Phase::ZERO, 0);
+            // A trim anywhere in the range, on every scale below the limit.
+            n.trim = (frac * (c.trim_limit_raw() >> scale) as f64) as i64;
+            proptest::prop_assert_eq!(n.trim_ppb(), n.trim_ppb_wide());
+        }
     }
 
     #[test]

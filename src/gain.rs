@@ -1,6 +1,7 @@
 //! Fixed-point loop gains.
 
 use crate::ConfigError;
+use crate::arith::mul_64_32;
 
 /// Fractional bits of a [`Gain`].
 pub const GAIN_FRAC_BITS: u32 = 16;
@@ -73,7 +74,10 @@ impl Gain {
     #[must_use]
     pub const fn apply(self, x: i64) -> i64 {
         let neg = x < 0;
-        let mag = x.unsigned_abs().saturating_mul(self.0 as u64);
+        // min(|x|·g + 2^15, u64::MAX) >> 16, as a saturating multiply then a saturating
+        // add give it, from two 32-bit products (a Q16 gain fits 32 bits).
+        let (low, high) = mul_64_32(x.unsigned_abs(), self.0);
+        let mag = if high != 0 { u64::MAX } else { low };
         let rounded = mag.saturating_add(1 << (GAIN_FRAC_BITS - 1)) >> GAIN_FRAC_BITS;
         // rounded ≤ u64::MAX >> 16 < i64::MAX.
         if neg {
@@ -109,5 +113,47 @@ mod tests {
         assert_eq!(third.apply(300_000), 99_998);
         assert_eq!(third.apply(-300_000), -99_998);
         assert_eq!(Gain::MAX.apply(i64::MIN), -((u64::MAX >> 16) as i64));
+    }
+
+    /// `apply` as a `u64` saturating multiply and add, the arithmetic it replaces.
+    fn apply_saturating(g: Gain, x: i64) -> i64 {
+        let mag = x.unsigned_abs().saturating_mul(u64::from(g.0));
+        let rounded = (mag.saturating_add(1 << 15) >> 16) as i64;
+        if x < 0 { -rounded } else { rounded }
+    }
+
+    #[test]
+    fn apply_is_the_saturating_arithmetic_at_the_edges() {
+        let xs = [
+            0,
+            1,
+            -1,
+            i64::from(u32::MAX),
+            1 << 32,
+            -(1 << 47),
+            (1 << 47) + 1,
+            i64::MAX / 3,
+            i64::MAX,
+            i64::MIN + 1,
+            i64::MIN,
+        ];
+        for g in [0, 1, 32_767, 32_768, 65_536, Gain::MAX.0] {
+            for x in xs {
+                let g = Gain(g);
+                assert_eq!(g.apply(x), apply_saturating(g, x), "{g:?} · {x}");
+            }
+        }
+    }
+
+    proptest::proptest! {
+        #[test]
+        fn apply_is_the_saturating_arithmetic(
+            g in 0..=Gain::MAX.0,
+            x in proptest::prelude::any::<i64>(),
+            shift in 0u32..64,
+        ) {
+            let (g, x) = (Gain(g), x >> shift);
+            proptest::prop_assert_eq!(g.apply(x), apply_saturating(g, x));
+        }
     }
 }

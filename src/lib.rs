@@ -17,6 +17,7 @@
     )
 )]
 
+mod arith;
 #[cfg(feature = "assess")]
 #[cfg_attr(docsrs, doc(cfg(feature = "assess")))]
 #[allow(

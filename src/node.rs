@@ -1,5 +1,6 @@
 //! One node: its local clock, its neighbour table and the PI update law.
 
+use crate::arith::{mul_64_32, mul_q16_round};
 use crate::law::{Coupling, Linear, Sine};
 use crate::{Config, Law, Phase};
 use core::fmt;
@@ -321,6 +322,27 @@ impl<const N: usize> Node<N> {
     /// The current rate trim, parts per billion of the nominal rate (rounded toward zero).
     #[must_use]
     pub const fn trim_ppb(&self) -> i32 {
+        // |trim|·10⁹ within 64 bits (|trim| < 1.8·10¹⁰, every trim up to 1,000 ppm at a
+        // 1 MHz timer and a 1 s period): a u64 division of the magnitudes truncates toward
+        // zero as the i128 one does.
+        let (low, high) = mul_64_32(self.trim.unsigned_abs(), 1_000_000_000);
+        if high == 0 {
+            let mag = match low.checked_div(self.config.rate_nominal()) {
+                Some(q) => q,
+                None => 0,
+            };
+            // mag ≤ 10⁸ (see below).
+            return if self.trim < 0 {
+                -(mag as i32)
+            } else {
+                mag as i32
+            };
+        }
+        self.trim_ppb_wide()
+    }
+
+    /// [`trim_ppb`](Node::trim_ppb) in `i128`, for any trim.
+    const fn trim_ppb_wide(&self) -> i32 {
         // `checked_div`, not `/`: the nominal rate is never zero (a built `Config` has at
         // most 2^32 − 1 ticks per period, so the rate is at least 2^32), but the compiler
         // cannot see that, and `/` would carry a division-by-zero panic into every
@@ -356,10 +378,12 @@ impl<const N: usize> Node<N> {
         if elapsed > self.config.timeout_ticks() {
             self.table.clear();
         }
-        let sum = u128::from(self.acc) + u128::from(elapsed) * u128::from(self.rate());
-        self.acc = sum as u64;
+        // acc + elapsed·rate, a 96-bit sum: its top word is the turns completed.
+        let (low, high) = mul_64_32(self.rate(), elapsed);
+        let (acc, carry) = self.acc.overflowing_add(low);
+        self.acc = acc;
         // elapsed < 2^31 and rate < 2^64, so the turn count is below 2^31.
-        let turns = (sum >> 64) as u32;
+        let turns = high + carry as u32;
         self.cycles = self.cycles.wrapping_add(turns);
         turns
     }
@@ -657,8 +681,12 @@ impl<const N: usize> Node<N> {
         report.correction = step as i32;
         self.apply_step(report.correction);
         if !report.slew_limited {
-            let delta = mul_q16_sym(sum, self.config.ki_tick());
-            let leak = mul_q16_sym(self.trim, i64::from(self.config.leak().q16()));
+            let delta = mul_q16_sym_inline(sum, self.config.ki_tick());
+            // No leak (the default) is a zero product: skip it.
+            let leak = match self.config.leak().q16() {
+                0 => 0,
+                q16 => mul_q16_sym(self.trim, i64::from(q16)),
+            };
             let limit = self.config.trim_limit_raw();
             self.trim_next = self
                 .trim
@@ -684,14 +712,18 @@ impl<const N: usize> Node<N> {
     }
 }
 
-/// `round(x · k / 2^16)`, ties away from zero (odd in `x`), saturating.
+/// `round(x · k / 2^16)`, ties away from zero (odd in `x`), saturating. Out of line for
+/// the weights and the leak: inlined at every use it would cost hundreds of bytes.
+#[inline(never)]
 const fn mul_q16_sym(x: i64, k: i64) -> i64 {
-    let mag = (x.unsigned_abs() as u128 * k.unsigned_abs() as u128 + (1 << 15)) >> 16;
-    let mag = if mag > i64::MAX as u128 {
-        i64::MAX
-    } else {
-        mag as i64
-    };
+    mul_q16_sym_inline(x, k)
+}
+
+/// [`mul_q16_sym`] inline, for the integral step every update takes.
+#[inline(always)]
+const fn mul_q16_sym_inline(x: i64, k: i64) -> i64 {
+    // At most i64::MAX, so the negation cannot overflow.
+    let mag = mul_q16_round(x.unsigned_abs(), k.unsigned_abs()) as i64;
     if (x < 0) != (k < 0) { -mag } else { mag }
 }
 
@@ -814,6 +846,55 @@ mod tests {
         let got = n.phase().counts();
         let want = 3_710_851u32;
         assert!(got.abs_diff(want) <= 43, "got {got}");
+    }
+
+    #[test]
+    fn trim_ppb_fast_path_is_the_i128_division() {
+        // Trims on both sides of |trim|·10⁹ = 2^64, the fast path's limit, on timers from
+        // 2 to 2^32 − 1 ticks per period, against the i128 division.
+        let limit = u64::MAX / 1_000_000_000;
+        for ticks in [2, 3, 1_000, 32_768, 1_000_000, 16_000_000, u32::MAX] {
+            let c = Config::builder(ticks, 1)
+                .trim_limit_ppb(100_000_000)
+                .build()
+                .unwrap();
+            let mut n: Node<1> = Node::new(c, Phase::ZERO, 0);
+            let raw_limit = c.trim_limit_raw();
+            for t in [
+                0,
+                1,
+                999,
+                limit as i64 - 1,
+                limit as i64,
+                limit as i64 + 1,
+                raw_limit,
+            ] {
+                for trim in [t, -t] {
+                    let trim = trim.max(-raw_limit).min(raw_limit);
+                    n.trim = trim;
+                    assert_eq!(
+                        n.trim_ppb(),
+                        n.trim_ppb_wide(),
+                        "{ticks} ticks, trim {trim}"
+                    );
+                }
+            }
+        }
+    }
+
+    proptest::proptest! {
+        #[test]
+        fn trim_ppb_is_the_i128_division(
+            ticks in 2u32..,
+            frac in -1.0f64..1.0,
+            scale in 0u32..40,
+        ) {
+            let c = Config::builder(ticks, 1).trim_limit_ppb(100_000_000).build().unwrap();
+            let mut n: Node<1> = Node::new(c, Phase::ZERO, 0);
+            // A trim anywhere in the range, on every scale below the limit.
+            n.trim = (frac * (c.trim_limit_raw() >> scale) as f64) as i64;
+            proptest::prop_assert_eq!(n.trim_ppb(), n.trim_ppb_wide());
+        }
     }
 
     #[test]
@@ -1046,5 +1127,9 @@ mod tests {
         assert_eq!(mul_q16_sym(3, 1 << 15), 2);
         assert_eq!(mul_q16_sym(-3, 1 << 15), -2);
         assert_eq!(mul_q16_sym(i64::MIN, i64::MAX), -i64::MAX);
+        // What `step` relies on when it skips a zero leak.
+        for x in [i64::MIN, -1, 0, 1, i64::MAX] {
+            assert_eq!(mul_q16_sym(x, 0), 0);
+        }
     }
 }

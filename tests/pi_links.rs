@@ -176,6 +176,33 @@ fn relative_trim_error_takes_out_the_common_rate() {
     }
 }
 
+/// The rate of node 0 beyond nominal, ppm, over the last 20,000 of 400,000 updates of one
+/// run (a 1 MHz timer; ideal crystals, so its ticks are true time).
+fn common_rate_ppm(s: &Scenario, constants: &NodeConstants) -> f64 {
+    let network = NetworkModel::of(s).unwrap();
+    let horizon = 400_000;
+    let sim = setup(s, &network, constants, horizon).unwrap();
+    let mut net = Network::<2>::new(&sim, 5, 0).unwrap();
+    let turns = |net: &Network<2>| {
+        let n = net.node(0).unwrap();
+        (
+            f64::from(n.cycles()) + f64::from(n.phase().counts()) / 2f64.powi(32),
+            n.now_ticks(),
+        )
+    };
+    // Settle (the leak's time constant is 2^16 / leak_q16 updates), then measure.
+    for _ in 0..horizon - 20_000 {
+        net.step();
+    }
+    let (t0, k0) = turns(&net);
+    for _ in 0..20_000 {
+        net.step();
+    }
+    let (t1, k1) = turns(&net);
+    let seconds = f64::from(k1.wrapping_sub(k0)) / 1e6;
+    ((t1 - t0) / seconds - 1.0) * 1e6
+}
+
 /// A timing bias the nodes cannot see sets the network's common rate, in closed form.
 ///
 /// Every node sees each neighbour late by the same unknown latency `L` (turns): version-1
@@ -227,31 +254,8 @@ budget_s = 600
 "#
         );
         let s = Scenario::from_toml(Path::new("biased.toml"), &text).unwrap();
-        let network = NetworkModel::of(&s).unwrap();
         let constants = NodeConstants::new(&s, 0.25, ki).unwrap();
-        let horizon = 400_000;
-        let sim = setup(&s, &network, &constants, horizon).unwrap();
-        let mut net = Network::<2>::new(&sim, 5, 0).unwrap();
-        let turns = |net: &Network<2>| {
-            let n = net.node(0).unwrap();
-            (
-                f64::from(n.cycles()) + f64::from(n.phase().counts()) / 2f64.powi(32),
-                n.now_ticks(),
-            )
-        };
-        // Settle (the leak's time constant is 2^16 / leak_q16 updates), then measure the
-        // rate of node 0 over the last 20,000 updates.
-        for _ in 0..horizon - 20_000 {
-            net.step();
-        }
-        let (t0, k0) = turns(&net);
-        for _ in 0..20_000 {
-            net.step();
-        }
-        let (t1, k1) = turns(&net);
-        let seconds = f64::from(k1.wrapping_sub(k0)) / 1e6;
-        let measured = ((t1 - t0) / seconds - 1.0) * 1e6;
-
+        let measured = common_rate_ppm(&s, &constants);
         let q16 = 65536.0;
         let kp = f64::from(constants.kp_q16) / q16;
         let ki_over_leak = if constants.ki_q16 == 0 {
@@ -271,4 +275,120 @@ budget_s = 600
             "ki {ki}: common rate {measured:.2} ppm, closed form {expected:.2} ppm"
         );
     }
+}
+
+/// Receptions taken late by stalls (`[clock] late_stamp_fraction`, `late_stamp_max_s`)
+/// bias every observation by the mean lateness, `p · max / 2` (a uniform draw from 0 to
+/// `max` on a fraction `p`): with the latency told exactly, the P law's common rate is
+/// the closed form above with `L` that mean. This holds the simulator's stall model to
+/// the fraction and lateness the scenario states.
+#[test]
+fn late_receptions_bias_by_their_mean_lateness() {
+    let (p, max_s) = (0.1, 0.02);
+    let text = format!(
+        r#"
+version = 1
+name = "stalled chain"
+[network]
+topology = "chain"
+nodes = 5
+[timing]
+update_rate_hz = 10
+phase_period_s = 1
+timer_hz = 1_000_000
+[law]
+coupling = "linear"
+kp = 0.25
+[clock]
+crystal_tolerance_ppm = 1
+crystal_ppm = [0, 0, 0, 0, 0]
+stamping = "nearest"
+late_stamp_fraction = {p}
+late_stamp_max_s = {max_s}
+[link]
+latency_s = 0.0002
+latency_known = true
+beacon_version = 1
+[lock]
+initial_spread_s = 0.01
+tolerance_s = 0.001
+budget_s = 600
+"#
+    );
+    let s = Scenario::from_toml(Path::new("stalled.toml"), &text).unwrap();
+    let constants = NodeConstants::new(&s, 0.25, 0.0).unwrap();
+    let measured = common_rate_ppm(&s, &constants);
+    let kp = f64::from(constants.kp_q16) / 65536.0;
+    let (links, nodes, a) = (4.0, 5.0, 0.1);
+    let lateness = p * max_s / 2.0; // seconds = turns at a 1 s period
+    let e_mean = -2.0 * links * lateness / (nodes - links * kp);
+    let expected = kp * e_mean / a * 1e6;
+    // The random lateness leaves the 20,000-update mean a little noisy: 2 %.
+    assert!(
+        (measured - expected).abs() <= 0.02 * expected.abs(),
+        "common rate {measured:.2} ppm, closed form {expected:.2} ppm"
+    );
+}
+
+/// The forecast (the independent model) draws the same stalls: its noise floor agrees
+/// with the simulator's on a chain with late receptions (a P law that never settles
+/// within a 10 µs band, so both see only the noise).
+#[test]
+fn forecast_and_simulator_agree_on_late_receptions() {
+    use entrain::assess::{self, Options};
+    let text = r#"
+version = 1
+name = "stalled ring"
+[network]
+topology = "ring"
+nodes = 8
+[timing]
+update_rate_hz = 10
+phase_period_s = 1
+timer_hz = 1_000_000
+[law]
+coupling = "sine"
+kp = 0.25
+[clock]
+crystal_tolerance_ppm = 30
+timestamp_jitter_s = 0.0002
+late_stamp_fraction = 0.03
+late_stamp_max_s = 0.02
+[link]
+latency_s = 0.0003
+latency_known = false
+[lock]
+initial_spread_s = 0.01
+tolerance_s = 0.005
+budget_s = 60
+[monte_carlo]
+runs = 8
+"#;
+    let s = Scenario::from_toml(Path::new("ring.toml"), text).unwrap();
+    let a = assess::assess(s.clone(), &Options::of(&s), &|_| {}).unwrap();
+    let predicted = a.prediction.noise_floor.unwrap();
+    let simulated = a.simulation.unwrap().summary.noise_floor_turns.unwrap();
+    // A 1 s period: turns are seconds.
+    for (name, p, q) in [
+        ("p50", predicted.p50_s, simulated.p50),
+        ("p99", predicted.p99_s, simulated.p99),
+    ] {
+        assert!(
+            (p - q).abs() <= 0.1 * q,
+            "noise floor {name}: forecast {p:.6} s, simulator {q:.6} s"
+        );
+    }
+    // The stalls dominate: without them the floor is a fraction of this.
+    let calm = Scenario::from_toml(
+        Path::new("calm.toml"),
+        &text.replace("late_stamp_fraction = 0.03", "late_stamp_fraction = 0"),
+    )
+    .unwrap();
+    let c = assess::assess(calm.clone(), &Options::of(&calm), &|_| {}).unwrap();
+    let calm_p99 = c.simulation.unwrap().summary.noise_floor_turns.unwrap().p99;
+    assert!(
+        calm_p99 < 0.5 * simulated.p99,
+        "{calm_p99} against {}",
+        simulated.p99
+    );
 }

@@ -70,6 +70,8 @@ pub fn setup(
         two_way: scenario.beacon_version >= 2,
         stamping: scenario.stamping,
         timestamp_jitter_ticks: (scenario.timestamp_jitter_s * timer_hz).round() as u32,
+        late_stamp_fraction: scenario.late_stamp_fraction,
+        late_stamp_max_ticks: (scenario.late_stamp_max_s * timer_hz).round() as u32,
         success_prob: 1.0 - scenario.loss_fraction,
     };
     s.start = sim::StartPhases::Uniform {

@@ -62,6 +62,9 @@ pub(crate) struct Replica {
     /// Receptions stamped with completed ticks (else the nearest).
     completed: bool,
     ts_jitter: i64,
+    /// Late stamps: probability per reception and the largest lateness, ticks.
+    late_p: f64,
+    late_max: i64,
     sched_jitter: i64,
     random_start: bool,
     p: f64,
@@ -129,6 +132,8 @@ impl Replica {
             smoothing_weight: 0.5_f64.powi(i32::from(c.delay_smoothing())),
             completed: s.beacons.stamping == Stamping::CompletedTicks,
             ts_jitter: i64::from(s.beacons.timestamp_jitter_ticks),
+            late_p: s.beacons.late_stamp_fraction,
+            late_max: i64::from(s.beacons.late_stamp_max_ticks),
             sched_jitter: i64::from(s.schedule.jitter_ticks),
             random_start: s.schedule.random_start,
             p: s.beacons.success_prob,
@@ -622,7 +627,12 @@ fn update(
             continue;
         }
         let into = setup.back[s];
-        let arrive = t + wires.lat[into];
+        let mut arrive = t + wires.lat[into];
+        // A stall: the frame is taken (and stamped) late by a uniform draw, never later
+        // than the link's next frame (the draw is at most a quarter update interval).
+        if setup.late_p > 0.0 && rng.random::<f64>() < setup.late_p {
+            arrive += rng.random_range(0..=setup.late_max) as f64;
+        }
         let ej = st.get(j).map_or(0.0, |s| s.e);
         let local = arrive * (1.0 + ej);
         let mut stamp_err = if setup.completed {

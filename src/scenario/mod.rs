@@ -286,6 +286,8 @@ struct RawClock {
     crystal_ppm: Option<S<Vec<Real>>>,
     timestamp_jitter_s: Option<S<Real>>,
     stamping: Option<S<String>>,
+    late_stamp_fraction: Option<S<Real>>,
+    late_stamp_max_s: Option<S<Real>>,
 }
 
 #[derive(Deserialize)]
@@ -613,6 +615,12 @@ pub struct Scenario {
     /// Trim leak per update as written (`[law] trim_leak`); `None`: the default,
     /// `ki/64` (see [`Scenario::trim_leak`]).
     pub trim_leak: Option<f64>,
+    /// Fraction of receptions stamped late by a stall (`[clock] late_stamp_fraction`,
+    /// default 0), on top of the jitter.
+    pub late_stamp_fraction: f64,
+    /// How late such a stamp can be, seconds (`[clock] late_stamp_max_s`): each late
+    /// stamp is a uniform draw from zero to this.
+    pub late_stamp_max_s: f64,
     /// Fraction of beacons lost, `0 ≤ loss < 1`.
     pub loss_fraction: f64,
     /// Largest pairwise phase difference at power-up, seconds.
@@ -997,6 +1005,37 @@ fn check(loc: &Locator<'_>, raw: RawScenario) -> Result<Scenario, ScenarioError>
         }
         None => (0.0, None, 0.0),
     };
+    let late_stamp_fraction = match raw
+        .clock
+        .as_ref()
+        .and_then(|c| c.get_ref().late_stamp_fraction.as_ref())
+    {
+        Some(v) => real_in(
+            loc,
+            v,
+            "clock.late_stamp_fraction",
+            |v| (0.0..0.5).contains(&v),
+            "from 0 to below 0.5",
+        )?,
+        None => 0.0,
+    };
+    let late_stamp_max_s = match raw
+        .clock
+        .as_ref()
+        .and_then(|c| c.get_ref().late_stamp_max_s.as_ref())
+    {
+        Some(v) => real_in(
+            loc,
+            v,
+            "clock.late_stamp_max_s",
+            |v| v >= 0.0 && v * update_rate_hz <= 0.25,
+            &format!(
+                "from 0 to a quarter of the update interval ({} s)",
+                0.25 / update_rate_hz
+            ),
+        )?,
+        None => 0.0,
+    };
     // Link.
     let latency_ok = |v: f64| v >= 0.0 && v * update_rate_hz < MAX_LATENCY_UPDATES + 1.0;
     let latency_valid = format!(
@@ -1195,6 +1234,8 @@ fn check(loc: &Locator<'_>, raw: RawScenario) -> Result<Scenario, ScenarioError>
         beacon_version,
         stamping,
         trim_leak,
+        late_stamp_fraction,
+        late_stamp_max_s,
         loss_fraction,
         initial_spread_s,
         lock_tolerance_s,

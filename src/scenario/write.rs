@@ -118,6 +118,14 @@ impl Scenario {
             let _ = writeln!(s, "crystal_ppm = [{}]", list.join(", "));
         }
         let _ = writeln!(s, "timestamp_jitter_s = {}", real(self.timestamp_jitter_s));
+        if self.late_stamp_fraction > 0.0 {
+            let _ = writeln!(
+                s,
+                "late_stamp_fraction = {}",
+                real(self.late_stamp_fraction)
+            );
+            let _ = writeln!(s, "late_stamp_max_s = {}", real(self.late_stamp_max_s));
+        }
         let _ = writeln!(
             s,
             "stamping = \"{}\"",

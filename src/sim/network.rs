@@ -179,6 +179,8 @@ pub struct Network<const N: usize> {
     /// Uniform latency in lock-step (whole ticks).
     latency_ticks: u32,
     ts_jitter: u32,
+    /// Late stamps: probability per reception and the largest lateness, ticks.
+    late_stamps: (f64, u32),
     stamping: Stamping,
     two_way: bool,
     success_prob: f64,
@@ -329,6 +331,7 @@ impl<const N: usize> Network<N> {
             && scenario.schedule.jitter_ticks == 0
             && ppm.iter().all(|&e| e == 0.0)
             && b.timestamp_jitter_ticks == 0
+            && b.late_stamp_fraction == 0.0
             && u64::from(b.latency_ticks) < update_ticks
             && b.uniform_latency()
             && b.latency_known
@@ -376,6 +379,7 @@ impl<const N: usize> Network<N> {
             jitter_ticks: scenario.schedule.jitter_ticks,
             latency_ticks: scenario.beacons.latency_ticks,
             ts_jitter: scenario.beacons.timestamp_jitter_ticks,
+            late_stamps: (b.late_stamp_fraction, b.late_stamp_max_ticks),
             stamping: b.stamping,
             two_way: b.two_way,
             success_prob: scenario.beacons.success_prob,
@@ -710,7 +714,7 @@ impl<const N: usize> Network<N> {
             if !rx.alive {
                 continue;
             }
-            let arrive = t + out.latency_sub;
+            let mut arrive = t + out.latency_sub;
             self.stats.beacons_sent += 1;
             let success = self
                 .slot_success
@@ -720,6 +724,12 @@ impl<const N: usize> Network<N> {
             if success < 1.0 && self.rng.random::<f64>() >= success {
                 self.stats.beacons_lost += 1;
                 continue;
+            }
+            // A stall at the receiver: the frame is taken, and stamped, late (at most a
+            // quarter update interval, so never after the link's next frame).
+            let (late_p, late_max) = self.late_stamps;
+            if late_p > 0.0 && self.rng.random::<f64>() < late_p {
+                arrive += u64::from(self.rng.random_range(0..=late_max)) * SUB;
             }
             let mut rx_ticks = rx.timer.stamp_at(arrive, self.stamping) as u32;
             if self.ts_jitter > 0 {

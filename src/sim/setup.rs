@@ -295,6 +295,15 @@ pub struct Beacons {
     /// The receiver's reception timestamp is off by a uniform draw from
     /// `[−timestamp_jitter_ticks, +timestamp_jitter_ticks]` ticks, unknown to it.
     pub timestamp_jitter_ticks: u32,
+    /// Probability that a reception is taken late by a stall at the receiver (an
+    /// interrupt held off, a busy bus, a descheduled emulator), `0 ≤ p < 1`,
+    /// independent per reception: the frame is taken, and stamped, that much later, and
+    /// serves the first update after it.
+    pub late_stamp_fraction: f64,
+    /// How late such a reception is: a uniform draw from `[0, late_stamp_max_ticks]`
+    /// nominal ticks, at most a quarter of the update interval (so a late frame never
+    /// overtakes the link's next one).
+    pub late_stamp_max_ticks: u32,
     /// Probability that one beacon reaches one neighbour, `0 < p ≤ 1`, independent per
     /// beacon and neighbour.
     pub success_prob: f64,
@@ -310,6 +319,8 @@ impl Beacons {
         two_way: false,
         stamping: Stamping::Nearest,
         timestamp_jitter_ticks: 0,
+        late_stamp_fraction: 0.0,
+        late_stamp_max_ticks: 0,
         success_prob: 1.0,
     };
 
@@ -475,6 +486,15 @@ impl Setup {
         }
         if self.beacons.timestamp_jitter_ticks > i32::MAX as u32 / 2 {
             return Err(invalid("timestamp_jitter_ticks", "at most 1073741823"));
+        }
+        if !(self.beacons.late_stamp_fraction >= 0.0 && self.beacons.late_stamp_fraction < 1.0) {
+            return Err(invalid("late_stamp_fraction", "at least 0 and below 1"));
+        }
+        if u64::from(self.beacons.late_stamp_max_ticks) * 4 > u64::from(update) {
+            return Err(invalid(
+                "late_stamp_max_ticks",
+                "at most a quarter of the update interval",
+            ));
         }
         if self.beacons.latency_ticks > i32::MAX as u32 / 2 {
             return Err(invalid("latency_ticks", "at most 1073741823"));

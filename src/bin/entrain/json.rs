@@ -87,6 +87,8 @@ fn scenario_json(s: &Scenario) -> Value {
             entrain::sim::Stamping::CompletedTicks => "completed_ticks",
             entrain::sim::Stamping::Nearest => "nearest",
         },
+        "late_stamp_fraction": num(s.late_stamp_fraction),
+        "late_stamp_max_s": num(s.late_stamp_max_s),
         "trim_leak": opt(s.trim_leak),
         "delay_updates": s.delay_updates(),
         "loss_fraction": num(s.loss_fraction),

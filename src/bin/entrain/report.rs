@@ -273,11 +273,20 @@ fn figures(s: &mut String, r: &Assessment) {
         ),
         "",
     );
+    let late = if sc.late_stamp_fraction > 0.0 {
+        format!(
+            ", {:.1} % of stamps late by up to {}",
+            sc.late_stamp_fraction * 100.0,
+            seconds(sc.late_stamp_max_s)
+        )
+    } else {
+        String::new()
+    };
     row(
         s,
         "link",
         &format!(
-            "latency {} ({:.2} updates), loss {:.1} %, timestamp jitter ±{}",
+            "latency {} ({:.2} updates), loss {:.1} %, timestamp jitter ±{}{late}",
             seconds(sc.latency_s),
             sc.latency_s * sc.update_rate_hz,
             sc.loss_fraction * 100.0,

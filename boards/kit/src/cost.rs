@@ -1,16 +1,24 @@
 //! Instructions per [`Node::update`], counted under `-icount shift=0`.
 //!
-//! For each law and for 1, 2 and 4 neighbours, two loops of the same length run: one
-//! that only hands the node its neighbours' observations, and one that also calls
-//! `update`. The difference, divided by the iterations, is what one update costs in
-//! context (advance, eviction check, the neighbour loop, the PI step, the trim update).
-//! Both loops hand over observations stamped one update interval after the node's own
-//! clock, so `observe` takes the same (accepting) path in both and cancels; a loop whose
-//! node never advanced would see its observations refused as from the future after the
-//! timeout, cheaply, and leave the accepted `observe` inside the update figure.
-//! The A/A line runs the bare loop against itself (two textually identical loops) and
-//! prints their difference per update: the harness's own bias, zero when code placement
-//! does not move the counts.
+//! For each law and for 1, 2 and 4 neighbours, one loop runs twice, 1,000 iterations
+//! each, on a fresh node: every iteration hands the node its neighbours' observations,
+//! then calls a body through a function pointer, an empty function in the bare arm and
+//! one that calls `update` in the measured arm. The difference, divided by the
+//! iterations, is what one update costs beyond a call to an empty function (advance,
+//! eviction check, the neighbour loop, the PI step, the trim update, and the call's own
+//! entry and exit less the empty function's). Both arms run the same machine
+//! code: the loop is one `#[inline(never)]` function and only the pointer it is given
+//! differs, so code placement and register allocation cannot differ between them (they
+//! did when each arm was its own loop: two textually identical loops differed by up to
+//! 10 instructions per update on the M4F). Observations are stamped one update interval
+//! after the node's own clock ([`Node::now_ticks`]), so `observe` takes the same
+//! (accepting) path in both arms and cancels, though the bare node never advances.
+//! The A/A line runs the bare arm against itself and prints the difference per update,
+//! the harness's own bias; a second line runs the bare arm on a node the measured arm
+//! has driven against a fresh node, whether `observe` costs the same on both arms'
+//! nodes. Both are zero up to SysTick's resolution (one tick is 40 instructions on the
+//! M4F, 62.5 on the M0, so each arm is read to within one tick, 0.04 or 0.06 per update
+//! over 1,000 iterations), so nothing is subtracted from the figures.
 //! Differences are spread over the whole circle (16 fixed values), so every branch of
 //! every law is taken; the slew limit is set out of reach so the integral step always
 //! runs (the dearer path).
@@ -67,59 +75,86 @@ fn hand_over(node: &mut Node<4>, k: usize, i: u32, rx_ticks: u32) {
     }
 }
 
-/// Ticks of `iterations` updates with `k` neighbours (loop with updates minus loop
-/// without).
+/// What an iteration does after the hand-over, given the node and the stamp.
+type Body = fn(&mut Node<4>, u32);
+
+/// The bare arm's body: nothing.
+fn idle(_node: &mut Node<4>, _now_ticks: u32) {}
+
+/// The measured arm's body: one update at the stamp.
+fn update(node: &mut Node<4>, now_ticks: u32) {
+    black_box(node.update(now_ticks));
+}
+
+/// Ticks of `iterations` iterations of the one measurement loop on `node`: hand over
+/// `k` observations stamped one update interval after the node's clock, then call
+/// `body` with that stamp. Never inlined, and `body` is hidden from the optimiser, so
+/// every arm runs this same machine code.
+#[inline(never)]
+fn run(
+    counter: &InstructionCounter,
+    node: &mut Node<4>,
+    k: usize,
+    iterations: u32,
+    body: Body,
+) -> u32 {
+    let step = node.config().update_ticks();
+    let start = counter.now();
+    for i in 0..iterations {
+        let now = node.now_ticks().wrapping_add(step);
+        hand_over(node, k, i, now);
+        body(node, now);
+    }
+    let end = counter.now();
+    InstructionCounter::ticks(start, end)
+}
+
+/// The loop's bare arm (empty body), `iterations` long, on `node`.
+fn bare(counter: &InstructionCounter, node: &mut Node<4>, k: usize, iterations: u32) -> u32 {
+    run(counter, node, k, iterations, black_box(idle as Body))
+}
+
+/// The loop's measured arm (one update per iteration), `iterations` long, on `node`.
+fn measured(counter: &InstructionCounter, node: &mut Node<4>, k: usize, iterations: u32) -> u32 {
+    run(counter, node, k, iterations, black_box(update as Body))
+}
+
+/// A node for `law` at phase zero and tick 0.
+fn fresh(law: Law) -> Option<Node<4>> {
+    Some(Node::new(config(law)?, Phase::ZERO, 0))
+}
+
+/// Ticks of `iterations` updates with `k` neighbours (the loop calling `update` minus
+/// the same loop calling an empty function, each on a fresh node).
 pub fn update_ticks(
     counter: &InstructionCounter,
     law: Law,
     k: usize,
     iterations: u32,
 ) -> Option<u32> {
-    let config = config(law)?;
-    let step = config.update_ticks();
-    let mut bare: Node<4> = Node::new(config, Phase::ZERO, 0);
-    let mut node: Node<4> = Node::new(config, Phase::ZERO, 0);
-    let start = counter.now();
-    for i in 0..iterations {
-        // The bare node stays at tick 0: stamps one interval ahead, as the other loop's.
-        hand_over(&mut bare, k, i, black_box(step));
-        black_box(&mut bare);
-    }
-    let mid = counter.now();
-    let mut now = 0u32;
-    for i in 0..iterations {
-        now = now.wrapping_add(step);
-        hand_over(&mut node, k, i, now);
-        black_box(node.update(black_box(now)));
-    }
-    let end = counter.now();
-    let without = InstructionCounter::ticks(start, mid);
-    let with = InstructionCounter::ticks(mid, end);
+    let without = bare(counter, &mut fresh(law)?, k, iterations);
+    let with = measured(counter, &mut fresh(law)?, k, iterations);
     Some(with.saturating_sub(without))
 }
 
-/// Ticks of the bare loop (observations only) minus a second, textually identical bare
-/// loop, `iterations` each, with `k` neighbours: the harness's A/A difference (may be
-/// negative).
+/// Ticks of the bare arm minus the bare arm again, each on a fresh node, `iterations`
+/// each, with `k` neighbours: the harness's A/A difference (may be negative).
 pub fn aa_ticks(counter: &InstructionCounter, k: usize, iterations: u32) -> Option<i64> {
-    let config = config(Law::Sine)?;
-    let step = config.update_ticks();
-    let mut a: Node<4> = Node::new(config, Phase::ZERO, 0);
-    let mut b: Node<4> = Node::new(config, Phase::ZERO, 0);
-    let start = counter.now();
-    for i in 0..iterations {
-        hand_over(&mut a, k, i, black_box(step));
-        black_box(&mut a);
-    }
-    let mid = counter.now();
-    for i in 0..iterations {
-        hand_over(&mut b, k, i, black_box(step));
-        black_box(&mut b);
-    }
-    let end = counter.now();
-    let first = i64::from(InstructionCounter::ticks(start, mid));
-    let second = i64::from(InstructionCounter::ticks(mid, end));
-    Some(second - first)
+    let first = bare(counter, &mut fresh(Law::Sine)?, k, iterations);
+    let second = bare(counter, &mut fresh(Law::Sine)?, k, iterations);
+    Some(i64::from(second) - i64::from(first))
+}
+
+/// Ticks of the bare arm on a node that the measured arm has driven for `iterations`
+/// updates (advanced clock, phase, trim) minus the bare arm on a fresh node: whether
+/// `observe` costs the same on the measured arm's node as on the bare arm's, the one
+/// thing besides the body that differs between the arms (may be negative).
+pub fn driven_ticks(counter: &InstructionCounter, k: usize, iterations: u32) -> Option<i64> {
+    let mut driven = fresh(Law::Sine)?;
+    measured(counter, &mut driven, k, iterations);
+    let on_fresh = bare(counter, &mut fresh(Law::Sine)?, k, iterations);
+    let on_driven = bare(counter, &mut driven, k, iterations);
+    Some(i64::from(on_driven) - i64::from(on_fresh))
 }
 
 /// `x / 2^16` with one decimal, as text parts.
@@ -249,17 +284,24 @@ pub fn print_table(counter: &mut InstructionCounter, core: &str, goals: &Goals) 
         goals.fixed,
         goals.per_neighbour
     );
-    let mut aa = [0i64; 3];
-    for (slot, &k) in aa.iter_mut().zip(NEIGHBOURS.iter()) {
-        let ticks = aa_ticks(counter, k, ITERATIONS).unwrap_or(0);
+    let per_update = |ticks: i64| {
         let q16 = counter.instructions_q16(ticks.unsigned_abs()) as i64;
-        *slot = if ticks < 0 { -q16 } else { q16 } / i64::from(ITERATIONS);
-    }
+        (if ticks < 0 { -q16 } else { q16 }) / i64::from(ITERATIONS)
+    };
+    let aa = NEIGHBOURS.map(|k| per_update(aa_ticks(counter, k, ITERATIONS).unwrap_or(0)));
     hprintln!(
-        "A/A (bare loop against itself, per update): {} {} {}",
+        "A/A (bare arm against itself, same loop code, per update): {} {} {}",
         Tenths(aa[0]),
         Tenths(aa[1]),
         Tenths(aa[2])
+    );
+    let driven = NEIGHBOURS.map(|k| per_update(driven_ticks(counter, k, ITERATIONS).unwrap_or(0)));
+    hprintln!(
+        "bare arm on a node driven by {} updates against a fresh node (per update): {} {} {}",
+        ITERATIONS,
+        Tenths(driven[0]),
+        Tenths(driven[1]),
+        Tenths(driven[2])
     );
     for (&(_, _, key), &(fixed, slope)) in laws().iter().zip(lines.iter()) {
         hprintln!(

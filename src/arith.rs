@@ -6,12 +6,18 @@
 //! integral gain per tick), so they are built here from two 32 × 32 → 64-bit products.
 //! Every function gives exactly the bits of the `u128` arithmetic it replaces; the tests
 //! below hold each one against that arithmetic.
+//!
+//! On a 64-bit target a `u128` product is one instruction, and the pieces' branches only
+//! cost time there, so [`mul_64_32`] and [`mul_q16_round`] take the `u128` form on such
+//! targets and the 32-bit pieces elsewhere. The pieces are compiled for the tests on
+//! every target, so the host checks the arithmetic the small cores run.
 
 /// `a · b`, exact. Armv6-M (Cortex-M0/M0+/M1) has only a 32-bit multiply, and a 64-bit
 /// product there is a library call of about forty instructions: the four 16 × 16-bit
 /// products, inline, take about half. Other targets multiply natively.
+#[cfg(any(test, not(target_pointer_width = "64")))]
 #[inline(always)]
-pub(crate) const fn mul_32_32(a: u32, b: u32) -> u64 {
+const fn mul_32_32(a: u32, b: u32) -> u64 {
     #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
     {
         mul_32_32_halves(a, b)
@@ -36,9 +42,26 @@ const fn mul_32_32_halves(a: u32, b: u32) -> u64 {
     ((high as u64) << 32) | low as u64
 }
 
-/// `a · b` as a 96-bit value: `(low 64 bits, high 32 bits)`, exact.
-#[inline]
+/// `a · b` as a 96-bit value: `(low 64 bits, high 32 bits)`, exact: the `u128` product
+/// on 64-bit targets, [`mul_64_32_pieces`] on others.
+#[inline(always)]
 pub(crate) const fn mul_64_32(a: u64, b: u32) -> (u64, u32) {
+    #[cfg(target_pointer_width = "64")]
+    {
+        let p = a as u128 * b as u128;
+        // a·b < 2^96: the high word fits 32 bits.
+        (p as u64, (p >> 64) as u32)
+    }
+    #[cfg(not(target_pointer_width = "64"))]
+    {
+        mul_64_32_pieces(a, b)
+    }
+}
+
+/// [`mul_64_32`] from 32 × 32 → 64-bit products.
+#[cfg(any(test, not(target_pointer_width = "64")))]
+#[inline]
+const fn mul_64_32_pieces(a: u64, b: u32) -> (u64, u32) {
     // A factor that fits 32 bits (a sum of pulls near lock, a modest trim) takes one
     // product.
     if a >> 32 == 0 {
@@ -53,9 +76,10 @@ pub(crate) const fn mul_64_32(a: u64, b: u32) -> (u64, u32) {
 }
 
 /// `min((a · b + 2^15) >> 16, i64::MAX)` for `b < 2^32`, exact.
+#[cfg(any(test, not(target_pointer_width = "64")))]
 #[inline]
 const fn mul_q16_round_32(a: u64, b: u32) -> u64 {
-    let (low, high) = mul_64_32(a, b);
+    let (low, high) = mul_64_32_pieces(a, b);
     let (low, carry) = low.overflowing_add(1 << 15);
     // a·b + 2^15 < 2^96: the high word cannot overflow.
     let high = high + carry as u32;
@@ -67,10 +91,25 @@ const fn mul_q16_round_32(a: u64, b: u32) -> u64 {
     }
 }
 
-/// `min((a · b + 2^15) >> 16, i64::MAX)`, exact: the 96-bit path when either factor fits
-/// 32 bits, a `u128` product otherwise.
-#[inline]
+/// `min((a · b + 2^15) >> 16, i64::MAX)`, exact: the `u128` product on 64-bit targets,
+/// [`mul_q16_round_pieces`] on others.
+#[inline(always)]
 pub(crate) const fn mul_q16_round(a: u64, b: u64) -> u64 {
+    #[cfg(target_pointer_width = "64")]
+    {
+        mul_q16_round_u128(a, b)
+    }
+    #[cfg(not(target_pointer_width = "64"))]
+    {
+        mul_q16_round_pieces(a, b)
+    }
+}
+
+/// [`mul_q16_round`]: the 96-bit path when either factor fits 32 bits, a `u128` product
+/// otherwise.
+#[cfg(any(test, not(target_pointer_width = "64")))]
+#[inline]
+const fn mul_q16_round_pieces(a: u64, b: u64) -> u64 {
     if b <= u32::MAX as u64 {
         mul_q16_round_32(a, b as u32)
     } else if a <= u32::MAX as u64 {
@@ -80,10 +119,17 @@ pub(crate) const fn mul_q16_round(a: u64, b: u64) -> u64 {
     }
 }
 
-/// [`mul_q16_round`] with a `u128` product, for any factors (out of line: rarely taken,
-/// and long on a 32-bit core).
+/// [`mul_q16_round`] with a `u128` product, for any factors (out of line on 32-bit
+/// targets: rarely taken there, and long).
+#[cfg(any(test, not(target_pointer_width = "64")))]
 #[inline(never)]
 const fn mul_q16_round_wide(a: u64, b: u64) -> u64 {
+    mul_q16_round_u128(a, b)
+}
+
+/// [`mul_q16_round`] with a `u128` product, inline.
+#[inline(always)]
+const fn mul_q16_round_u128(a: u64, b: u64) -> u64 {
     let mag = (a as u128 * b as u128 + (1 << 15)) >> 16;
     if mag > i64::MAX as u128 {
         i64::MAX as u64
@@ -150,18 +196,22 @@ mod tests {
         for a in EDGES {
             for b in EDGES {
                 let b32 = b as u32;
-                assert_eq!(mul_64_32(a, b32), mul_wide(a, b32), "{a} × {b32}");
-                assert_eq!(mul_q16_round(a, b), mul_q16_round_wide(a, b), "{a} × {b}");
+                assert_eq!(mul_64_32_pieces(a, b32), mul_wide(a, b32), "{a} × {b32}");
+                assert_eq!(
+                    mul_q16_round_pieces(a, b),
+                    mul_q16_round_wide(a, b),
+                    "{a} × {b}"
+                );
             }
         }
         // The saturation threshold: a·b + 2^15 just below and at 2^79.
         let a = 1u64 << 47;
         assert_eq!(
-            mul_q16_round(a, (1 << 32) - 1),
+            mul_q16_round_pieces(a, (1 << 32) - 1),
             mul_q16_round_wide(a, (1 << 32) - 1)
         );
-        assert_eq!(mul_q16_round(a, 1 << 32), i64::MAX as u64);
-        assert_eq!(mul_q16_round((1 << 63) - 1, 1 << 16), (1 << 63) - 1);
+        assert_eq!(mul_q16_round_pieces(a, 1 << 32), i64::MAX as u64);
+        assert_eq!(mul_q16_round_pieces((1 << 63) - 1, 1 << 16), (1 << 63) - 1);
     }
 
     proptest! {
@@ -174,7 +224,7 @@ mod tests {
         fn mul_64_32_is_the_u128_product(a in any::<u64>(), b in any::<u32>(), shift in 0u32..64) {
             // Shifted, `a` takes the one-product path below 2^32 as often as the other.
             let a = a >> shift;
-            prop_assert_eq!(mul_64_32(a, b), mul_wide(a, b));
+            prop_assert_eq!(mul_64_32_pieces(a, b), mul_wide(a, b));
         }
 
         #[test]
@@ -186,7 +236,7 @@ mod tests {
         ) {
             // Shifted operands cover every magnitude, not only those near 2^64.
             let (a, b) = (a >> shift_a, b >> shift_b);
-            prop_assert_eq!(mul_q16_round(a, b), mul_q16_round_wide(a, b));
+            prop_assert_eq!(mul_q16_round_pieces(a, b), mul_q16_round_wide(a, b));
         }
     }
 }

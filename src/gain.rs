@@ -75,7 +75,7 @@ impl Gain {
     pub const fn apply(self, x: i64) -> i64 {
         let neg = x < 0;
         // min(|x|·g + 2^15, u64::MAX) >> 16, as a saturating multiply then a saturating
-        // add give it, from two 32-bit products (a Q16 gain fits 32 bits).
+        // add give it, from a 96-bit product (a Q16 gain fits 32 bits).
         let (low, high) = mul_64_32(x.unsigned_abs(), self.0);
         let mag = if high != 0 { u64::MAX } else { low };
         let rounded = mag.saturating_add(1 << (GAIN_FRAC_BITS - 1)) >> GAIN_FRAC_BITS;
@@ -115,7 +115,9 @@ mod tests {
         assert_eq!(Gain::MAX.apply(i64::MIN), -((u64::MAX >> 16) as i64));
     }
 
-    /// `apply` as a `u64` saturating multiply and add, the arithmetic it replaces.
+    /// `apply` as a `u64` saturating multiply and add, the arithmetic it replaces. (On a
+    /// 64-bit host `apply` takes the `u128` product; the 32-bit pieces the small cores use
+    /// instead are held against that product in `arith`'s tests.)
     fn apply_saturating(g: Gain, x: i64) -> i64 {
         let mag = x.unsigned_abs().saturating_mul(u64::from(g.0));
         let rounded = (mag.saturating_add(1 << 15) >> 16) as i64;

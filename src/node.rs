@@ -713,8 +713,9 @@ impl<const N: usize> Node<N> {
 }
 
 /// `round(x · k / 2^16)`, ties away from zero (odd in `x`), saturating. Out of line for
-/// the weights and the leak: inlined at every use it would cost hundreds of bytes.
-#[inline(never)]
+/// the weights and the leak on 32-bit targets: inlined at every use it would cost hundreds
+/// of bytes there. On 64-bit targets it is a few instructions, left to the compiler.
+#[cfg_attr(not(target_pointer_width = "64"), inline(never))]
 const fn mul_q16_sym(x: i64, k: i64) -> i64 {
     mul_q16_sym_inline(x, k)
 }

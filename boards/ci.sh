@@ -166,23 +166,6 @@ stalled_ms() {
              v = $(i - 2); gsub(/[(]/, "", v); if (v + 0 > m) m = v + 0 } }
          END { print int(m / 1000) }' "$1"
 }
-# A run the host stalled (over 50 ms lost on some node) judges the host, not the law:
-# it is printed and the chain runs once more; a second failure, or any failure without
-# a stall, fails CI.
-for attempt in 1 2; do
-    p_status=0
-    KI_Q16=0 LOG_DIR=$chain_logs/p "$here/run-chain.sh" "$m4/chain" >"$chain_logs/p-run.txt" 2>&1 ||
-        p_status=$?
-    cat "$chain_logs/p-run.txt"
-    (( p_status == 0 )) && break
-    lost_ms=$(stalled_ms "$chain_logs/p-run.txt")
-    if (( attempt == 1 && lost_ms > 50 )); then
-        echo "chain: the host stalled the emulated nodes (up to $lost_ms ms lost in that run): running the P chain once more"
-        continue
-    fi
-    exit "$p_status"
-done
-
 # Every node's telemetry lines against the scenario of the chain as it runs (five nodes:
 # with another NODES the scenario does not describe the chain, and the check is skipped).
 # The checker exits 1 on a failing verdict, which field-summary.py reads from the JSON;
@@ -202,12 +185,33 @@ field_check() {
     "$entrain" field "$here/$scenario" "$logs"/node-*.log >"$logs/field.txt" || true
     python3 "$here/field-summary.py" "$@" <"$logs/field.json"
 }
-step "field check of the P chain's telemetry against boards/chain-p.toml"
-# The decay fitted from the emulated links' noisy stamps is noisy too: 0.805 to 0.937
-# per update against 0.909 predicted in nine runs; the slowest, on a run with a high noise
-# floor, is just inside the 1.5 times allowed (see README.md, "The field check"). A
-# `slower_than_predicted` is printed, not gating.
-field_check chain-p.toml "$chain_logs/p" --gate 5 --allow slower_than_predicted
+# A run the host stalled (over 50 ms lost on some node) judges the host, not the law:
+# it is printed and the chain runs once more, with its field check; a second failure, or
+# any failure without a stall, fails CI. The field check is inside the repeat because a
+# stall shows there too (a run that passed its own phase check with 7.1 ms of noise at
+# the 99th percentile, against a 9.85 ms limit, on a host losing 0.1 to 0.25 s a run).
+for attempt in 1 2; do
+    p_status=0
+    KI_Q16=0 LOG_DIR=$chain_logs/p "$here/run-chain.sh" "$m4/chain" >"$chain_logs/p-run.txt" 2>&1 ||
+        p_status=$?
+    cat "$chain_logs/p-run.txt"
+    if (( p_status == 0 )); then
+        step "field check of the P chain's telemetry against boards/chain-p.toml"
+        # The decay fitted from the emulated links' noisy stamps is noisy too: 0.805 to
+        # 0.937 per update against 0.909 predicted in nine runs; the slowest, on a run
+        # with a high noise floor, is just inside the 1.5 times allowed (see README.md,
+        # "The field check"). A `slower_than_predicted` is printed, not gating.
+        field_check chain-p.toml "$chain_logs/p" --gate 5 --allow slower_than_predicted ||
+            p_status=$?
+        (( p_status == 0 )) && break
+    fi
+    lost_ms=$(stalled_ms "$chain_logs/p-run.txt")
+    if (( attempt == 1 && lost_ms > 50 )); then
+        echo "chain: the host stalled the emulated nodes (up to $lost_ms ms lost in that run): running the P chain and its field check once more"
+        continue
+    fi
+    exit "$p_status"
+done
 
 # The PI law over the same links (issue 12): reported; it gates only with
 # CHAIN_PI_GATES=1, because on a loaded 2-core host the emulated links' jitter moves

@@ -219,7 +219,7 @@ done
 step "chain of emulated nodes, PI law with a trim leak, version-2 beacons, no latency told"
 pi_status=0
 KI_Q16=${CHAIN_KI_Q16:-128} SMOOTHING=${CHAIN_SMOOTHING:-5} RUN_MS=${CHAIN_PI_RUN_MS:-60000} \
-    LOG_DIR=$chain_logs/pi "$here/run-chain.sh" "$m4/chain" || pi_status=$?
+    REFERENCE=${CHAIN_PI_REFERENCE:-} LOG_DIR=$chain_logs/pi "$here/run-chain.sh" "$m4/chain" || pi_status=$?
 # The PI chain's field report, printed, not gating (issue 12).
 step "field check of the PI chain's telemetry against boards/chain-pi.toml (reported only)"
 field_check chain-pi.toml "$chain_logs/pi" || true

@@ -26,7 +26,8 @@
 #              default 3), SLEW_US (slew limit, us per update, default 62500),
 #              TRIM_LIMIT_PPM (default 200), BASE_PORT, TELEMETRY_EVERY (default 1;
 #              0: no telemetry lines), LOG_DIR (where the per-node telemetry logs go;
-#              default: not kept).
+#              default: not kept), REFERENCE (a node index: that node never steers, so
+#              the chain's common rate is its crystal's; default: none).
 set -euo pipefail
 
 here=$(cd "$(dirname "$0")" && pwd)
@@ -46,6 +47,7 @@ trim_tol_ppm=${TRIM_TOL_PPM:-5}
 delay_us=${DELAY_US:-0}
 telemetry_every=${TELEMETRY_EVERY:-1}
 log_dir=${LOG_DIR:-}
+reference=${REFERENCE:-}
 if (( ki_q16 > 0 )); then law=PI; else law=P; fi
 base=${BASE_PORT:-$((20000 + $$ % 20000))}
 # Crystal errors, ppm: invented, within a ±100 ppm part (common practice, no source).
@@ -111,7 +113,7 @@ for (( i = 0; i < nodes; i++ )); do
     timeout "$limit_s" qemu-system-arm -machine mps2-an386 -cpu cortex-m4 \
         -nographic -monitor none -semihosting-config enable=on,target=native \
         -serial "$left" -serial "$right" -kernel "$elf" \
-        -append "node=$i nodes=$nodes ppm=${ppm[$i]} delay=$delay_us run_ms=$run_ms tol_us=$tol_us kp_q16=$kp_q16 ki_q16=$ki_q16 leak_q16=$leak_q16 version=$version smoothing=$smoothing trim_limit_ppm=$trim_limit_ppm slew_us=$slew_us telemetry=$telemetry_every" \
+        -append "node=$i nodes=$nodes ppm=${ppm[$i]} delay=$delay_us run_ms=$run_ms tol_us=$tol_us kp_q16=$kp_q16 ki_q16=$ki_q16 leak_q16=$leak_q16 version=$version smoothing=$smoothing trim_limit_ppm=$trim_limit_ppm slew_us=$slew_us telemetry=$telemetry_every reference=$([[ $reference == "$i" ]] && echo 1 || echo 0)" \
         >"$logs/node$i.log" 2>&1 &
     pids+=("$!")
     if (( i < nodes - 1 )); then

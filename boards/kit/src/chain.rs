@@ -8,8 +8,9 @@
 //! and 0: the P law), `version=` (the beacon frame version sent, 1 or 2; default 2),
 //! `smoothing=` (the node's delay smoothing shift, default 3), `trim_limit_ppm=`
 //! (default 200), `slew_us=` (the slew limit, µs of phase per update; default 62,500,
-//! the law's default of 1/16 turn) and `telemetry=K` (a telemetry line every K updates,
-//! default 1; 0: none).
+//! the law's default of 1/16 turn), `telemetry=K` (a telemetry line every K updates,
+//! default 1; 0: none) and `reference=1` (the node beacons and echoes but never steers:
+//! no update, trim 0, so the chain's common rate is its crystal's; default 0).
 //! UART0 is the link to node I−1, UART1 the link to node I+1 (the script gives the end
 //! nodes a null line on the missing side).
 //!
@@ -49,7 +50,7 @@ use cortex_m::peripheral::syst::SystClkSource;
 use cortex_m::peripheral::{NVIC, SCB, SYST};
 use cortex_m_semihosting::{hprint, hprintln};
 use entrain::beacon::{BeaconPort, FrameVersion, MAX_FRAME_LEN};
-use entrain::{Config, Gain, Law, Node, NodeId, Phase};
+use entrain::{Config, Gain, Law, Node, NodeId, Phase, UpdateReport};
 
 /// Core clock of the mps2-an386, Hz.
 const CORE_HZ: u32 = 25_000_000;
@@ -172,6 +173,8 @@ struct Args {
     trim_limit_ppm: u32,
     slew_us: u32,
     telemetry_every: u32,
+    /// A reference node: it beacons and echoes but never steers (no update, trim 0).
+    reference: bool,
 }
 
 fn args() -> Option<Args> {
@@ -195,6 +198,7 @@ fn args() -> Option<Args> {
         trim_limit_ppm: u32::try_from(num("trim_limit_ppm", Some(200))?).ok()?,
         slew_us: u32::try_from(num("slew_us", Some(62_500))?).ok()?,
         telemetry_every: u32::try_from(num("telemetry", Some(1))?).ok()?,
+        reference: num("reference", Some(0))? != 0,
     })
 }
 
@@ -419,7 +423,14 @@ pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
                     }
                 }
             }
-            let report = port.node_mut().update(now);
+            // A reference keeps its own clock: it runs to the update instant and beacons,
+            // but takes no step and integrates no trim.
+            let report = if a.reference {
+                port.node_mut().advance_to(now);
+                UpdateReport::default()
+            } else {
+                port.node_mut().update(now)
+            };
             telemetry.clear();
             if a.telemetry_every > 0 && updates.is_multiple_of(a.telemetry_every) {
                 // Formatted now, from the state the update left; written after the
@@ -443,7 +454,7 @@ pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
                 trim_n = trim_n.wrapping_add(1);
                 worst_update_diff = worst_update_diff.max(report.largest_diff);
                 let want = u8::from(expect_left) + u8::from(expect_right);
-                if report.used < want {
+                if !a.reference && report.used < want {
                     short_updates = short_updates.wrapping_add(1);
                 }
             }

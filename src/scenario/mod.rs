@@ -1005,11 +1005,8 @@ fn check(loc: &Locator<'_>, raw: RawScenario) -> Result<Scenario, ScenarioError>
         }
         None => (0.0, None, 0.0),
     };
-    let late_stamp_fraction = match raw
-        .clock
-        .as_ref()
-        .and_then(|c| c.get_ref().late_stamp_fraction.as_ref())
-    {
+    let clock = raw.clock.as_ref().map(|c| c.get_ref());
+    let late_stamp_fraction = match clock.and_then(|c| c.late_stamp_fraction.as_ref()) {
         Some(v) => real_in(
             loc,
             v,
@@ -1019,11 +1016,7 @@ fn check(loc: &Locator<'_>, raw: RawScenario) -> Result<Scenario, ScenarioError>
         )?,
         None => 0.0,
     };
-    let late_stamp_max_s = match raw
-        .clock
-        .as_ref()
-        .and_then(|c| c.get_ref().late_stamp_max_s.as_ref())
-    {
+    let late_stamp_max_s = match clock.and_then(|c| c.late_stamp_max_s.as_ref()) {
         Some(v) => real_in(
             loc,
             v,

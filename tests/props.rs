@@ -399,6 +399,56 @@ fn a_slow_design_shrinks_to_the_shortest_chain_over_budget() {
 }
 
 #[test]
+fn the_forecast_is_skipped_only_where_the_bound_meets_the_budget() {
+    // P law, kp = 0.1, p90 budget of 10 s: short chains' worst-case bounds meet the
+    // budget, long chains' do not, while their forecast p90 still does. Skipping the
+    // forecast within the bound must leave every finding as it was.
+    let (_, mut base) = quick_firmware::<2>(6_554, 0, 200_000);
+    base.quantile = LockQuantile::Fraction(0.9);
+    let properties = [Property::Stable, Property::SettlesWithinBudget];
+    let skip = Effort::default();
+    assert!(skip.forecast_only_over_budget, "on by default");
+    let always = Effort {
+        forecast_only_over_budget: false,
+        ..skip
+    };
+    let (mut skipped, mut run) = (0, 0);
+    for n in [2, 4, 6, 8, 9, 10, 11, 12, 16] {
+        let mut s = base.clone();
+        s.layout = Layout::Topology(Topology::Chain { nodes: n });
+        let with = props::check::<2>(&s, &properties, &always);
+        let without = props::check::<2>(&s, &properties, &skip);
+        let (Ok(with), Ok(without)) = (&with, &without) else {
+            assert_eq!(
+                with.as_ref().err(),
+                without.as_ref().err(),
+                "chain of {n}: the findings must not depend on the skip"
+            );
+            continue;
+        };
+        let bound = with.prediction.settle.unwrap().bound_s;
+        assert!(with.prediction.forecast.is_some(), "chain of {n}");
+        assert_eq!(
+            without.prediction.forecast.is_none(),
+            bound <= s.lock_budget_s,
+            "chain of {n}: bound {bound} s"
+        );
+        if without.prediction.forecast.is_none() {
+            skipped += 1;
+            // The figure the budget rule compares is then the bound itself.
+            assert_eq!(without.prediction.lock_s, Some(bound));
+        } else {
+            run += 1;
+            assert_eq!(with.prediction.lock_s, without.prediction.lock_s);
+        }
+    }
+    assert!(
+        skipped > 0 && run > 0,
+        "both sides seen: {skipped} skipped, {run} run"
+    );
+}
+
+#[test]
 fn a_small_table_shrinks_to_the_smallest_star_that_overflows() {
     // A table of 2 neighbours: the smallest star with a hub of 3 neighbours has 4 nodes.
     let (_, base) = quick_firmware::<2>(26_214, 0, 200_000);

@@ -182,6 +182,13 @@ pub struct PredictEffort {
     /// ([`forecast::forecast_early_stop`]; its noise floor is then a low estimate). For
     /// quick property runs that read only the settling.
     pub forecast_early_stop: bool,
+    /// Skip the forecast when the planner's worst-case bound already meets the budget:
+    /// the verdict's budget rule then passes on the prediction's side without it (the
+    /// figure it compares is the bound, see [`SettlePrediction::compared_s`]), and the
+    /// prediction carries no forecast quantiles or noise floor. For quick property runs
+    /// that read only the budget rule; what it gives up is a forecast above the bound,
+    /// which is the bound failing (the simulation against the bound checks that).
+    pub forecast_only_over_budget: bool,
 }
 
 impl PredictEffort {
@@ -191,6 +198,7 @@ impl PredictEffort {
         horizon_factor: None,
         horizon_covers_bound: true,
         forecast_early_stop: false,
+        forecast_only_over_budget: false,
     };
 }
 
@@ -281,6 +289,7 @@ pub fn predict_with(
         * horizon_updates as f64;
     let samples = ((FORECAST_MAX_WORK / per_sample) as usize).min(effort.forecast_samples);
     let forecast = match bound_s {
+        Some(b) if effort.forecast_only_over_budget && b <= scenario.lock_budget_s => None,
         // The forecast steps a simulated setup: only within the simulation's node limit.
         Some(_)
             if samples >= FORECAST_MIN_SAMPLES

@@ -2,18 +2,18 @@
 //! pattern within ±50 ppm, 0 to 10 % loss, p90 lock within 60 s, on the real node code
 //! (feature `proptest`).
 //!
-//! `cargo run --release --features proptest --example props_speed [default|every|full]`
+//! `cargo run --release --features proptest --example props_speed [default|whole|full]`
 //! (a section's name runs that section alone)
 //!
 //! The constants are what `entrain check` passes for the longest chain (the file below,
 //! at the flashed Q16.16 gains), held fixed for every deployment. The effort is
 //! [`Effort::default`]: 4 runs, a 20-sample forecast (only where the planner's worst-case
-//! bound misses the budget) whose runs stop once settled deep inside the band, and a
-//! horizon of 1.25 × the budget per deployment; the same search with the forecast at
-//! every deployment follows as the baseline, then with full forecast runs, and the
-//! ratios are printed.
+//! bound misses the budget), a horizon of 1.25 × the budget per deployment, and every
+//! run, simulated or forecast, stopped once settled deep inside the band; the same search
+//! with the forecast at every deployment and the simulated runs taken to the horizon
+//! follows as a baseline, then that with full forecast runs, and the ratios are printed.
 
-use entrain::assess::{self, NetworkModel, Options};
+use entrain::assess::{self, NetworkModel, Options, PredictEffort};
 use entrain::props::{self, Deployments, Effort, Family, Firmware, Property};
 use entrain::scenario::Scenario;
 use std::path::Path;
@@ -51,7 +51,13 @@ fn main() {
     let vineyard =
         Scenario::from_toml(Path::new("vineyard.toml"), VINEYARD).expect("valid scenario");
     let network = NetworkModel::of(&vineyard).expect("a chain");
-    let p = assess::predict(&vineyard, &network, 0.2, 0.002).expect("a prediction");
+    // The constants only (no forecast): the gains rounded to what the node law takes.
+    let constants_only = PredictEffort {
+        forecast_samples: 0,
+        ..PredictEffort::FULL
+    };
+    let p = assess::predict_with(&vineyard, &network, 0.2, 0.002, constants_only)
+        .expect("a prediction");
     let firmware = Firmware::<2>::new(
         p.constants.config().expect("the node law takes them"),
         vineyard.timer_hz,
@@ -66,10 +72,11 @@ fn main() {
         Property::TableFits,
     ];
     let threads = rayon::current_num_threads();
-    // The default effort (the forecast only where the planner's bound misses the budget,
-    // its runs stopped once settled deep inside the band) and, in the same run, the two
-    // baselines: the forecast at every deployment, and with full forecast runs.
-    // One section alone when named (`default`, `every`, `full`), for timing one against
+    // The default effort (the forecast only where the planner's bound misses the budget;
+    // its runs and the simulated runs stopped once settled deep inside the band) and, in
+    // the same run, two baselines: the forecast at every deployment with every simulated
+    // run taken to its horizon, and that with full forecast runs too.
+    // One section alone when named (`default`, `whole`, `full`), for timing one against
     // another from outside (CPU seconds on a shared machine).
     let only = std::env::args().nth(1);
     if only.is_none() {
@@ -86,18 +93,20 @@ fn main() {
     for (key, label, effort) in [
         ("default", "default effort", Effort::default()),
         (
-            "every",
-            "forecast at every deployment (baseline 1)",
+            "whole",
+            "forecast at every deployment, simulated runs to the horizon (baseline 1)",
             Effort {
                 forecast_only_over_budget: false,
+                simulation_early_stop: false,
                 ..Effort::default()
             },
         ),
         (
             "full",
-            "forecast at every deployment, full runs (baseline 2)",
+            "as baseline 1, and full forecast runs (baseline 2)",
             Effort {
                 forecast_only_over_budget: false,
+                simulation_early_stop: false,
                 forecast_early_stop: false,
                 ..Effort::default()
             },
@@ -119,10 +128,10 @@ fn main() {
             Err(c) => println!("{label}: failed after {took:.1} s:\n{c}"),
         }
     }
-    if let [default, every, full] = times[..] {
+    if let [default, whole, full] = times[..] {
         println!(
             "ratio default/baseline 1: {:.2}, default/baseline 2: {:.2}",
-            default / every,
+            default / whole,
             default / full
         );
     }

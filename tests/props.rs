@@ -449,6 +449,73 @@ fn the_forecast_is_skipped_only_where_the_bound_meets_the_budget() {
 }
 
 #[test]
+fn simulated_runs_stopped_early_settle_where_the_whole_runs_do() {
+    // The early stop claims that a run which stayed within half the tolerance for the
+    // final fifth of the horizon (and half the slowest swing) never leaves the band
+    // again. Hold it to the whole runs of the real node code: P and PI designs, crystals
+    // within ±50 ppm, 5 % loss, timestamp jitter, chains and rings from 2 to 48 nodes; every
+    // run's settling instant (or never) must be the same, and some runs must have stopped
+    // early for the check to mean anything.
+    let designs = [(26_214, 0), (26_214, 655), (6_554, 131)];
+    // Properties that simulate every deployment without failing on its settling, so
+    // that runs which never settle are compared too.
+    let properties = [Property::Stable, Property::TableFits];
+    let early = Effort::default();
+    assert!(early.simulation_early_stop, "on by default");
+    let whole = Effort {
+        simulation_early_stop: false,
+        ..early
+    };
+    let (mut stopped, mut compared) = (0, 0);
+    for (kp, ki) in designs {
+        let (_, mut base) = quick_firmware::<2>(kp, ki, 200_000);
+        base.crystal_tolerance_ppm = 50.0;
+        base.loss_fraction = 0.05;
+        base.timestamp_jitter_s = 5e-6;
+        base.lock_budget_s = 60.0;
+        for layout in [2, 5, 12, 24, 48]
+            .into_iter()
+            .map(|n| Topology::Chain { nodes: n })
+            .chain([Topology::Ring { nodes: 16 }])
+        {
+            let mut s = base.clone();
+            s.layout = Layout::Topology(layout);
+            let settles = |effort: &Effort| {
+                let (evidence, findings) = match props::check::<2>(&s, &properties, effort) {
+                    Ok(e) => (Some(e), Vec::new()),
+                    Err(f) => (None, f),
+                };
+                let runs: Vec<(Option<u64>, u64)> = evidence
+                    .and_then(|e| e.simulation)
+                    .map(|v| {
+                        v.summary
+                            .outcomes
+                            .iter()
+                            .map(|o| (o.settle.map(|x| x.at_updates), o.samples))
+                            .collect()
+                    })
+                    .unwrap_or_default();
+                (runs, findings)
+            };
+            let (a, fa) = settles(&early);
+            let (b, fb) = settles(&whole);
+            assert_eq!(fa, fb, "{layout:?} kp {kp} ki {ki}: the findings");
+            assert_eq!(a.len(), b.len());
+            for ((sa, na), (sb, nb)) in a.iter().zip(&b) {
+                assert_eq!(sa, sb, "{layout:?} kp {kp} ki {ki}: settling instants");
+                assert!(na <= nb);
+                stopped += usize::from(na < nb);
+                compared += 1;
+            }
+        }
+    }
+    assert!(
+        stopped * 2 > compared,
+        "{stopped} of {compared} runs stopped early"
+    );
+}
+
+#[test]
 fn a_small_table_shrinks_to_the_smallest_star_that_overflows() {
     // A table of 2 neighbours: the smallest star with a hub of 3 neighbours has 4 nodes.
     let (_, base) = quick_firmware::<2>(26_214, 0, 200_000);

@@ -343,16 +343,7 @@ fn forecast_runs(
     let tol = tolerance_turns(s);
     let stride = s.horizon_updates.div_ceil(ENVELOPE_POINTS).max(1);
     let period = slowest_period(s);
-    // The span a run stopped early must have stayed deep inside: the final fifth of the
-    // horizon (what a settled run stays inside at least), and half the slowest
-    // oscillation period (the largest pairwise error of a decaying oscillating mode
-    // peaks once per half period, so the stay has seen a peak and later ones are lower).
-    let fifth = s.horizon_updates - final_fifth_start(s.horizon_updates);
-    let half_period = period.map_or(0.0, |p| (p / 2.0).ceil());
-    let stay = usize::try_from(fifth)
-        .unwrap_or(usize::MAX)
-        .max(half_period.min(usize::MAX as f64) as usize)
-        .max(1);
+    let stay = usize::try_from(early_stop_stay(s, period)).unwrap_or(usize::MAX);
     let stop = early_stop.then_some(replica::EarlyStop {
         inner: tol / 2.0,
         stay,
@@ -410,6 +401,25 @@ fn forecast_runs(
         settled_updates: settle,
         envelope: ErrorEnvelope::of(&points, stride),
     })
+}
+
+/// The samples a run stopped early must have stayed within half the tolerance (see
+/// [`forecast_early_stop`]): the final fifth of the horizon (what a settled run stays
+/// inside at least), and half the slowest oscillation period `period` (the largest
+/// pairwise error of a decaying oscillating mode peaks once per half period, so the stay
+/// has seen a peak and later ones are lower); at least one.
+fn early_stop_stay(s: &Setup, period: Option<f64>) -> u64 {
+    let fifth = s.horizon_updates - final_fifth_start(s.horizon_updates);
+    let half_period = period.map_or(0.0, |p| (p / 2.0).ceil());
+    fifth.max(half_period.min(u64::MAX as f64) as u64).max(1)
+}
+
+/// [`early_stop_stay`] of `s`'s own modes: how long the property kit's simulated runs
+/// of the real node code stay within half the tolerance before they stop early, as the
+/// forecast's runs do.
+#[must_use]
+pub fn stay_before_early_stop(s: &Setup) -> u64 {
+    early_stop_stay(s, slowest_period(s))
 }
 
 /// Longest `2π/|arg z|` over the complex (or negative real) roots of the per-mode

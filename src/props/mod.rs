@@ -40,8 +40,18 @@
 //! (and half the slowest oscillation period) is settled where it last left the
 //! tolerance, and stops; noisy runs never stay that
 //! deep and run the whole horizon. On every scenario of the fidelity suite the settling
-//! quantiles equal the full forecast's (`tests/fidelity.rs`). The simulated runs of the
-//! real node code always run the whole horizon.
+//! quantiles equal the full forecast's (`tests/fidelity.rs`).
+//!
+//! The simulated runs of the real node code stop by the same rule
+//! ([`Effort::simulation_early_stop`], on by default): a run that has stayed within half
+//! the tolerance for as long as a forecast run must ([`crate::forecast::stay_before_early_stop`])
+//! is settled where it last left the tolerance, which is what the whole run reports
+//! unless it leaves the band again after that stay. `tests/props.rs` holds every run's
+//! settling instant (or never) equal to the whole run's over P and PI designs, chains and
+//! a ring of 2 to 48 nodes with loss and timestamp jitter, and fails when the stay is
+//! cut to 20 samples. Not when [`Property::TrimBelowLimit`] is asked (the trims are
+//! watched to the horizon) or nodes reboot; `entrain check` on a written scenario always
+//! runs the whole horizon.
 //!
 //! Where the planner's worst-case settling bound already meets the budget, the forecast is
 //! not run at all ([`Effort::forecast_only_over_budget`], on by default): the budget rule
@@ -53,11 +63,11 @@
 //! So the length of each case's simulation follows from its budget alone (and from the
 //! bound when [`Property::BoundHolds`] is asked), not from the network's size: in the
 //! search of `examples/props_speed.rs` (budget 60 s, 100 updates a second, chains of 2 to
-//! 64 nodes) every deployment gets 4 runs of the real node code of 7,500 updates each
-//! and 20 forecast runs of at most 7,500 updates, each of which ends once it has stayed
-//! 1,500 updates (the final fifth; more when half the slowest oscillation period is
-//! longer) within half the tolerance. A larger network costs more per update, not more
-//! updates.
+//! 64 nodes) every deployment gets 4 runs of the real node code of at most 7,500 updates
+//! each and (where the bound misses the budget) 20 forecast runs of at most 7,500
+//! updates, each of which ends once it has stayed 1,500 updates (the final fifth; more
+//! when half the slowest oscillation period is longer) within half the tolerance. A
+//! larger network costs more per update, not more updates.
 //!
 //! # Example
 //!
@@ -208,12 +218,20 @@ pub struct Effort {
     pub horizon_factor: Option<f64>,
     /// Stop each forecast run once it has stayed within half the tolerance for the final
     /// fifth of the horizon (see [`crate::forecast::forecast_early_stop`]). The
-    /// simulated runs of the real node code always run the whole horizon.
+    /// simulated runs of the real node code have their own switch,
+    /// [`Effort::simulation_early_stop`].
     pub forecast_early_stop: bool,
     /// Run the forecast only when the planner's worst-case bound exceeds the budget (see
     /// [`PredictEffort::forecast_only_over_budget`]): within it, the prediction's side of
     /// the budget rule passes on the bound alone.
     pub forecast_only_over_budget: bool,
+    /// Stop each simulated run of the real node code once it has stayed within half the
+    /// tolerance as long as a forecast run must before it stops
+    /// ([`crate::forecast::stay_before_early_stop`]); the run is then settled where it
+    /// last left the tolerance, as the whole run would be if it never left the band
+    /// again. Not when [`Property::TrimBelowLimit`] is asked (the trims are watched to
+    /// the horizon) or the deployment reboots nodes.
+    pub simulation_early_stop: bool,
     /// Seed of the deployment search: the same seed tries the same deployments.
     pub search_seed: u64,
     /// Most shrinking steps after a failure.
@@ -221,8 +239,8 @@ pub struct Effort {
 }
 
 impl Default for Effort {
-    /// 256 cases, 4 runs, 20 forecast samples stopped early and run only when the bound
-    /// is over the budget, horizon factor 1.25.
+    /// 256 cases, 4 runs stopped early, 20 forecast samples stopped early and run only
+    /// when the bound is over the budget, horizon factor 1.25.
     fn default() -> Effort {
         Effort {
             cases: 256,
@@ -232,6 +250,7 @@ impl Default for Effort {
             horizon_factor: Some(1.25),
             forecast_early_stop: true,
             forecast_only_over_budget: true,
+            simulation_early_stop: true,
             search_seed: 0x0E17_7A1D,
             max_shrink_iters: 1_000,
         }
@@ -349,13 +368,17 @@ pub fn check<const N: usize>(
     if simulate {
         let runs = effort.runs.max(1);
         let limit = f64::from(prediction.constants.trim_limit_ppb);
+        let stop = (effort.simulation_early_stop
+            && !wants(Property::TrimBelowLimit)
+            && setup.reboots.is_empty())
+        .then(|| crate::forecast::stay_before_early_stop(&setup));
         let outcomes: Vec<(RunOutcome, TrimPeak)> = (0..u64::from(runs))
             .into_par_iter()
             .map(|r| match degree_over {
-                None => run_tracking::<N>(&setup, effort.seed, r),
+                None => run_tracking::<N>(&setup, effort.seed, r, stop),
                 // Too many neighbours for the firmware's table (reported above, or not
                 // asked about): simulate the other properties with a table that fits.
-                Some(_) => run_tracking::<{ sim::MAX_DEGREE }>(&setup, effort.seed, r),
+                Some(_) => run_tracking::<{ sim::MAX_DEGREE }>(&setup, effort.seed, r, stop),
             })
             .collect();
         let peak = outcomes
@@ -437,10 +460,19 @@ struct TrimPeak {
     at_updates: u64,
 }
 
-/// One run of `setup` on `Node<M>`, watching every node's trim at every sample.
-fn run_tracking<const M: usize>(setup: &sim::Setup, seed: u64, run: u64) -> (RunOutcome, TrimPeak) {
+/// One run of `setup` on `Node<M>`, watching every node's trim at every sample; with
+/// `stop`, the run ends once that many samples in a row were within half the tolerance
+/// (and settles where it last left the tolerance, see [`Network::finish_settled`]).
+fn run_tracking<const M: usize>(
+    setup: &sim::Setup,
+    seed: u64,
+    run: u64,
+    stop: Option<u64>,
+) -> (RunOutcome, TrimPeak) {
     let mut net = Network::<M>::new(setup, seed, run)
         .unwrap_or_else(|e| panic!("the simulator refused a setup it validated: {e}"));
+    let inner = net.tracker().tolerance_counts() / 2;
+    let mut deep = 0u64;
     let mut peak = TrimPeak {
         run,
         ..TrimPeak::default()
@@ -450,7 +482,7 @@ fn run_tracking<const M: usize>(setup: &sim::Setup, seed: u64, run: u64) -> (Run
     // peak, so only a new largest magnitude takes the division.
     let mut converted = 0u64;
     for k in 0..setup.horizon_updates {
-        net.step();
+        let sample = net.step();
         for i in 0..net.nodes() {
             if let Some(node) = net.node(i) {
                 let raw = node.trim_raw().unsigned_abs();
@@ -469,6 +501,14 @@ fn run_tracking<const M: usize>(setup: &sim::Setup, seed: u64, run: u64) -> (Run
                     };
                 }
             }
+        }
+        deep = if sample.inside && sample.network_counts <= inner && sample.link_counts <= inner {
+            deep + 1
+        } else {
+            0
+        };
+        if stop.is_some_and(|stay| deep >= stay) {
+            return (net.finish_settled(), peak);
         }
     }
     (net.run(None), peak)
@@ -721,7 +761,7 @@ mod tests {
             }
             // The crystals move the trims well away from zero.
             assert!(want.ppb > 1_000.0, "{want:?}");
-            assert_eq!(run_tracking::<2>(&setup, 11, run).1, want, "run {run}");
+            assert_eq!(run_tracking::<2>(&setup, 11, run, None).1, want, "run {run}");
         }
     }
 }

@@ -839,6 +839,20 @@ impl<const N: usize> Network<N> {
                 tr.record(&s, &self.phases);
             }
         }
+        self.outcome(trace)
+    }
+
+    /// Report the run as it stands, taking it to have stayed inside the band from the
+    /// last sample to the horizon ([`SettleTracker::assume_inside_to_horizon`]): for a
+    /// caller that stops a run early once it has stayed deep inside the band (the
+    /// outcome's `samples` says how far it went; its steady window holds only the samples
+    /// taken).
+    pub fn finish_settled(&mut self) -> RunOutcome {
+        self.tracker.assume_inside_to_horizon();
+        self.outcome(None)
+    }
+
+    fn outcome(&mut self, trace: Option<&mut Trace>) -> RunOutcome {
         let settle = self.tracker.settle();
         let first_entry = self.tracker.first_entry();
         if let Some(tr) = trace {

@@ -346,6 +346,15 @@ impl SettleTracker {
         self.last_exit
     }
 
+    /// End the run here as if every sample still to come were inside the band (and
+    /// none of them in the steady window): the verdict is then what the whole run gives
+    /// when it never leaves the band again. For a caller that stops a run once it has
+    /// stayed deep inside the band long enough (see [`crate::props`]); the steady window
+    /// holds only the samples fed.
+    pub fn assume_inside_to_horizon(&mut self) {
+        self.fed = self.fed.max(self.horizon);
+    }
+
     /// Whether the samples fed cover the whole horizon (the verdict is final).
     #[must_use]
     pub fn is_complete(&self) -> bool {

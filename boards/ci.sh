@@ -13,15 +13,16 @@
 #      is installed);
 #   6. the cost tables (instructions per update, per law and neighbour count);
 #   7. the chain of five emulated nodes locks under the P law with version-2 beacons and
-#      no latency told; the PI-law run is reported (gating with CHAIN_PI_GATES=1);
-#      each node's telemetry lines are kept, and the host checker's `entrain field`
-#      holds them against boards/chain-p.toml (gating: verdict pass, the links heard
-#      exactly the chain's, both ways) and chain-pi.toml (reported only);
+#      no latency told, and under the PI law with node 0 as a reference (15 minutes; the
+#      trims match the crystals within 5 ppm); each node's telemetry lines are kept, and
+#      the host checker's `entrain field` holds the P chain's against boards/chain-p.toml
+#      (gating: verdict pass, the links heard exactly the chain's, both ways);
 #   8. the figures in boards/README.md (digests, sizes, cost tables: all deterministic
 #      under -icount) are the ones this run printed (BOARDS_UPDATE_README=1 rewrites them).
 # environment: BOARDS_TARGET_DIR (default boards/target), HOST_TARGET_DIR (default
 # target/; the host checker `entrain` is built there), NODES / RUN_MS / TOL_US /
-# TELEMETRY_EVERY for the chain (see run-chain.sh),
+# TELEMETRY_EVERY for the chain (see run-chain.sh), CHAIN_PI_REFERENCE / CHAIN_KI_Q16 /
+# CHAIN_PI_RUN_MS / CHAIN_SMOOTHING / CHAIN_PI_GATES for the PI chain (see below),
 # BOARDS_UPDATE_README=1 to rewrite the README's figures instead of checking them.
 set -euo pipefail
 
@@ -213,18 +214,36 @@ for attempt in 1 2; do
     exit "$p_status"
 done
 
-# The PI law over the same links (issue 12): reported; it gates only with
-# CHAIN_PI_GATES=1, because on a loaded 2-core host the emulated links' jitter moves
-# the trims by far more than 5 ppm (see README.md, "The chain").
-step "chain of emulated nodes, PI law with a trim leak, version-2 beacons, no latency told"
+# The PI law over the same links (issue 12). By default node 0 is a reference (it beacons
+# and echoes but never steers, so the common rate is its crystal's) and the other four
+# run the PI law with ki = 16/65536 for 15 minutes: that passes here (see README.md, "With
+# a reference node it passes, given time") and gates. CHAIN_PI_REFERENCE= (empty) runs
+# the chain without a reference, which does not pass on this host: set CHAIN_KI_Q16=128
+# CHAIN_PI_RUN_MS=60000 for the leaderless run of before, reported only unless
+# CHAIN_PI_GATES=1.
+pi_reference=${CHAIN_PI_REFERENCE-0}
+if [[ -n $pi_reference ]]; then
+    step "chain of emulated nodes, PI law on four nodes, node $pi_reference a reference, version-2 beacons, no latency told"
+else
+    step "chain of emulated nodes, PI law with a trim leak, version-2 beacons, no latency told"
+fi
 pi_status=0
-KI_Q16=${CHAIN_KI_Q16:-128} SMOOTHING=${CHAIN_SMOOTHING:-5} RUN_MS=${CHAIN_PI_RUN_MS:-60000} \
-    REFERENCE=${CHAIN_PI_REFERENCE:-} LOG_DIR=$chain_logs/pi "$here/run-chain.sh" "$m4/chain" || pi_status=$?
-# The PI chain's field report, printed, not gating (issue 12).
-step "field check of the PI chain's telemetry against boards/chain-pi.toml (reported only)"
-field_check chain-pi.toml "$chain_logs/pi" || true
+KI_Q16=${CHAIN_KI_Q16:-16} SMOOTHING=${CHAIN_SMOOTHING:-5} RUN_MS=${CHAIN_PI_RUN_MS:-900000} \
+    REFERENCE=$pi_reference LOG_DIR=$chain_logs/pi "$here/run-chain.sh" "$m4/chain" || pi_status=$?
+if [[ -n $pi_reference ]]; then
+    # chain-pi.toml describes the leaderless chain; a scenario's reference node runs at
+    # the nominal rate, the emulated one at its crystal's, so there is no scenario for
+    # this run yet.
+    echo "field: skipped for the PI chain with a reference node (chain-pi.toml describes the chain without one)"
+else
+    # The PI chain's field report, printed, not gating (issue 12).
+    step "field check of the PI chain's telemetry against boards/chain-pi.toml (reported only)"
+    field_check chain-pi.toml "$chain_logs/pi" || true
+fi
+pi_gates=0
+[[ -n $pi_reference ]] && pi_gates=1
 if (( pi_status != 0 )); then
-    if [[ ${CHAIN_PI_GATES:-0} == 1 ]]; then
+    if [[ ${CHAIN_PI_GATES:-$pi_gates} == 1 ]]; then
         exit "$pi_status"
     fi
     echo "chain: the PI run above did not pass; not gating (set CHAIN_PI_GATES=1 to gate on it)"

@@ -761,7 +761,11 @@ mod tests {
             }
             // The crystals move the trims well away from zero.
             assert!(want.ppb > 1_000.0, "{want:?}");
-            assert_eq!(run_tracking::<2>(&setup, 11, run, None).1, want, "run {run}");
+            assert_eq!(
+                run_tracking::<2>(&setup, 11, run, None).1,
+                want,
+                "run {run}"
+            );
         }
     }
 }

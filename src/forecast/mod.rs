@@ -414,9 +414,10 @@ fn early_stop_stay(s: &Setup, period: Option<f64>) -> u64 {
     fifth.max(half_period.min(u64::MAX as f64) as u64).max(1)
 }
 
-/// [`early_stop_stay`] of `s`'s own modes: how long the property kit's simulated runs
-/// of the real node code stay within half the tolerance before they stop early, as the
-/// forecast's runs do.
+/// How long a run of `s` must stay within half the tolerance before it stops early, in
+/// samples: the final fifth of the horizon, or half the slowest oscillation period of
+/// `s`'s small-signal modes when that is longer (as [`forecast_early_stop`]'s runs do).
+/// The property kit's simulated runs of the real node code stop by it too.
 #[must_use]
 pub fn stay_before_early_stop(s: &Setup) -> u64 {
     early_stop_stay(s, slowest_period(s))

@@ -17,11 +17,15 @@
 //! Time: CMSDK timer 0, free-running at the 25 MHz system clock and extended past its
 //! wrap, is true time (read to 1 µs); the node's timer is that true time through a
 //! [`Crystal`] `E` ppm off, at a nominal 1 MHz. SysTick, every 10 ms, only wakes the
-//! loop: counting its interrupts lost time whenever the host descheduled QEMU. The node law runs a 1 s period with an update (and a beacon to each
-//! side) every 100 ms. Beacons go through [`BeaconPort`]: with version 2 (the default)
-//! each carries its send stamp and one echo, for the left and the right neighbour in
-//! turn, so every node measures each link's delay by two-way exchange instead of being
-//! told it.
+//! loop: counting its interrupts lost time whenever the host descheduled QEMU.
+//!
+//! The node law runs a 1 s period with an update at each tenth of a turn of the node's
+//! own phase (so the chain's updates line up once its phases do) and a beacon to each
+//! side 35 to 75 ms before each update, by node id, so that beacons arrive far from the
+//! receivers' update instants. Beacons go through [`BeaconPort`]: with version 2 (the
+//! default) each carries its send stamp and one echo, for the left and the right
+//! neighbour in turn, so every node measures each link's delay by two-way exchange
+//! instead of being told it.
 //!
 //! Telemetry: every K updates the node writes the crate's telemetry line of that update
 //! ([`entrain::telemetry::write_line`], `ET1 …`, its update count from 0 at the first
@@ -62,6 +66,46 @@ const TICKS_PER_SYSTICK: u32 = CORE_HZ / 1_000 * SYSTICK_MS;
 pub const PERIOD_TICKS: u32 = 1_000_000;
 /// Timer ticks between updates (and beacons): ten a second.
 pub const UPDATE_TICKS: u32 = 100_000;
+/// Updates per phase turn.
+const UPDATES_PER_TURN: u64 = (PERIOD_TICKS / UPDATE_TICKS) as u64;
+const _: () = assert!(PERIOD_TICKS % UPDATE_TICKS == 0);
+
+/// How long before its update instant node `id` sends its beacon, timer ticks: 35 to
+/// 75 ms, by the id modulo five.
+///
+/// Far from both update instants of the interval (a late send or a late update of up to
+/// 25 ms still leaves the beacon in its interval), and spread over the interval rather
+/// than all at once: five QEMU processes sharing two host cores that all send (and wake
+/// all their neighbours) at one instant are descheduled in turn, which stamps receptions
+/// late (per-beacon |diff| medians of 260 to 390 µs with every node sending mid-interval,
+/// against 86 to 97 µs with free-running schedules).
+fn beacon_lead(id: u16) -> u32 {
+    UPDATE_TICKS * 3 / 4 - u32::from(id % 5) * (UPDATE_TICKS / 10)
+}
+
+/// Timer ticks from a node at `phase` to its next update instant: the next phase of
+/// `k / UPDATES_PER_TURN` turn that lies at least half an update interval ahead, at the
+/// nominal rate (between half and one and a half intervals).
+///
+/// Update instants on the node's own phase, not on its timer from power-up, line the
+/// chain's updates up once the phases are: a neighbour's beacon, sent 25 to 65 ms after
+/// its update ([`beacon_lead`]), then arrives 35 to 75 ms before this node's next one,
+/// so an update or a send late by up to 25 ms (the loop wakes every 10 ms; the host
+/// deschedules QEMU) still has a fresh observation. With schedules
+/// fixed at power-up, a link whose beacons happened to land within such a delay of the
+/// receiver's update instant missed up to a quarter of its intervals (12.6 % on one
+/// link of a CI run). The rate trim is left out of the conversion: at most 200 ppm of
+/// 150 ms, 30 µs, and recomputed at every update, so it does not accumulate.
+fn ticks_to_next_update(phase: Phase) -> u32 {
+    const TURN: u64 = 1 << 32;
+    // In units of 1 / (2^32 · UPDATES_PER_TURN) turn: the phase, and the smallest grid
+    // point at least half an interval past it.
+    let p = u64::from(phase.counts()) * UPDATES_PER_TURN;
+    let k = (p + TURN / 2).div_ceil(TURN);
+    let ahead = k * TURN - p; // in [TURN / 2, 3 · TURN / 2)
+    // ahead / TURN update intervals; under 2^50, no overflow.
+    (ahead * u64::from(UPDATE_TICKS) / TURN) as u32
+}
 /// Beacons judged per neighbour at most (the window holds about 60).
 const JUDGED: usize = 128;
 /// The UARTs of the two links.
@@ -352,7 +396,9 @@ pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
     );
     let boot_us = true_us();
     let boot_systick_us = systick_us();
-    let mut next_update = now.wrapping_add(UPDATE_TICKS);
+    let mut next_update = now.wrapping_add(ticks_to_next_update(port.node().phase_at(now)));
+    // The beacon of an interval goes out 35 to 75 ms before the update that ends it.
+    let mut next_beacon = Some(next_update.wrapping_sub(beacon_lead(a.id)));
     let mut wire = [0u8; MAX_FRAME_LEN];
     let mut updates = 0u32;
     // The telemetry line of the latest update (two neighbours: under 130 bytes).
@@ -373,8 +419,16 @@ pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
             }
         });
         let elapsed_us = true_us().wrapping_sub(boot_us);
-        for (side, (uart, receiver)) in uarts.iter_mut().zip(rx.iter_mut()).enumerate() {
-            while let Some(byte) = uart.try_read() {
+        // A byte from each UART in turn: where beacons from both sides arrive together,
+        // draining one side's frame and processing it first would stamp the other side's
+        // first byte late.
+        loop {
+            let mut read_any = false;
+            for (side, (uart, receiver)) in uarts.iter_mut().zip(rx.iter_mut()).enumerate() {
+                let Some(byte) = uart.try_read() else {
+                    continue;
+                };
+                read_any = true;
                 let t = crystal.ticks_at(true_us());
                 let Some(found) = receiver.push(byte, t) else {
                     continue;
@@ -407,8 +461,26 @@ pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
                     }
                 }
             }
+            if !read_any {
+                break;
+            }
         }
         let now = crystal.ticks_at(true_us());
+        if let Some(at) = next_beacon
+            && now.wrapping_sub(at) as i32 >= 0
+        {
+            next_beacon = None;
+            let tx = crystal.ticks_at(true_us());
+            if let Ok(sent) = port.send(tx, &mut wire) {
+                // Byte by byte to both sides, so neither frame's first byte (the instant
+                // its phase is stamped for) waits for the whole other frame.
+                for &b in wire.get(..sent.wire_len()).unwrap_or(&[]) {
+                    for u in &mut uarts {
+                        u.write_byte(b);
+                    }
+                }
+            }
+        }
         if now.wrapping_sub(next_update) as i32 >= 0 {
             if elapsed_us >= judge_from && elapsed_us < judge_to {
                 // What the law is about to pull with, per side (left: the lower id).
@@ -433,8 +505,8 @@ pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
             };
             telemetry.clear();
             if a.telemetry_every > 0 && updates.is_multiple_of(a.telemetry_every) {
-                // Formatted now, from the state the update left; written after the
-                // beacons are out, so the console write does not delay them. A line that
+                // Formatted now, from the state the update left; written once the next
+                // instants are set (the beacon goes out 25 ms or more later). A line that
                 // does not fit is left out rather than cut.
                 let written = entrain::telemetry::write_line(
                     &mut telemetry,
@@ -458,23 +530,12 @@ pub fn run(mut syst: SYST, _nvic: NVIC) -> bool {
                     short_updates = short_updates.wrapping_add(1);
                 }
             }
-            let tx = crystal.ticks_at(true_us());
-            if let Ok(sent) = port.send(tx, &mut wire) {
-                // Byte by byte to both sides, so neither frame's first byte (the instant
-                // its phase is stamped for) waits for the whole other frame.
-                for &b in wire.get(..sent.wire_len()).unwrap_or(&[]) {
-                    for u in &mut uarts {
-                        u.write_byte(b);
-                    }
-                }
-            }
+            // The next update on the phase the update left (after a long stall too: no
+            // catching up update by update), and the beacon 35 to 75 ms before it.
+            next_update = now.wrapping_add(ticks_to_next_update(port.node().phase_at(now)));
+            next_beacon = Some(next_update.wrapping_sub(beacon_lead(a.id)));
             if !telemetry.is_empty() {
                 hprint!("{}", telemetry.as_str());
-            }
-            next_update = next_update.wrapping_add(UPDATE_TICKS);
-            // After a long stall, do not try to catch up update by update.
-            if now.wrapping_sub(next_update) as i32 > 0 {
-                next_update = now.wrapping_add(UPDATE_TICKS);
             }
             if elapsed_us >= run_us {
                 break;

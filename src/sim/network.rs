@@ -553,16 +553,7 @@ impl<const N: usize> Network<N> {
             };
         }
         let network = largest_pairwise_diff(&self.live, &mut self.scratch);
-        let link = self
-            .pairs
-            .iter()
-            .filter_map(|&(a, b)| {
-                let pa = (*self.phases.get(a)?)?;
-                let pb = (*self.phases.get(b)?)?;
-                Some(pa.diff(pb).unsigned_abs())
-            })
-            .max()
-            .unwrap_or(0);
+        let link = largest_neighbour_diff_live(&self.live, &self.pairs, &self.phases);
         let k = self.sample;
         self.sample += 1;
         let inside = self.tracker.sample(k, network, link, &self.phases);
@@ -1009,7 +1000,12 @@ fn insert_sorted(queue: &mut VecDeque<(u64, u16)>, t: u64, i: u16) {
     while at > 0 && queue.get(at - 1).is_some_and(|&(u, _)| u > t) {
         at -= 1;
     }
-    queue.insert(at, (t, i));
+    if at == queue.len() {
+        // The usual case, without `insert`'s shifting machinery.
+        queue.push_back((t, i));
+    } else {
+        queue.insert(at, (t, i));
+    }
 }
 
 /// A phase from any real number of turns, rounded to the nearest count.

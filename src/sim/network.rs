@@ -209,6 +209,8 @@ pub struct Network<const N: usize> {
     rounds: u64,
     /// Telemetry of every update, when asked ([`Network::record_telemetry`]).
     recorder: Option<Recorder>,
+    /// The largest |trim| (raw) any node has held so far.
+    trim_peak_raw: u64,
     /// Per sender slot (as `targets`), the beacon's success probability where a link's
     /// own loss was set ([`Network::with_link_loss`]).
     slot_success: Option<Vec<f64>>,
@@ -399,6 +401,7 @@ impl<const N: usize> Network<N> {
             rounds: 0,
             recorder: None,
             slot_success: None,
+            trim_peak_raw: 0,
         })
     }
 
@@ -496,6 +499,14 @@ impl<const N: usize> Network<N> {
         let slot =
             (lo..hi).find(|&s| self.targets.get(s).is_some_and(|&t| usize::from(t) == to))?;
         Some(self.out.get(slot)?.latency_sub as f64 / SUB as f64)
+    }
+
+    /// The largest trim magnitude, `|`[`Node::trim_raw`]`|`, any node has held so far:
+    /// no node's trim at any sample taken has been larger. A trim changes only in an
+    /// update, so this is kept as the updates go.
+    #[must_use]
+    pub fn largest_trim_raw(&self) -> u64 {
+        self.trim_peak_raw
     }
 
     /// Counters so far.
@@ -644,6 +655,7 @@ impl<const N: usize> Network<N> {
         } else {
             self.stats.node_updates += 1;
             let report = node.update(local);
+            self.trim_peak_raw = self.trim_peak_raw.max(node.trim_raw().unsigned_abs());
             if let Some(r) = self.recorder.as_mut() {
                 r.record(i, &report, node);
             }
@@ -787,6 +799,7 @@ impl<const N: usize> Network<N> {
             }
             if !st.reference {
                 let report = st.node.update(local);
+                self.trim_peak_raw = self.trim_peak_raw.max(st.node.trim_raw().unsigned_abs());
                 if let Some(r) = self.recorder.as_mut() {
                     r.record(i, &report, &st.node);
                 }

@@ -138,6 +138,27 @@ const fn mul_q16_round_u128(a: u64, b: u64) -> u64 {
     }
 }
 
+/// `n · ppb / 10⁹` truncated toward zero, exactly the `i128` quotient, without a
+/// 128-bit division (a library call on every target, and a long one on a small core).
+///
+/// Why it is exact for every `n` and `ppb`: write `n = a·10⁹ + b` with `b < 10⁹`. Then
+/// `n·|ppb| = a·|ppb|·10⁹ + b·|ppb|`, and as the first term is a whole multiple of 10⁹,
+/// `⌊n·|ppb| / 10⁹⌋ = a·|ppb| + ⌊b·|ppb| / 10⁹⌋`. Both pieces fit their types:
+/// `a < 2^35` and `|ppb| ≤ 2^31`, so `a·|ppb| < 2^66` is taken in 96 bits, and
+/// `b·|ppb| < 10⁹·2^31 < 2^61` fits a `u64`. `n ≥ 0`, so the signed product has the
+/// sign of `ppb`, and division toward zero is that sign times the floor of the
+/// magnitudes. The divisions are by a constant (no division-by-zero path).
+#[inline]
+pub(crate) const fn mul_ppb(n: u64, ppb: i32) -> i128 {
+    const BILLION: u64 = 1_000_000_000;
+    let p = ppb.unsigned_abs();
+    let (low, high) = mul_64_32(n / BILLION, p);
+    let rest = (n % BILLION) * p as u64 / BILLION;
+    let mag = (((high as u128) << 64) | low as u128) + rest as u128;
+    // mag < 2^67: the cast keeps it, and so does the negation.
+    if ppb < 0 { -(mag as i128) } else { mag as i128 }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -214,6 +235,50 @@ mod tests {
         assert_eq!(mul_q16_round_pieces((1 << 63) - 1, 1 << 16), (1 << 63) - 1);
     }
 
+    /// The quotient [`mul_ppb`] replaces, in `i128` arithmetic.
+    fn mul_ppb_wide(n: u64, ppb: i32) -> i128 {
+        i128::from(n) * i128::from(ppb) / 1_000_000_000
+    }
+
+    #[test]
+    fn mul_ppb_edges_agree_with_i128() {
+        let ppbs = [
+            0,
+            1,
+            -1,
+            999_999_999,
+            1_000_000_000,
+            1_000_000_001,
+            -1_000_000_000,
+            i32::MAX,
+            i32::MIN,
+            i32::MIN + 1,
+        ];
+        let ns =
+            EDGES
+                .into_iter()
+                .chain([999_999_999, 1_000_000_000, 1_000_000_001, 2_999_999_999]);
+        for n in ns {
+            for ppb in ppbs {
+                assert_eq!(mul_ppb(n, ppb), mul_ppb_wide(n, ppb), "{n} × {ppb} ppb");
+            }
+        }
+    }
+
+    #[test]
+    fn mul_ppb_truncates_toward_zero() {
+        // Worked by hand: (7·10⁹ + 5)·3 = 21·10⁹ + 15, and 10⁹ − 1 ppb of 10⁹ − 1 is
+        // 10⁹ − 2 and a fraction (10⁹ − 1)² = 10¹⁸ − 2·10⁹ + 1.
+        assert_eq!(mul_ppb(7_000_000_005, 3), 21);
+        assert_eq!(mul_ppb(7_000_000_005, -3), -21);
+        assert_eq!(mul_ppb(999_999_999, 999_999_999), 999_999_998);
+        assert_eq!(mul_ppb(999_999_999, -999_999_999), -999_999_998);
+        // 2^64 − 1 = 18,446,744,073·10⁹ + 709,551,615; times 2^31 over 10⁹:
+        // 18,446,744,073·2^31 + ⌊709,551,615·2^31 / 10⁹⌋ = 39,614,081,255,608,418,304
+        // + 1,523,750,490 (sums done in Python integers, outside this crate).
+        assert_eq!(mul_ppb(u64::MAX, i32::MIN), -39_614_081_257_132_168_794);
+    }
+
     proptest! {
         #[test]
         fn halves_are_the_64_bit_product(a in any::<u32>(), b in any::<u32>()) {
@@ -237,6 +302,13 @@ mod tests {
             // Shifted operands cover every magnitude, not only those near 2^64.
             let (a, b) = (a >> shift_a, b >> shift_b);
             prop_assert_eq!(mul_q16_round_pieces(a, b), mul_q16_round_wide(a, b));
+        }
+
+        #[test]
+        fn mul_ppb_is_the_i128_quotient(n in any::<u64>(), ppb in any::<i32>(), shift in 0u32..64) {
+            // Shifted, `n` takes every magnitude, below 10⁹ as well as above.
+            let n = n >> shift;
+            prop_assert_eq!(mul_ppb(n, ppb), mul_ppb_wide(n, ppb));
         }
     }
 }

@@ -1,6 +1,6 @@
 //! One node: its local clock, its neighbour table and the PI update law.
 
-use crate::arith::{mul_64_32, mul_q16_round};
+use crate::arith::{mul_64_32, mul_ppb, mul_q16_round};
 use crate::law::{Coupling, Linear, Sine};
 use crate::{Config, Law, Phase};
 use core::fmt;
@@ -554,7 +554,7 @@ impl<const N: usize> Node<N> {
         // run at the network's rate, so ticks scale by (nominal + their trim) / (nominal
         // + our trim). i128: held < 2^31, shifted 16, times a rate < 2^64.
         let nominal = i128::from(self.config.rate_nominal());
-        let theirs = nominal + nominal * i128::from(their_trim_ppb) / 1_000_000_000;
+        let theirs = nominal + mul_ppb(self.config.rate_nominal(), their_trim_ppb);
         let ours = nominal + i128::from(self.trim);
         let held_q16 = match (i128::from(echo.held_ticks) << DELAY_FRAC)
             .wrapping_mul(theirs)

@@ -75,10 +75,9 @@ fn same_seed_same_result_on_any_number_of_threads() {
     assert!(one.settled_runs > 0 && one.noise_floor_turns.is_some());
 }
 
-#[test]
-fn lock_step_shortcut_is_bit_identical_to_the_event_queue() {
-    // Ideal crystals and a lock-step schedule qualify for the shortcut; loss, latency,
-    // the PI law and the sine law exercise it.
+/// A 3 × 5 grid that qualifies for the lock-step shortcut (ideal crystals and a lock-step
+/// schedule), with loss, latency, the PI law and the sine law to exercise it.
+fn lock_step_grid() -> Setup {
     let mut s = Setup::new(
         Links::from_topology(&Topology::Grid { rows: 3, cols: 5 }).unwrap(),
         config(Law::Sine, 0.3, 0.03),
@@ -95,6 +94,12 @@ fn lock_step_shortcut_is_bit_identical_to_the_event_queue() {
         tolerance_turns: 1e-4,
     };
     s.horizon_updates = 4_000;
+    s
+}
+
+#[test]
+fn lock_step_shortcut_is_bit_identical_to_the_event_queue() {
+    let s = lock_step_grid();
     for run in 0..4 {
         let fast = Network::<4>::new(&s, 7, run).unwrap();
         assert!(fast.is_lock_step());
@@ -110,6 +115,33 @@ fn lock_step_shortcut_is_bit_identical_to_the_event_queue() {
         assert!(a.settle.is_some());
         assert_eq!(a, b);
         assert_eq!(tf, ts);
+    }
+}
+
+#[test]
+fn largest_trim_bounds_every_sampled_trim() {
+    // The event queue (messy ring, with a reboot) and the lock-step shortcut both keep
+    // it: never below any node's trim at a sample, never falling.
+    for (setup, lock_step) in [(messy_ring(), false), (lock_step_grid(), true)] {
+        let mut net = Network::<4>::new(&setup, 5, 0).unwrap();
+        assert_eq!(net.is_lock_step(), lock_step);
+        let mut last = 0;
+        let mut seen = 0;
+        for _ in 0..setup.horizon_updates.min(1_000) {
+            net.step();
+            let peak = net.largest_trim_raw();
+            let now = (0..net.nodes())
+                .map(|i| net.node(i).unwrap().trim_raw().unsigned_abs())
+                .max()
+                .unwrap();
+            assert!(now <= peak, "a node holds {now}, the peak says {peak}");
+            assert!(peak >= last);
+            last = peak;
+            seen = seen.max(now);
+        }
+        // The PI law moved the trims.
+        assert!(seen > 0);
+        assert!(last >= seen);
     }
 }
 

@@ -479,11 +479,17 @@ fn run_tracking<const M: usize>(
     };
     // Every node has the run's configuration, and `trim_ppb` is odd and non-decreasing in
     // the raw trim: a raw magnitude no larger than one already converted cannot beat the
-    // peak, so only a new largest magnitude takes the division.
+    // peak, so only a new largest magnitude takes the division, and a sample is looked
+    // at only when some node has held a trim larger than that.
     let mut converted = 0u64;
     for k in 0..setup.horizon_updates {
         let sample = net.step();
-        for i in 0..net.nodes() {
+        let scan = if net.largest_trim_raw() > converted {
+            net.nodes()
+        } else {
+            0
+        };
+        for i in 0..scan {
             if let Some(node) = net.node(i) {
                 let raw = node.trim_raw().unsigned_abs();
                 if raw <= converted {

@@ -209,6 +209,8 @@ pub struct Network<const N: usize> {
     rounds: u64,
     /// Telemetry of every update, when asked ([`Network::record_telemetry`]).
     recorder: Option<Recorder>,
+    /// The largest |trim| (raw) any node has held so far.
+    trim_peak_raw: u64,
     /// Per sender slot (as `targets`), the beacon's success probability where a link's
     /// own loss was set ([`Network::with_link_loss`]).
     slot_success: Option<Vec<f64>>,
@@ -399,6 +401,7 @@ impl<const N: usize> Network<N> {
             rounds: 0,
             recorder: None,
             slot_success: None,
+            trim_peak_raw: 0,
         })
     }
 
@@ -498,6 +501,14 @@ impl<const N: usize> Network<N> {
         Some(self.out.get(slot)?.latency_sub as f64 / SUB as f64)
     }
 
+    /// The largest trim magnitude, `|`[`Node::trim_raw`]`|`, any node has held so far:
+    /// no node's trim at any sample taken has been larger. A trim changes only in an
+    /// update, so this is kept as the updates go.
+    #[must_use]
+    pub fn largest_trim_raw(&self) -> u64 {
+        self.trim_peak_raw
+    }
+
     /// Counters so far.
     #[must_use]
     pub fn stats(&self) -> RunStats {
@@ -553,16 +564,7 @@ impl<const N: usize> Network<N> {
             };
         }
         let network = largest_pairwise_diff(&self.live, &mut self.scratch);
-        let link = self
-            .pairs
-            .iter()
-            .filter_map(|&(a, b)| {
-                let pa = (*self.phases.get(a)?)?;
-                let pb = (*self.phases.get(b)?)?;
-                Some(pa.diff(pb).unsigned_abs())
-            })
-            .max()
-            .unwrap_or(0);
+        let link = largest_neighbour_diff_live(&self.live, &self.pairs, &self.phases);
         let k = self.sample;
         self.sample += 1;
         let inside = self.tracker.sample(k, network, link, &self.phases);
@@ -653,6 +655,7 @@ impl<const N: usize> Network<N> {
         } else {
             self.stats.node_updates += 1;
             let report = node.update(local);
+            self.trim_peak_raw = self.trim_peak_raw.max(node.trim_raw().unsigned_abs());
             if let Some(r) = self.recorder.as_mut() {
                 r.record(i, &report, node);
             }
@@ -796,6 +799,7 @@ impl<const N: usize> Network<N> {
             }
             if !st.reference {
                 let report = st.node.update(local);
+                self.trim_peak_raw = self.trim_peak_raw.max(st.node.trim_raw().unsigned_abs());
                 if let Some(r) = self.recorder.as_mut() {
                     r.record(i, &report, &st.node);
                 }
@@ -1023,7 +1027,12 @@ fn insert_sorted(queue: &mut VecDeque<(u64, u16)>, t: u64, i: u16) {
     while at > 0 && queue.get(at - 1).is_some_and(|&(u, _)| u > t) {
         at -= 1;
     }
-    queue.insert(at, (t, i));
+    if at == queue.len() {
+        // The usual case, without `insert`'s shifting machinery.
+        queue.push_back((t, i));
+    } else {
+        queue.insert(at, (t, i));
+    }
 }
 
 /// A phase from any real number of turns, rounded to the nearest count.

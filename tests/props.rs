@@ -347,6 +347,13 @@ fn quick_firmware<const N: usize>(kp: u32, ki: u32, trim_ppb: u32) -> (Firmware<
     (firmware, base)
 }
 
+/// `base` laid out as a chain of `n` nodes.
+fn chain_of(base: &Scenario, n: usize) -> Scenario {
+    let mut s = base.clone();
+    s.layout = Layout::Topology(Topology::Chain { nodes: n });
+    s
+}
+
 #[test]
 fn a_slow_design_shrinks_to_the_shortest_chain_over_budget() {
     // P law, kp = 0.1: the worst-case bound grows with the chain's length. The planner
@@ -354,8 +361,7 @@ fn a_slow_design_shrinks_to_the_shortest_chain_over_budget() {
     let (_, base) = quick_firmware::<2>(6_554, 0, 200_000);
     let shortest = (2..=64)
         .find(|&n| {
-            let mut s = base.clone();
-            s.layout = Layout::Topology(Topology::Chain { nodes: n });
+            let s = chain_of(&base, n);
             let network = NetworkModel::of(&s).unwrap();
             let p = assess::predict(&s, &network, 6_554.0 / 65_536.0, 0.0).unwrap();
             p.settle.unwrap().bound_s > s.lock_budget_s
@@ -414,8 +420,7 @@ fn the_forecast_is_skipped_only_where_the_bound_meets_the_budget() {
     };
     let (mut skipped, mut run) = (0, 0);
     for n in [2, 4, 6, 8, 9, 10, 11, 12, 16] {
-        let mut s = base.clone();
-        s.layout = Layout::Topology(Topology::Chain { nodes: n });
+        let s = chain_of(&base, n);
         let with = props::check::<2>(&s, &properties, &always);
         let without = props::check::<2>(&s, &properties, &skip);
         let (Ok(with), Ok(without)) = (&with, &without) else {

@@ -68,7 +68,7 @@ pub const PERIOD_TICKS: u32 = 1_000_000;
 pub const UPDATE_TICKS: u32 = 100_000;
 /// Updates per phase turn.
 const UPDATES_PER_TURN: u64 = (PERIOD_TICKS / UPDATE_TICKS) as u64;
-const _: () = assert!(PERIOD_TICKS % UPDATE_TICKS == 0);
+const _: () = assert!(PERIOD_TICKS.is_multiple_of(UPDATE_TICKS));
 
 /// How long before its update instant node `id` sends its beacon, timer ticks: 35 to
 /// 75 ms, by the id modulo five.

@@ -230,11 +230,16 @@ fi
 pi_status=0
 KI_Q16=${CHAIN_KI_Q16:-16} SMOOTHING=${CHAIN_SMOOTHING:-5} RUN_MS=${CHAIN_PI_RUN_MS:-900000} \
     REFERENCE=$pi_reference LOG_DIR=$chain_logs/pi "$here/run-chain.sh" "$m4/chain" || pi_status=$?
-if [[ -n $pi_reference ]]; then
-    # chain-pi.toml describes the leaderless chain; a scenario's reference node runs at
-    # the nominal rate, the emulated one at its crystal's, so there is no scenario for
-    # this run yet.
-    echo "field: skipped for the PI chain with a reference node (chain-pi.toml describes the chain without one)"
+if [[ $pi_reference == 0 ]]; then
+    # chain-pi-ref.toml describes this run on the reference's clock (its header says
+    # why). Reported, not gating: over 15 minutes the host stalls some node more than
+    # once, and a reception stamped 15 to 20 ms late anywhere after the budget (540 s)
+    # moves the observed settling past it (a passing run here: settled 491.8 s, from such
+    # a spike; noise floor p99 1.6 ms).
+    step "field check of the PI chain's telemetry against boards/chain-pi-ref.toml (reported only)"
+    field_check chain-pi-ref.toml "$chain_logs/pi" || true
+elif [[ -n $pi_reference ]]; then
+    echo "field: skipped for the PI chain with node $pi_reference a reference (chain-pi-ref.toml describes node 0 as the reference)"
 else
     # The PI chain's field report, printed, not gating (issue 12).
     step "field check of the PI chain's telemetry against boards/chain-pi.toml (reported only)"

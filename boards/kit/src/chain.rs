@@ -91,11 +91,11 @@ fn beacon_lead(id: u16) -> u32 {
 /// chain's updates up once the phases are: a neighbour's beacon, sent 25 to 65 ms after
 /// its update ([`beacon_lead`]), then arrives 35 to 75 ms before this node's next one,
 /// so an update or a send late by up to 25 ms (the loop wakes every 10 ms; the host
-/// deschedules QEMU) still has a fresh observation. With schedules
-/// fixed at power-up, a link whose beacons happened to land within such a delay of the
-/// receiver's update instant missed up to a quarter of its intervals (12.6 % on one
-/// link of a CI run). The rate trim is left out of the conversion: at most 200 ppm of
-/// 150 ms, 30 µs, and recomputed at every update, so it does not accumulate.
+/// deschedules QEMU) still has a fresh observation. With schedules fixed at power-up, a
+/// link whose beacons happened to land within such a delay of the receiver's update
+/// instant missed up to a quarter of its intervals (12.6 % on one link of a CI run). The
+/// rate trim is left out of the conversion: at most 200 ppm of 150 ms, 30 µs, and
+/// recomputed at every update, so it does not accumulate.
 fn ticks_to_next_update(phase: Phase) -> u32 {
     const TURN: u64 = 1 << 32;
     // In units of 1 / (2^32 · UPDATES_PER_TURN) turn: the phase, and the smallest grid

@@ -248,20 +248,28 @@ budget_s = 600
     Scenario::from_toml(Path::new("biased.toml"), &text).unwrap()
 }
 
-/// The closed form below for [`ideal_chain`] (4 links, 5 nodes, 0.1 turn per update):
-/// the common rate, ppm, when every node sees each neighbour late by `bias_turns`, at
-/// the gains and leak as the node runs them (Q16.16).
+/// [`ideal_chain`]'s nominal advance, turns per update (10 Hz updates of a 1 s period).
+const TURNS_PER_UPDATE: f64 = 0.1;
+
+/// The closed form below for [`ideal_chain`] (4 links, 5 nodes): the mean error every
+/// node pulls with, turns, when every node sees each neighbour late by `bias_turns`, at
+/// the proportional gain as the node runs it (Q16.16).
+fn mean_error_turns(constants: &NodeConstants, bias_turns: f64) -> f64 {
+    let kp = f64::from(constants.kp_q16) / 65536.0;
+    let (links, nodes) = (4.0, 5.0);
+    -2.0 * links * bias_turns / (nodes - links * kp)
+}
+
+/// The closed form below for [`ideal_chain`]: the common rate, ppm, when every node sees
+/// each neighbour late by `bias_turns`, at the gains and leak as the node runs them.
 fn closed_form_ppm(constants: &NodeConstants, bias_turns: f64) -> f64 {
-    let q16 = 65536.0;
-    let kp = f64::from(constants.kp_q16) / q16;
+    let kp = f64::from(constants.kp_q16) / 65536.0;
     let ki_over_leak = if constants.ki_q16 == 0 {
         0.0
     } else {
         f64::from(constants.ki_q16) / f64::from(constants.leak_q16)
     };
-    let (links, nodes, a) = (4.0, 5.0, 0.1);
-    let e_mean = -2.0 * links * bias_turns / (nodes - links * kp);
-    (kp + ki_over_leak) * e_mean / a * 1e6
+    (kp + ki_over_leak) * mean_error_turns(constants, bias_turns) / TURNS_PER_UPDATE * 1e6
 }
 
 /// A timing bias the nodes cannot see sets the network's common rate, in closed form.
@@ -320,25 +328,21 @@ fn without_a_leak_an_unseen_bias_ramps_the_common_rate() {
     let constants = NodeConstants::new(&s, 0.25, 0.0002).unwrap();
     assert_eq!(constants.leak_q16, 0);
     let mut net = network_of(&s, &constants, 250_000);
-    // Pull in (kp/ki = 1,250 updates an e-fold; 5 nodes step in turn), then two windows
-    // 100,000 steps apart: the mean rate over a window is the rate at its middle.
+    // Pull in (kp/ki = 1,250 updates an e-fold; a step is one update of every node here,
+    // 0.1 s), then two windows 100,000 steps apart: the mean rate over a window is the
+    // rate at its middle. The time between is summed over windows of 10,000 steps
+    // (1,000 s): the u32 tick count of a 1 MHz timer wraps after 4,295 s.
     for _ in 0..50_000 {
         net.step();
     }
     let (first, first_s) = rate_over(&mut net, 10_000);
-    let mut between_s = 0.0;
-    for _ in 0..10 {
-        between_s += rate_over(&mut net, 10_000).1;
-    }
+    let between_s: f64 = (0..10).map(|_| rate_over(&mut net, 10_000).1).sum();
     let (second, second_s) = rate_over(&mut net, 10_000);
     let measured = (second - first) / (first_s / 2.0 + between_s + second_s / 2.0);
-    let (kp, ki) = (
-        f64::from(constants.kp_q16) / 65536.0,
-        f64::from(constants.ki_q16) / 65536.0,
-    );
-    let (links, nodes, a, updates_per_s) = (4.0, 5.0, 0.1, 10.0);
-    let e_mean = -2.0 * links * latency_s / (nodes - links * kp);
-    let expected = ki * e_mean / a * 1e6 * updates_per_s;
+    let ki = f64::from(constants.ki_q16) / 65536.0;
+    let updates_per_s = 10.0;
+    let expected =
+        ki * mean_error_turns(&constants, latency_s) / TURNS_PER_UPDATE * 1e6 * updates_per_s;
     // Measured when written: −0.1584 against −0.1587 ppm/s (0.2 %).
     assert!(
         (measured - expected).abs() <= 0.02 * expected.abs(),

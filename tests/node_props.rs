@@ -78,8 +78,20 @@ proptest! {
             last = now;
         }
         if law == Law::Linear {
-            let predicted = start * rho.powi(2 * steps);
-            prop_assert!(last <= predicted * 1.001 + 1e3 * n as f64, "{last} > {predicted}");
+            // The ideal affine map shrinks the disagreement's norm by ρ per update. Each
+            // node's step is rounded to whole counts (correction and phase advance; one
+            // count at most relative to node 0's, measured over 3,000 random chains of 2
+            // to 64 nodes; `PER_STEP` doubles that), a vector of norm ≤ √n·PER_STEP that the
+            // later updates shrink by ρ too; summed as a geometric series, the rounded
+            // run stays within √n·PER_STEP/(1 − ρ) of the ideal one in that norm
+            // (triangle inequality; projecting out the mean does not lengthen a vector).
+            const PER_STEP: f64 = 2.0;
+            let ideal = (start * rho.powi(2 * steps)).sqrt();
+            let slack = (n as f64).sqrt() * PER_STEP / (1.0 - rho);
+            prop_assert!(
+                last.sqrt() <= ideal + slack,
+                "norm {} > ideal {ideal} + rounding {slack}", last.sqrt()
+            );
         }
         prop_assert!(last < start || start < 1e4);
     }

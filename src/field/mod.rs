@@ -50,6 +50,27 @@
 //!   Under the P law (`ki = 0`) no node trims, so the trims say nothing of the crystals:
 //!   they are not estimated ([`FieldReport::crystals_estimated`] is false, every
 //!   [`NodeReport::crystal_ppm`] is `None`) rather than reported as 0 ppm.
+//! - **Common rate.** Without a reference node, the PI network's common rate is nominal
+//!   plus the mean trim, and nothing but the trim leak γ holds that mean: summed over
+//!   the nodes, the law's pulls cancel pair by pair except for a timing bias the links
+//!   leave (a few µs after two-way timing), so the mean trim m obeys
+//!   `m⁺ = (1 − γ)·m + ki·ē` (the common mode `z = 1 − γ` of the law's modes, see
+//!   [`crate::Node::update`]). Over the second half of the settled part of the logs (of
+//!   the whole when not settled: clear of the trims' pull-in, which outlasts the
+//!   phases'), the mean trim of every complete round is fitted by least squares to that
+//!   course, `m(t) = a + b·τ(1 − e^{−(t − t₀)/τ})` with τ the leak's time constant (a
+//!   straight line without a leak): a level it heads for, or a ramp ([`CommonTrim`]).
+//!   Each node's trim is carried along by the same course. The integrators' noise makes
+//!   the mean trim wander as well (a random walk the leak pulls back over its time
+//!   constant), so the trend is judged against that wander: the window is cut into
+//!   [`DRIFT_BLOCKS`] blocks, and the mean step between block means is set against its
+//!   standard error (a random walk's steps are independent; common practice, no
+//!   source). When the fitted course moved by more than [`DRIFT_MIN_MOVE_PPM`] over the
+//!   window and takes a trim to its limit, and either its trend stands [`DRIFT_MIN_T`]
+//!   standard errors clear of the wander or there is no leak (then nothing pulls a wander
+//!   back either, and the time the course gives is a guide, not a forecast), the warning
+//!   `trim_limit_ahead` says which node and when. With a reference node the common
+//!   rate is the reference's: not fitted.
 //!
 //! # Verdict
 //!
@@ -95,6 +116,17 @@ pub const STAMP_SIGMAS: f64 = 4.0;
 pub const FIT_MIN_POINTS: usize = 8;
 /// Fewest rounds after settling for a noise floor.
 pub const FLOOR_MIN_ROUNDS: usize = 10;
+/// The common trim's fitted line must move by more than this over its window, ppm, before
+/// `trim_limit_ahead`: settled trims wander by their integrators' noise, under 1 ppm
+/// in the emulated chain's runs (boards/README.md); twice that is a drift (a choice of
+/// ours, no source).
+pub const DRIFT_MIN_MOVE_PPM: f64 = 2.0;
+/// The common trim's trend must stand this many standard errors clear of its wander
+/// before `trim_limit_ahead` (see [`CommonTrim::trend_t`]; about 1 in 250 for a
+/// trend-free wander, Student's t with 8 degrees of freedom, from memory).
+pub const DRIFT_MIN_T: f64 = 4.0;
+/// Blocks the window is cut into for [`CommonTrim::trend_t`].
+pub const DRIFT_BLOCKS: usize = 10;
 /// A crystal estimate is out of tolerance beyond `2 × tolerance + this` ppm (non-pinned:
 /// the median crystal, taken as nominal, may itself be off by the tolerance).
 pub const CRYSTAL_SLACK_PPM: f64 = 1.0;
@@ -176,6 +208,50 @@ pub struct Decay {
     pub start_error_s: f64,
     /// Rounds in the window.
     pub points: usize,
+}
+
+/// The network's common rate over the settled logs: the mean trim per complete round,
+/// fitted to the course the trim leak gives it (see the module docs).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct CommonTrim {
+    /// Window of the fit, seconds from power-up.
+    pub from_s: f64,
+    /// End of the window.
+    pub to_s: f64,
+    /// Rounds in the window.
+    pub points: usize,
+    /// The leak's time constant, seconds (`None`: no leak, the course is a line).
+    pub leak_time_constant_s: Option<f64>,
+    /// The fitted mean trim at `to_s`, ppm.
+    pub end_ppm: f64,
+    /// The fitted course's slope at `to_s`, ppm per minute.
+    pub slope_ppm_per_min: f64,
+    /// How far the fitted course moved over the window, ppm.
+    pub moved_ppm: f64,
+    /// The trend against the wander: the mean step between consecutive block means over
+    /// its standard error (capped at ±10⁶, which a wander-free trend reaches; 0 with
+    /// too few rounds).
+    pub trend_t: f64,
+    /// The level the course heads for, ppm (`None` without a leak).
+    pub heading_to_ppm: Option<f64>,
+    /// On this course, the node whose trim (in the window's last round) reaches its limit
+    /// first, and the minutes after `to_s` until it does (`None`: none ever does).
+    pub first_at_limit: Option<(usize, f64)>,
+    /// The trim limit, ppm.
+    pub limit_ppm: f64,
+}
+
+impl CommonTrim {
+    /// The fitted course moved by more than [`DRIFT_MIN_MOVE_PPM`] over the window and
+    /// takes a trim to its limit, and either its trend stands [`DRIFT_MIN_T`] standard
+    /// errors clear of the wander or there is no leak (nothing pulls a wander back: trend
+    /// and wander alike accumulate).
+    #[must_use]
+    pub fn limit_ahead(&self) -> bool {
+        self.moved_ppm.abs() > DRIFT_MIN_MOVE_PPM
+            && self.first_at_limit.is_some()
+            && (self.trend_t.abs() > DRIFT_MIN_T || self.leak_time_constant_s.is_none())
+    }
 }
 
 /// Why the field check fails, each with a stable code.
@@ -346,11 +422,13 @@ pub enum FieldWarning {
     IncompleteRounds(u64, u64),
     /// No decay could be fitted (too few rounds in the transient).
     NoDecayFit,
+    /// On the common trim's observed course a trim reaches its limit ([`CommonTrim::limit_ahead`]).
+    TrimLimitAhead(CommonTrim),
 }
 
 impl FieldWarning {
     /// Every code.
-    pub const CODES: [&'static str; 8] = [
+    pub const CODES: [&'static str; 9] = [
         "malformed_lines",
         "duplicate_records",
         "log_gaps",
@@ -359,6 +437,7 @@ impl FieldWarning {
         "one_way_links",
         "incomplete_rounds",
         "no_decay_fit",
+        "trim_limit_ahead",
     ];
 
     /// The stable code.
@@ -373,6 +452,7 @@ impl FieldWarning {
             FieldWarning::OneWay(_) => "one_way_links",
             FieldWarning::IncompleteRounds(..) => "incomplete_rounds",
             FieldWarning::NoDecayFit => "no_decay_fit",
+            FieldWarning::TrimLimitAhead(_) => "trim_limit_ahead",
         }
     }
 }
@@ -403,6 +483,36 @@ impl fmt::Display for FieldWarning {
                 f,
                 "no decay rate fitted: fewer than {FIT_MIN_POINTS} rounds in the transient"
             ),
+            FieldWarning::TrimLimitAhead(c) => {
+                write!(
+                    f,
+                    "the common rate drifts {:+.2} ppm a minute ({:+.1} ppm between {} and {}; mean trim {:+.1} ppm at the end",
+                    c.slope_ppm_per_min,
+                    c.moved_ppm,
+                    assess::seconds(c.from_s),
+                    assess::seconds(c.to_s),
+                    c.end_ppm
+                )?;
+                match c.heading_to_ppm {
+                    Some(h) => write!(
+                        f,
+                        ", heading for {h:+.1} ppm; the trend {:.1} standard errors clear of the wander)",
+                        c.trend_t.abs()
+                    )?,
+                    None => write!(
+                        f,
+                        ", no trim leak to hold it: trend and wander alike accumulate)"
+                    )?,
+                }
+                if let Some((id, min)) = c.first_at_limit {
+                    write!(
+                        f,
+                        "; on this course node {id}'s trim reaches its ±{:.1} ppm limit {:.0} min after the logs end",
+                        c.limit_ppm, min
+                    )?;
+                }
+                Ok(())
+            }
         }
     }
 }
@@ -466,6 +576,8 @@ pub struct FieldReport {
     pub noise_limit_s: Option<f64>,
     /// The decay fit.
     pub decay: Option<Decay>,
+    /// The common rate's drift (`None` under the P law, or too few complete rounds).
+    pub common_trim: Option<CommonTrim>,
     /// Why it fails (empty: pass).
     pub reasons: Vec<FieldReason>,
     /// Warnings.
@@ -918,6 +1030,24 @@ pub fn analyse(a: &Assessment, logs: &LogSet) -> Result<FieldReport, AssessError
         .noise_floor
         .map(|nf| NOISE_FACTOR * nf.p99_s + allowance);
     let decay = fit_decay(a, &error_s, settle_index, noise_floor_s, tol_s);
+    let common_trim = if crystals_estimated && reference.is_none() {
+        let complete: Vec<(f64, Vec<(usize, f64)>)> = rounds
+            .iter()
+            .filter(|(_, present)| present.len() == logging.len())
+            .map(|(&t, present)| {
+                let trims = present
+                    .iter()
+                    .map(|&(i, k)| (i, f64::from(rec(k).head.trim_ppb) / 1000.0))
+                    .collect();
+                (t as f64 / rate, trims)
+            })
+            .collect();
+        let leak = c.leak();
+        let tau_s = (leak > 0.0).then(|| -1.0 / (1.0 - leak).ln() / rate);
+        fit_common_trim(&complete, settle_s, limit_ppb / 1000.0, tau_s)
+    } else {
+        None
+    };
 
     // Verdict.
     let mut reasons = Vec::new();
@@ -986,6 +1116,11 @@ pub fn analyse(a: &Assessment, logs: &LogSet) -> Result<FieldReport, AssessError
     if incomplete > 0 {
         warnings.push(FieldWarning::IncompleteRounds(incomplete, span));
     }
+    if let Some(c) = common_trim
+        && c.limit_ahead()
+    {
+        warnings.push(FieldWarning::TrimLimitAhead(c));
+    }
     Ok(FieldReport {
         log,
         links,
@@ -1000,9 +1135,121 @@ pub fn analyse(a: &Assessment, logs: &LogSet) -> Result<FieldReport, AssessError
         noise_floor_s,
         noise_limit_s,
         decay,
+        common_trim,
         reasons,
         warnings,
     })
+}
+
+/// The common trim's course over `rounds` (seconds from power-up, and each node's trim in
+/// ppm), over the second half of the settled part (of the whole without settling), with the leak's
+/// time constant `tau_s` (`None`: no leak); `None` with fewer than [`FIT_MIN_POINTS`]
+/// rounds there. The course is `a + b·g(t)` with `g = τ(1 − e^{−(t − t₀)/τ})` (minutes;
+/// `t − t₀` without a leak), fitted by least squares in `g`.
+#[must_use]
+pub fn fit_common_trim(
+    rounds: &[(f64, Vec<(usize, f64)>)],
+    settle_s: Option<f64>,
+    limit_ppm: f64,
+    tau_s: Option<f64>,
+) -> Option<CommonTrim> {
+    let (first, last) = (rounds.first()?.0, rounds.last()?.0);
+    // The second half of the settled part (of the whole without settling): clear of the
+    // trims' pull-in, which outlasts the phases'.
+    let from = 0.5 * (settle_s.unwrap_or(first) + last);
+    let window: Vec<&(f64, Vec<(usize, f64)>)> = rounds
+        .iter()
+        .filter(|(t, trims)| *t >= from && !trims.is_empty())
+        .collect();
+    if window.len() < FIT_MIN_POINTS {
+        return None;
+    }
+    let (from_s, to_s) = (window[0].0, window[window.len() - 1].0);
+    let tau_min = tau_s
+        .filter(|t| t.is_finite() && *t > 0.0)
+        .map(|t| t / 60.0);
+    let g = |t_s: f64| {
+        let x = (t_s - from_s) / 60.0;
+        tau_min.map_or(x, |tau| tau * -(-x / tau).exp_m1())
+    };
+    let points: Vec<(f64, f64)> = window
+        .iter()
+        .map(|(t, trims)| {
+            let mean = trims.iter().map(|x| x.1).sum::<f64>() / trims.len() as f64;
+            (g(*t), mean)
+        })
+        .collect();
+    let (a, b) = fit_line(&points)?;
+    let trend_t = trend_t(&points.iter().map(|p| p.1).collect::<Vec<_>>());
+    let end_ppm = a + b * g(to_s);
+    let span_min = (to_s - from_s) / 60.0;
+    let slope = tau_min.map_or(b, |tau| b * (-span_min / tau).exp());
+    let heading_to_ppm = tau_min.map(|tau| a + b * tau);
+    // Each node's trim is carried by the course from where it was in the last round.
+    let headroom = |trim: f64| {
+        if slope > 0.0 {
+            limit_ppm - trim
+        } else {
+            limit_ppm + trim
+        }
+    };
+    let minutes = |room: f64| -> Option<f64> {
+        let room = room.max(0.0);
+        match heading_to_ppm {
+            None => (slope != 0.0).then(|| room / slope.abs()),
+            Some(h) => {
+                let still = (h - end_ppm).abs();
+                let tau = tau_min.unwrap_or(f64::INFINITY);
+                (room < still).then(|| -tau * (-room / still).ln_1p())
+            }
+        }
+    };
+    let first_at_limit = window[window.len() - 1]
+        .1
+        .iter()
+        .filter_map(|&(id, trim)| minutes(headroom(trim)).map(|m| (id, m)))
+        .min_by(|x, y| x.1.total_cmp(&y.1));
+    Some(CommonTrim {
+        from_s,
+        to_s,
+        points: points.len(),
+        leak_time_constant_s: tau_min.map(|t| t * 60.0),
+        end_ppm,
+        slope_ppm_per_min: slope,
+        moved_ppm: end_ppm - a,
+        trend_t,
+        heading_to_ppm,
+        first_at_limit,
+        limit_ppm,
+    })
+}
+
+/// The mean step between the means of [`DRIFT_BLOCKS`] equal blocks of `y` over its
+/// standard error, capped at ±10⁶ (every step equal and not 0); 0 for fewer than two
+/// rounds a block.
+fn trend_t(y: &[f64]) -> f64 {
+    let per = y.len() / DRIFT_BLOCKS;
+    if per < 2 {
+        return 0.0;
+    }
+    let means: Vec<f64> = y
+        .chunks_exact(per)
+        .take(DRIFT_BLOCKS)
+        .map(|c| c.iter().sum::<f64>() / per as f64)
+        .collect();
+    let steps: Vec<f64> = means.windows(2).map(|w| w[1] - w[0]).collect();
+    let k = steps.len() as f64;
+    let mean = steps.iter().sum::<f64>() / k;
+    let var = steps.iter().map(|d| (d - mean).powi(2)).sum::<f64>() / (k - 1.0);
+    let se = (var / k).sqrt();
+    const CAP: f64 = 1e6;
+    if mean == 0.0 {
+        0.0
+    } else if se * CAP > mean.abs() {
+        mean / se
+    } else {
+        CAP.copysign(mean)
+    }
 }
 
 /// The decay fit over the transient (see the module docs).

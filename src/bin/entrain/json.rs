@@ -475,6 +475,21 @@ pub fn field(
                 "to_s": num(d.to_s),
                 "points": d.points,
             })),
+            "common_trim": r.common_trim.map_or(Value::Null, |c| json!({
+                "from_s": num(c.from_s),
+                "to_s": num(c.to_s),
+                "points": c.points,
+                "end_ppm": num(c.end_ppm),
+                "slope_ppm_per_min": num(c.slope_ppm_per_min),
+                "moved_ppm": num(c.moved_ppm),
+                "trend_t": num(c.trend_t),
+                "leak_time_constant_s": opt(c.leak_time_constant_s),
+                "heading_to_ppm": opt(c.heading_to_ppm),
+                "limit_ahead": c.limit_ahead(),
+                "first_at_limit_node": c.first_at_limit.map_or(Value::Null, |(id, _)| json!(id)),
+                "minutes_to_limit": opt(c.first_at_limit.map(|(_, min)| min)),
+                "limit_ppm": num(c.limit_ppm),
+            })),
         }),
     );
     m.insert(

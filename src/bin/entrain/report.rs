@@ -1011,6 +1011,28 @@ pub fn field(c: &entrain::field::FieldCheck, plot: Option<&Path>) -> String {
             );
         }
     }
+    if let Some(c) = &r.common_trim {
+        row(
+            &mut s,
+            "common rate, fitted",
+            &format!("{:+.3} ppm/min", c.slope_ppm_per_min),
+            &format!(
+                "mean trim {:+.1} ppm at the end, moved {:+.1} ppm over {} rounds between {} and {}; {}",
+                c.end_ppm,
+                c.moved_ppm,
+                c.points,
+                seconds(c.from_s),
+                seconds(c.to_s),
+                match (c.heading_to_ppm, c.leak_time_constant_s) {
+                    (Some(h), Some(t)) => format!(
+                        "heading for {h:+.1} ppm (trim leak, time constant {})",
+                        seconds(t)
+                    ),
+                    _ => "no trim leak to hold it".to_owned(),
+                }
+            ),
+        );
+    }
     heading(&mut s, "Warnings");
     if r.warnings.is_empty() {
         let _ = writeln!(s, "  none");

@@ -595,3 +595,49 @@ fn the_boards_scenario_files_read() {
     }
     assert!(read >= 4, "{read} scenario files in boards/");
 }
+
+/// The trend statistic on trend-free random walks stays within ±[`DRIFT_MIN_T`] about as
+/// often as Student's t with 8 degrees of freedom does (beyond ±4 with probability
+/// 0.0039), and a ramp of 0.3 of the walk's step per round stands clear of it.
+/// Pseudo-random steps from a fixed xorshift generator (Marsaglia 2003), uniform on
+/// ±√3 (unit variance).
+#[test]
+fn the_trend_statistic_tells_a_ramp_from_a_random_walk() {
+    let mut state: u64 = 0x9E37_79B9_7F4A_7C15;
+    let mut step = move || {
+        state ^= state << 13;
+        state ^= state >> 7;
+        state ^= state << 17;
+        ((state >> 11) as f64 / (1u64 << 53) as f64 * 2.0 - 1.0) * 3f64.sqrt()
+    };
+    let walk = |ramp: f64, step: &mut dyn FnMut() -> f64| {
+        let mut y = 0.0;
+        (0..4_000)
+            .map(|k| {
+                y += step() + ramp;
+                (f64::from(k) / 10.0, vec![(0usize, y)])
+            })
+            .collect::<Vec<_>>()
+    };
+    let walks = 2_000;
+    let mut beyond = 0;
+    for _ in 0..walks {
+        let c = entrain::field::fit_common_trim(&walk(0.0, &mut step), None, 1e9, None).unwrap();
+        beyond += usize::from(c.trend_t.abs() > DRIFT_MIN_T);
+    }
+    let rate = beyond as f64 / f64::from(walks);
+    // 0.39 % expected: 7.8 of 2,000 (10 when written); allow up to 1 %.
+    assert!(
+        rate <= 0.01,
+        "{beyond} of {walks} walks beyond ±{DRIFT_MIN_T}"
+    );
+    let mut found = 0;
+    for _ in 0..100 {
+        let c = entrain::field::fit_common_trim(&walk(0.3, &mut step), None, 1e9, None).unwrap();
+        found += usize::from(c.trend_t > DRIFT_MIN_T);
+    }
+    assert_eq!(
+        found, 100,
+        "a ramp of 0.3 step per round, over 2,000 rounds"
+    );
+}

@@ -64,8 +64,8 @@
 //!   the mean trim wander as well (a random walk the leak pulls back over its time
 //!   constant), so the trend is judged against that wander: the window is cut into
 //!   [`DRIFT_BLOCKS`] blocks, and the mean step between block means is set against its
-//!   standard error (a random walk's steps are independent; common practice, no
-//!   source). When the fitted course moved by more than [`DRIFT_MIN_MOVE_PPM`] over the
+//!   standard error (common practice, no source), widened for the ¼ correlation of
+//!   neighbouring steps between a random walk's block means (own derivation). When the fitted course moved by more than [`DRIFT_MIN_MOVE_PPM`] over the
 //!   window and takes a trim to its limit, and either its trend stands [`DRIFT_MIN_T`]
 //!   standard errors clear of the wander or there is no leak (then nothing pulls a wander
 //!   back either, and the time the course gives is a guide, not a forecast), the warning
@@ -116,14 +116,16 @@ pub const STAMP_SIGMAS: f64 = 4.0;
 pub const FIT_MIN_POINTS: usize = 8;
 /// Fewest rounds after settling for a noise floor.
 pub const FLOOR_MIN_ROUNDS: usize = 10;
-/// The common trim's fitted line must move by more than this over its window, ppm, before
-/// `trim_limit_ahead`: settled trims wander by their integrators' noise, under 1 ppm
-/// in the emulated chain's runs (boards/README.md); twice that is a drift (a choice of
-/// ours, no source).
+/// The common trim's fitted course must move by more than this over its window, ppm,
+/// before `trim_limit_ahead`: a smaller move is left alone whatever its trend (twice the
+/// 1 ppm the crystal estimates are allowed, [`CRYSTAL_SLACK_PPM`]; a choice of ours, no
+/// source).
 pub const DRIFT_MIN_MOVE_PPM: f64 = 2.0;
 /// The common trim's trend must stand this many standard errors clear of its wander
-/// before `trim_limit_ahead` (see [`CommonTrim::trend_t`]; about 1 in 250 for a
-/// trend-free wander, Student's t with 8 degrees of freedom, from memory).
+/// before `trim_limit_ahead` (see [`CommonTrim::trend_t`]). For a trend-free random walk
+/// the statistic is roughly Student's t with 8 degrees of freedom (nine steps), beyond ±4
+/// with probability 0.0039 (the t density integrated numerically when this was
+/// written); `tests/field.rs` measures it on simulated random walks.
 pub const DRIFT_MIN_T: f64 = 4.0;
 /// Blocks the window is cut into for [`CommonTrim::trend_t`].
 pub const DRIFT_BLOCKS: usize = 10;
@@ -1241,7 +1243,10 @@ fn trend_t(y: &[f64]) -> f64 {
     let k = steps.len() as f64;
     let mean = steps.iter().sum::<f64>() / k;
     let var = steps.iter().map(|d| (d - mean).powi(2)).sum::<f64>() / (k - 1.0);
-    let se = (var / k).sqrt();
+    // For a random walk, neighbouring steps between block means share a block and
+    // correlate by ¼ (own derivation: triangular weights over the shared block, ∫u(1−u)
+    // against 2∫u²); the variance of their mean grows by 1 + 2·¼·(k − 1)/k.
+    let se = (var / k * (1.0 + 0.5 * (k - 1.0) / k)).sqrt();
     const CAP: f64 = 1e6;
     if mean == 0.0 {
         0.0

@@ -65,12 +65,13 @@
 //!   constant), so the trend is judged against that wander: the window is cut into
 //!   [`DRIFT_BLOCKS`] blocks, and the mean step between block means is set against its
 //!   standard error (common practice, no source), widened for the ¼ correlation of
-//!   neighbouring steps between a random walk's block means (own derivation). When the fitted course moved by more than [`DRIFT_MIN_MOVE_PPM`] over the
-//!   window and takes a trim to its limit, and either its trend stands [`DRIFT_MIN_T`]
-//!   standard errors clear of the wander or there is no leak (then nothing pulls a wander
-//!   back either, and the time the course gives is a guide, not a forecast), the warning
-//!   `trim_limit_ahead` says which node and when. With a reference node the common
-//!   rate is the reference's: not fitted.
+//!   neighbouring steps between a random walk's block means (own derivation). When the
+//!   fitted course moved by more than [`DRIFT_MIN_MOVE_PPM`] over the window and takes a
+//!   trim to its limit, and either its trend stands [`DRIFT_MIN_T`] standard errors clear
+//!   of the wander or there is no leak (then nothing pulls a wander back either, and the
+//!   time the course gives is a guide, not a forecast), the warning `trim_limit_ahead`
+//!   says which node and when. With a reference node the common rate is the
+//!   reference's: not fitted.
 //!
 //! # Verdict
 //!
@@ -424,7 +425,8 @@ pub enum FieldWarning {
     IncompleteRounds(u64, u64),
     /// No decay could be fitted (too few rounds in the transient).
     NoDecayFit,
-    /// On the common trim's observed course a trim reaches its limit ([`CommonTrim::limit_ahead`]).
+    /// On the common trim's observed course a trim reaches its limit
+    /// ([`CommonTrim::limit_ahead`]).
     TrimLimitAhead(CommonTrim),
 }
 
@@ -1044,8 +1046,8 @@ pub fn analyse(a: &Assessment, logs: &LogSet) -> Result<FieldReport, AssessError
                 (t as f64 / rate, trims)
             })
             .collect();
-        let leak = c.leak();
-        let tau_s = (leak > 0.0).then(|| -1.0 / (1.0 - leak).ln() / rate);
+        // The common mode's factor per update is 1 − γ.
+        let tau_s = Some(time_constant_s(1.0 - c.leak(), rate)).filter(|t| t.is_finite());
         fit_common_trim(&complete, settle_s, limit_ppb / 1000.0, tau_s)
     } else {
         None
@@ -1144,9 +1146,9 @@ pub fn analyse(a: &Assessment, logs: &LogSet) -> Result<FieldReport, AssessError
 }
 
 /// The common trim's course over `rounds` (seconds from power-up, and each node's trim in
-/// ppm), over the second half of the settled part (of the whole without settling), with the leak's
-/// time constant `tau_s` (`None`: no leak); `None` with fewer than [`FIT_MIN_POINTS`]
-/// rounds there. The course is `a + b·g(t)` with `g = τ(1 − e^{−(t − t₀)/τ})` (minutes;
+/// ppm), over the second half of the settled part (of the whole without settling), with
+/// the leak's time constant `tau_s` (`None`: no leak); `None` with fewer than
+/// [`FIT_MIN_POINTS`] rounds there. The course is `a + b·g(t)` with `g = τ(1 − e^{−(t − t₀)/τ})` (minutes;
 /// `t − t₀` without a leak), fitted by least squares in `g`.
 #[must_use]
 pub fn fit_common_trim(
@@ -1195,15 +1197,16 @@ pub fn fit_common_trim(
             limit_ppm + trim
         }
     };
+    // Minutes until the course has moved by `room`: at the slope without a leak; with
+    // one, while the level is farther away than `room`.
     let minutes = |room: f64| -> Option<f64> {
         let room = room.max(0.0);
-        match heading_to_ppm {
-            None => (slope != 0.0).then(|| room / slope.abs()),
-            Some(h) => {
+        match (tau_min, heading_to_ppm) {
+            (Some(tau), Some(h)) => {
                 let still = (h - end_ppm).abs();
-                let tau = tau_min.unwrap_or(f64::INFINITY);
                 (room < still).then(|| -tau * (-room / still).ln_1p())
             }
+            _ => (slope != 0.0).then(|| room / slope.abs()),
         }
     };
     let first_at_limit = window[window.len() - 1]
@@ -1257,6 +1260,16 @@ fn trend_t(y: &[f64]) -> f64 {
     }
 }
 
+/// The time constant, seconds, of a factor `rho` per update at `rate` updates a second:
+/// `−1/ln ρ` updates; infinite outside 0 < ρ < 1 (not decaying).
+fn time_constant_s(rho: f64, rate: f64) -> f64 {
+    if rho < 1.0 && rho > 0.0 {
+        -1.0 / rho.ln() / rate
+    } else {
+        f64::INFINITY
+    }
+}
+
 /// The decay fit over the transient (see the module docs).
 fn fit_decay(
     a: &Assessment,
@@ -1290,13 +1303,7 @@ fn fit_decay(
     let (icpt, slope) = fit_line(&window)?;
     let fitted = slope.exp();
     let predicted = a.prediction.stability.mean_radius_with_loss;
-    let tau = |rho: f64| {
-        if rho < 1.0 && rho > 0.0 {
-            -1.0 / rho.ln() / rate
-        } else {
-            f64::INFINITY
-        }
-    };
+    let tau = |rho: f64| time_constant_s(rho, rate);
     let from_s = error_s[start].0;
     Some(Decay {
         fitted_per_update: fitted,

@@ -4,8 +4,10 @@
 //! survives what real logs do (damage, repeats, gaps, reboots, counter wrap).
 #![cfg(feature = "field")]
 
-use entrain::Gain;
-use entrain::assess::{self, Assessment, Options};
+mod common;
+
+use common::biased::{ramp_ppm_per_s, unseen_latency_chain};
+use entrain::assess::{self, Assessment, NodeConstants, Options};
 use entrain::field::{
     DRIFT_MIN_MOVE_PPM, DRIFT_MIN_T, FieldReason, FieldWarning, LogSet, field_check, fit_line,
     simulate_logs,
@@ -50,23 +52,38 @@ fn assessed(s: Scenario) -> Assessment {
     assess::assess(s.clone(), &Options::predict_only(&s), &|_| {}).unwrap()
 }
 
-/// Logs of run 0 of `truth` (with extra per-link losses), as a log set, plus the
-/// crystals the run drew.
-fn logs_of(truth: &Scenario, link_loss: &[(usize, usize, f64)]) -> LogSet {
+/// The text logs of run 0 of `truth`, one per node, over `updates` (the prediction's
+/// horizon when `None`), with extra per-link losses.
+fn run_logs(
+    truth: &Scenario,
+    updates: Option<u64>,
+    link_loss: &[(usize, usize, f64)],
+) -> Vec<String> {
     let a = assessed(truth.clone());
-    let setup = assess::setup(
-        &a.scenario,
-        &a.network,
-        &a.prediction.constants,
-        a.prediction.horizon_updates,
-    )
-    .unwrap();
-    let logs = simulate_logs(truth, &setup, truth.seed, 0, link_loss).unwrap();
+    let horizon = updates.unwrap_or(a.prediction.horizon_updates);
+    let setup = assess::setup(&a.scenario, &a.network, &a.prediction.constants, horizon).unwrap();
+    simulate_logs(truth, &setup, truth.seed, 0, link_loss).unwrap()
+}
+
+/// `logs` as a log set (`node-K.log`), each cut to its first `lines` when given.
+fn log_set(logs: &[String], lines: Option<usize>) -> LogSet {
     let mut set = LogSet::new();
     for (id, text) in logs.iter().enumerate() {
-        set.add_text(Path::new(&format!("node-{id}.log")), text);
+        let name = format!("node-{id}.log");
+        match lines {
+            None => set.add_text(Path::new(&name), text),
+            Some(n) => {
+                let head: String = text.lines().take(n).map(|l| l.to_owned() + "\n").collect();
+                set.add_text(Path::new(&name), &head);
+            }
+        }
     }
     set
+}
+
+/// Logs of run 0 of `truth` (with extra per-link losses), as a log set.
+fn logs_of(truth: &Scenario, link_loss: &[(usize, usize, f64)]) -> LogSet {
+    log_set(&run_logs(truth, None, link_loss), None)
 }
 
 #[test]
@@ -436,41 +453,10 @@ budget_s = 60
 /// the common trim follows `m⁺ = (1 − γ)m + ki·ē`. Logs of the first five minutes after
 /// the pull-in, fitted, foretell the simulated run carried on far past them: with a
 /// leak, the level the mean trim reaches after six leak time constants; without one, the
-/// slope it keeps. (The chain of `ideal_chain` in `tests/pi_links.rs`, whose closed forms
-/// apply, written out again here with the leak and limit as parameters.)
+/// slope it keeps. (The chain of `tests/pi_links.rs`, `common::biased`, whose closed forms
+/// apply.)
 fn biased_chain(leak: f64, limit_ppm: f64) -> Scenario {
-    let text = format!(
-        r#"
-version = 1
-name = "Hedge wire"
-[network]
-topology = "chain"
-nodes = 5
-[timing]
-update_rate_hz = 10
-phase_period_s = 1
-timer_hz = 1_000_000
-[law]
-coupling = "sine"
-kp = 0.25
-ki = 0.0002
-trim_leak = {leak}
-trim_limit_ppm = {limit_ppm}
-[clock]
-crystal_tolerance_ppm = 1
-crystal_ppm = [0, 0, 0, 0, 0]
-stamping = "nearest"
-[link]
-latency_range_s = [0.000004, 0.000004]
-latency_known = false
-beacon_version = 1
-[lock]
-initial_spread_s = 0.01
-tolerance_s = 0.001
-budget_s = 600
-"#
-    );
-    Scenario::from_toml(Path::new("hedge.toml"), &text).unwrap()
+    unseen_latency_chain(leak, limit_ppm, 4e-6)
 }
 
 /// Mean trim (ppm) over every record of every node from update `from` to `to`.
@@ -486,22 +472,8 @@ fn mean_trim(logs: &LogSet, from: u32, to: u32) -> f64 {
 
 /// The simulated logs of `truth` over `updates`, whole and cut to the first `window`.
 fn long_and_short(truth: &Scenario, updates: u64, window: usize) -> (LogSet, LogSet) {
-    let a = assessed(truth.clone());
-    let setup = assess::setup(&a.scenario, &a.network, &a.prediction.constants, updates).unwrap();
-    let logs = simulate_logs(truth, &setup, truth.seed, 0, &[]).unwrap();
-    let mut short = LogSet::new();
-    let mut whole = LogSet::new();
-    for (id, text) in logs.iter().enumerate() {
-        let name = format!("node-{id}.log");
-        let head: String = text
-            .lines()
-            .take(window)
-            .map(|l| l.to_owned() + "\n")
-            .collect();
-        short.add_text(Path::new(&name), &head);
-        whole.add_text(Path::new(&name), text);
-    }
-    (short, whole)
+    let logs = run_logs(truth, Some(updates), &[]);
+    (log_set(&logs, Some(window)), log_set(&logs, None))
 }
 
 #[test]
@@ -562,14 +534,12 @@ fn the_common_trims_course_foretells_the_run_carried_on() {
         "fitted {:+.3} ppm/min, carried on {late:+.3} ppm/min; {c:?}",
         c.slope_ppm_per_min
     );
-    // And both against the closed form for this chain (tests/pi_links.rs, own derivation
+    // And both against the closed form for this chain (`common::biased`, own derivation
     // from the law as documented, no published source): every node pulls with the mean
     // error ē = −2·links·bias/(nodes − links·kp) turns, so the mean trim ramps by ki·ē
-    // per update, ki as the node runs it (Q16.16), a turn per second at 10 updates a
-    // turn.
-    let ki = Gain::from_f32(0.0002).unwrap().to_f64();
-    let e_bar = -2.0 * 4.0 * 4e-6 / (5.0 - 4.0 * 0.25);
-    let closed = ki * e_bar / 0.1 * 1e6 * 10.0 * 60.0;
+    // per update, ki as the node runs it (Q16.16).
+    let constants = NodeConstants::new(&biased_chain(0.0, 20_000.0), 0.25, 0.0002).unwrap();
+    let closed = ramp_ppm_per_s(&constants, 4e-6) * 60.0;
     assert!(
         (late - closed).abs() <= 0.01 * closed.abs(),
         "carried on {late:+.3} ppm/min, closed form {closed:+.3} ppm/min"

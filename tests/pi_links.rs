@@ -12,6 +12,9 @@
 
 use std::path::Path;
 
+mod common;
+
+use common::biased::{closed_form_ppm, ideal_chain, ramp_ppm_per_s, unseen_latency_chain};
 use entrain::assess::{NetworkModel, NodeConstants, setup};
 use entrain::scenario::Scenario;
 use entrain::sim::{Network, monte_carlo};
@@ -214,64 +217,6 @@ fn rate_over(net: &mut Network<2>, steps: u64) -> (f64, f64) {
     (((t1 - t0) / seconds - 1.0) * 1e6, seconds)
 }
 
-/// A 5-node chain of our own for the bias tests: 10 Hz updates of a 1 s period on a 1 MHz
-/// timer, ideal crystals, stamps to the nearest tick, version-1 beacons (no two-way
-/// timing); `law`, extra `[clock]` lines and `[link]` lines as given.
-fn ideal_chain(law: &str, clock: &str, link: &str) -> Scenario {
-    let text = format!(
-        r#"
-version = 1
-name = "biased chain"
-[network]
-topology = "chain"
-nodes = 5
-[timing]
-update_rate_hz = 10
-phase_period_s = 1
-timer_hz = 1_000_000
-[law]
-{law}
-[clock]
-crystal_tolerance_ppm = 1
-crystal_ppm = [0, 0, 0, 0, 0]
-stamping = "nearest"
-{clock}
-[link]
-{link}
-beacon_version = 1
-[lock]
-initial_spread_s = 0.01
-tolerance_s = 0.001
-budget_s = 600
-"#
-    );
-    Scenario::from_toml(Path::new("biased.toml"), &text).unwrap()
-}
-
-/// [`ideal_chain`]'s nominal advance, turns per update (10 Hz updates of a 1 s period).
-const TURNS_PER_UPDATE: f64 = 0.1;
-
-/// The closed form below for [`ideal_chain`] (4 links, 5 nodes): the mean error every
-/// node pulls with, turns, when every node sees each neighbour late by `bias_turns`, at
-/// the proportional gain as the node runs it (Q16.16).
-fn mean_error_turns(constants: &NodeConstants, bias_turns: f64) -> f64 {
-    let kp = f64::from(constants.kp_q16) / 65536.0;
-    let (links, nodes) = (4.0, 5.0);
-    -2.0 * links * bias_turns / (nodes - links * kp)
-}
-
-/// The closed form below for [`ideal_chain`]: the common rate, ppm, when every node sees
-/// each neighbour late by `bias_turns`, at the gains and leak as the node runs them.
-fn closed_form_ppm(constants: &NodeConstants, bias_turns: f64) -> f64 {
-    let kp = f64::from(constants.kp_q16) / 65536.0;
-    let ki_over_leak = if constants.ki_q16 == 0 {
-        0.0
-    } else {
-        f64::from(constants.ki_q16) / f64::from(constants.leak_q16)
-    };
-    (kp + ki_over_leak) * mean_error_turns(constants, bias_turns) / TURNS_PER_UPDATE * 1e6
-}
-
 /// A timing bias the nodes cannot see sets the network's common rate, in closed form.
 ///
 /// Every node sees each neighbour late by the same unknown latency `L` (turns): version-1
@@ -311,7 +256,7 @@ fn an_unseen_bias_sets_the_common_rate_in_closed_form() {
 }
 
 /// Without a leak the integrals have no equilibrium under a bias: every node pulls with
-/// the same mean error `ē` (the closed form above) and every integral, hence the common
+/// the same mean error `ē` (`common::biased::mean_error_turns`) and every integral, hence the common
 /// rate, ramps by `ki · ē / A` per update, for ever, until the trims reach their limit.
 /// This is the drift the emulated chain shows without a reference node (boards/README.md,
 /// "Without a reference"): there `ē` is measured (the links' summed bias over `n`); here it
@@ -320,11 +265,7 @@ fn an_unseen_bias_sets_the_common_rate_in_closed_form() {
 #[test]
 fn without_a_leak_an_unseen_bias_ramps_the_common_rate() {
     let latency_s = 4e-6;
-    let s = ideal_chain(
-        "coupling = \"sine\"\nkp = 0.25\nki = 0.0002\ntrim_leak = 0\ntrim_limit_ppm = 20000",
-        "",
-        &format!("latency_range_s = [{latency_s}, {latency_s}]\nlatency_known = false"),
-    );
+    let s = unseen_latency_chain(0.0, 20_000.0, latency_s);
     let constants = NodeConstants::new(&s, 0.25, 0.0002).unwrap();
     assert_eq!(constants.leak_q16, 0);
     let mut net = network_of(&s, &constants, 250_000);
@@ -339,10 +280,7 @@ fn without_a_leak_an_unseen_bias_ramps_the_common_rate() {
     let between_s: f64 = (0..10).map(|_| rate_over(&mut net, 10_000).1).sum();
     let (second, second_s) = rate_over(&mut net, 10_000);
     let measured = (second - first) / (first_s / 2.0 + between_s + second_s / 2.0);
-    let ki = f64::from(constants.ki_q16) / 65536.0;
-    let updates_per_s = 10.0;
-    let expected =
-        ki * mean_error_turns(&constants, latency_s) / TURNS_PER_UPDATE * 1e6 * updates_per_s;
+    let expected = ramp_ppm_per_s(&constants, latency_s);
     // Measured when written: −0.1584 against −0.1587 ppm/s (0.2 %).
     assert!(
         (measured - expected).abs() <= 0.02 * expected.abs(),

@@ -3,6 +3,8 @@
 
 use entrain::{Config, Gain, Law, Node, Observation, Phase};
 
+#[cfg(feature = "assess")]
+pub mod biased;
 #[cfg(feature = "sim")]
 pub mod sim;
 
